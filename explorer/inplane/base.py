@@ -1,0 +1,19 @@
+"""The contract of a thermal model (lumped or 2-D in-plane).
+
+The time stepper drives any thermal model through these members:
+
+1. ``grid`` -- an :class:`explorer.inplane.grid.Grid` (a 1 x 1 grid for the
+   lumped model).
+2. ``heat_capacity_J_per_K`` -- the whole cell's (fin excluded).
+3. ``initial_state(temperature_C)`` -- uniform state array.
+4. ``step(state, heat_W, dt) -> (new_state, rejected_W)``: implicit step of
+   ``dt`` seconds with ``heat_W`` the generated heat per grid cell (array of
+   ``grid.shape``, W) held constant over the step; ``rejected_W`` maps each
+   sink ("front", "back", "bottom", ..., tab names) to the mean heat flow
+   into it over the step (W), so that stored + rejected = generated exactly
+   (to round-off) for the discrete scheme.
+5. ``temperature_C(state)`` -> array ``grid.shape`` (the cell sheet only);
+   ``mean_temperature_C(state)``; ``stored_J(state)`` relative to 0 degC
+   (fin included) for energy checks; ``core_surface_difference_K(heat_W)``
+   -- the through-plane core-to-surface estimate per grid cell.
+"""
