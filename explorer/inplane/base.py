@@ -6,9 +6,10 @@ The time stepper drives any thermal model through these members:
    lumped model).
 2. ``heat_capacity_J_per_K`` -- the whole cell's (fin excluded).
 3. ``initial_state(temperature_C)`` -- uniform state array.
-4. ``step(state, heat_W, dt) -> (new_state, rejected_W)``: implicit step of
-   ``dt`` seconds with ``heat_W`` the generated heat per grid cell (array of
-   ``grid.shape``, W) held constant over the step; ``rejected_W`` maps each
+4. ``step(state, heat_W, dt, tab_heat_W=None) -> (new_state, rejected_W)``:
+   implicit step of ``dt`` seconds with ``heat_W`` the generated heat per grid
+   cell (array of ``grid.shape``, W) and ``tab_heat_W`` a dict tab name -> W
+   (tab Joule heat) held constant over the step; ``rejected_W`` maps each
    sink ("front", "back", "bottom", ..., tab names) to the mean heat flow
    into it over the step (W), so that stored + rejected = generated exactly
    (to round-off) for the discrete scheme.
