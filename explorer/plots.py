@@ -1,0 +1,514 @@
+"""Plotly figures of a results Dataset: fields over the face, traces, heat split, comparisons, sizing.
+
+Every function reads only the results Dataset (see :func:`explorer.results.to_dataset`) or, for
+:func:`sizing_figure`, the object returned by :func:`explorer.size_cooling`. Nothing here runs a
+simulation. Lengths are shown in mm, temperatures in degC, time in s or min (chosen from the
+duration), heat in W and heat flux in W/m².
+
+Colour choices (our own): temperature on *cividis*, a perceptually uniform scale that stays
+readable for the common colour-vision deficiencies and in grey-scale print (Nuñez, Anderton &
+Renslow, "Optimizing colormaps with consideration for color vision deficiency", PLOS ONE 13 (2018)
+e0199239); SOC on *viridis*; heat flux on *inferno*; line colours from the Okabe–Ito palette
+(Okabe & Ito, "Color Universal Design", 2008).
+
+Examples
+--------
+>>> from explorer import plots                                  # doctest: +SKIP
+>>> plots.field_figure(ds).show()                               # doctest: +SKIP
+>>> plots.traces_figure(ds, limits=explorer.Limits(temperature_max_C=45, spread_K=5))  # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+import plotly.graph_objects as go
+from plotly.subplots import make_subplots
+
+logger = logging.getLogger(__name__)
+
+__all__ = [
+    "FIELDS",
+    "PALETTE",
+    "comparison_figure",
+    "field_figure",
+    "field_frame",
+    "frame_indices",
+    "heat_split_figure",
+    "limit_values",
+    "sizing_figure",
+    "time_axis",
+    "traces_figure",
+]
+
+# Okabe–Ito colour-blind-safe palette (black first for the reference line).
+PALETTE = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F0E442", "#000000")
+
+# variable -> (label, unit shown, scale factor from dataset units, colour scale)
+FIELDS = {
+    "temperature": ("Temperature", "°C", 1.0, "Cividis"),
+    "soc": ("State of charge", "%", 100.0, "Viridis"),
+    "heat_flux": ("Heat generation", "W/m²", 1.0, "Inferno"),
+}
+
+HEAT_PARTS = {
+    "heat_irreversible": "reaction (irreversible)",
+    "heat_reversible": "entropic (reversible)",
+    "heat_ohmic_electrolyte": "electrolyte Ohmic",
+    "heat_ohmic_solid": "electrode solid Ohmic",
+    "heat_collector": "current collectors",
+    "heat_tab": "tabs",
+}
+
+_LAYOUT = dict(
+    template="simple_white",
+    font=dict(family="Helvetica, Arial, sans-serif", size=13),
+    margin=dict(l=70, r=30, t=60, b=60),
+    hovermode="x unified",
+    legend=dict(orientation="h", yanchor="bottom", y=1.02, xanchor="left", x=0.0),
+)
+_LIMIT_STYLE = dict(color="#B2182B", width=1.5, dash="dash")
+_SHEET_STYLE = dict(color="#444444", width=1.5, dash="dot")
+
+MAX_FRAMES = 60  # frames per animated field; more only inflates the HTML without adding insight
+
+
+# ---------------------------------------------------------------------------------------------
+# checks and small helpers
+
+
+def _require(ds, names: Sequence[str], where: str) -> None:
+    """Raise a clear error when the Dataset lacks a variable a plot needs."""
+    if not hasattr(ds, "data_vars"):
+        raise TypeError(
+            f"{where}: expected an xarray.Dataset from explorer.simulate, got {type(ds).__name__}"
+        )
+    missing = [name for name in names if name not in ds.variables]
+    if missing:
+        raise ValueError(
+            f"{where}: the results Dataset has no variable(s) {', '.join(f'`{m}`' for m in missing)}; "
+            "expected a Dataset written by explorer.simulate / explorer.open_results"
+        )
+
+
+def time_axis(ds) -> tuple[np.ndarray, str, float]:
+    """Return (time values to plot, axis label, divisor from s): minutes for runs over 20 min."""
+    t = np.asarray(ds["time"].values, dtype=float)
+    duration = float(t[-1] - t[0]) if t.size else 0.0
+    if duration > 1200.0:
+        return t / 60.0, "Time (min)", 60.0
+    return t, "Time (s)", 1.0
+
+
+def frame_indices(n_time: int, max_frames: int = MAX_FRAMES) -> np.ndarray:
+    """Time indices to animate: all of them, or an even subsample always keeping the last."""
+    if n_time <= max_frames:
+        return np.arange(n_time)
+    return np.unique(np.linspace(0, n_time - 1, max_frames).round().astype(int))
+
+
+def limit_values(ds, limits=None) -> dict[str, float]:
+    """The limit lines to draw: the data-sheet maximum from the attributes and the user's Limits.
+
+    ``limits`` is duck-typed: anything with ``temperature_max_C`` and/or ``spread_K`` attributes
+    (normally :class:`explorer.Limits`), or a mapping with those keys.
+    """
+    out: dict[str, float] = {}
+    sheet = ds.attrs.get("temperature_limit_C") if ds is not None else None
+    if sheet is not None and np.isfinite(float(sheet)):
+        out["datasheet_C"] = float(sheet)
+    if limits is not None:
+        get = limits.get if isinstance(limits, Mapping) else (lambda k: getattr(limits, k, None))
+        for key, name in (("temperature_max_C", "temperature_max_C"), ("spread_K", "spread_K")):
+            value = get(key)
+            if value is not None:
+                out[name] = float(value)
+    return out
+
+
+def _scale(variable: str) -> tuple[str, str, float, str]:
+    if variable not in FIELDS:
+        raise ValueError(
+            f"field plot: `variable` must be one of {', '.join(map(repr, FIELDS))}, got {variable!r}"
+        )
+    return FIELDS[variable]
+
+
+def field_frame(ds, variable: str, index: int) -> dict:
+    """The data of one field picture: ``z`` (ny, nx) in display units, the extreme point, a title.
+
+    Used by :func:`field_figure` and by the app, which updates a live figure in place from it.
+    """
+    label, unit, factor, _ = _scale(variable)
+    z = np.asarray(ds[variable].isel(time=index).values, dtype=float) * factor
+    k = int(np.nanargmax(z)) if variable != "soc" else int(np.nanargmin(z))
+    j, i = np.unravel_index(k, z.shape)
+    t = float(ds["time"].values[index])
+    word = "lowest" if variable == "soc" else "hottest" if variable == "temperature" else "peak"
+    return {
+        "z": z,
+        "spot_x_mm": float(ds["x"].values[i]) * 1e3,
+        "spot_y_mm": float(ds["y"].values[j]) * 1e3,
+        "spot_value": float(z[j, i]),
+        "spot_word": word,
+        "title": f"{label} at t = {t:.0f} s — {word} {z[j, i]:.3g} {unit}",
+    }
+
+
+def _color_range(ds, variable: str) -> tuple[float, float]:
+    _, _, factor, _ = _scale(variable)
+    values = np.asarray(ds[variable].values, dtype=float) * factor
+    lo, hi = float(np.nanmin(values)), float(np.nanmax(values))
+    if hi - lo < 1e-9:  # a uniform field still needs a visible colour bar
+        pad = max(abs(hi) * 1e-3, 0.05)
+        lo, hi = lo - pad, hi + pad
+    return lo, hi
+
+
+# ---------------------------------------------------------------------------------------------
+# figures
+
+
+def field_figure(ds, variable: str = "temperature", index: int | None = None, animate: bool = True,
+                 max_frames: int = MAX_FRAMES) -> go.Figure:
+    """Heat map of a field over the face (x, y in mm, equal aspect) with the extreme point marked.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Results Dataset.
+    variable : {"temperature", "soc", "heat_flux"}
+    index : int, optional
+        Time index shown first (default: the time of the overall peak temperature for the
+        temperature field, else the last time).
+    animate : bool
+        Add frames with a time slider and a play button (for reports and notebooks). The app
+        passes ``False`` and drives the time itself.
+    max_frames : int
+        At most this many frames (evenly spaced, always including the last time).
+
+    Returns
+    -------
+    plotly.graph_objects.Figure
+        Trace 0 is the heat map, trace 1 the marker of the extreme point.
+    """
+    _require(ds, [variable, "time", "x", "y"], "field_figure")
+    label, unit, _, colorscale = _scale(variable)
+    n_time = ds.sizes["time"]
+    if n_time == 0:
+        raise ValueError("field_figure: the results Dataset has no time samples")
+    if index is None:
+        if variable == "temperature" and "temperature_max" in ds:
+            index = int(np.nanargmax(ds["temperature_max"].values))
+        else:
+            index = n_time - 1
+    if not -n_time <= index < n_time:
+        raise ValueError(f"field_figure: `index` must be in [0, {n_time - 1}], got {index}")
+    index = index % n_time
+    x_mm = np.asarray(ds["x"].values, dtype=float) * 1e3
+    y_mm = np.asarray(ds["y"].values, dtype=float) * 1e3
+    zmin, zmax = _color_range(ds, variable)
+    first = field_frame(ds, variable, index)
+
+    fig = go.Figure(
+        data=[
+            go.Heatmap(
+                x=x_mm, y=y_mm, z=first["z"], zmin=zmin, zmax=zmax, colorscale=colorscale,
+                colorbar=dict(title=dict(text=f"{label}<br>({unit})")),
+                hovertemplate="x %{x:.1f} mm<br>y %{y:.1f} mm<br>%{z:.4g} " + unit + "<extra></extra>",
+                name=label,
+            ),
+            go.Scatter(
+                x=[first["spot_x_mm"]], y=[first["spot_y_mm"]], mode="markers",
+                marker=dict(symbol="x-thin", size=16, line=dict(width=3, color="#FFFFFF")),
+                name=first["spot_word"], hovertemplate=f"{first['spot_word']} point<extra></extra>",
+                showlegend=False,
+            ),
+        ]
+    )
+    width_mm = float(x_mm[-1] - x_mm[0]) if x_mm.size > 1 else 1.0
+    fig.update_layout(**_LAYOUT)
+    fig.update_layout(title=dict(text=first["title"]), hovermode="closest")
+    fig.update_xaxes(title_text="x across the width (mm)", constrain="domain", showgrid=False)
+    fig.update_yaxes(title_text="y along the height (mm)", scaleanchor="x", scaleratio=1,
+                     constrain="domain", showgrid=False)
+    fig.layout.meta = {"variable": variable, "index": index, "width_mm": width_mm}
+
+    if animate and n_time > 1:
+        idx = frame_indices(n_time, max_frames)
+        frames, steps = [], []
+        for k in idx:
+            fr = field_frame(ds, variable, int(k))
+            name = str(int(k))
+            frames.append(go.Frame(
+                name=name,
+                data=[go.Heatmap(z=fr["z"]), go.Scatter(x=[fr["spot_x_mm"]], y=[fr["spot_y_mm"]])],
+                traces=[0, 1],
+                layout=go.Layout(title=dict(text=fr["title"])),
+            ))
+            steps.append(dict(
+                method="animate", label=f"{float(ds['time'].values[k]):.0f}",
+                args=[[name], dict(mode="immediate", frame=dict(duration=0, redraw=True),
+                                   transition=dict(duration=0))],
+            ))
+        fig.frames = frames
+        active = int(np.argmin(np.abs(idx - index)))
+        fig.update_layout(
+            sliders=[dict(active=active, steps=steps, currentvalue=dict(prefix="t (s) = "),
+                          pad=dict(t=50), len=0.9, x=0.1)],
+            updatemenus=[dict(
+                type="buttons", direction="left", x=0.0, y=0.0, xanchor="left", yanchor="top",
+                pad=dict(t=50, r=10), showactive=False,
+                buttons=[
+                    dict(label="▶", method="animate",
+                         args=[None, dict(frame=dict(duration=150, redraw=True), fromcurrent=True,
+                                          transition=dict(duration=0))]),
+                    dict(label="❚❚", method="animate",
+                         args=[[None], dict(mode="immediate", frame=dict(duration=0, redraw=False))]),
+                ],
+            )],
+        )
+    return fig
+
+
+def traces_figure(ds, limits=None) -> go.Figure:
+    """Voltage, current, temperatures (max/min/mean, core) and spread against time, with limits.
+
+    The data-sheet maximum temperature (``ds.attrs["temperature_limit_C"]``) is drawn dotted, the
+    user's :class:`explorer.Limits` dashed (``temperature_max_C`` on the temperature panel,
+    ``spread_K`` on the spread panel).
+    """
+    _require(ds, ["voltage", "current", "temperature_max", "temperature_min"], "traces_figure")
+    t, t_label, _ = time_axis(ds)
+    fig = make_subplots(
+        rows=4, cols=1, shared_xaxes=True, vertical_spacing=0.045,
+        row_heights=[0.22, 0.18, 0.38, 0.22],
+    )
+    fig.add_trace(go.Scatter(x=t, y=ds["voltage"].values, name="terminal voltage",
+                             line=dict(color=PALETTE[0])), row=1, col=1)
+    if "ocv" in ds:
+        fig.add_trace(go.Scatter(x=t, y=ds["ocv"].values, name="open-circuit voltage",
+                                 line=dict(color=PALETTE[0], dash="dot", width=1)), row=1, col=1)
+    fig.add_trace(go.Scatter(x=t, y=ds["current"].values, name="current (+ discharge)",
+                             line=dict(color=PALETTE[1])), row=2, col=1)
+    temps = [("temperature_max", "hottest point", PALETTE[1], None),
+             ("temperature_mean", "face mean", PALETTE[2], None),
+             ("temperature_min", "coldest point", PALETTE[5], None),
+             ("temperature_core_max", "hottest core (estimate)", PALETTE[1], "dot")]
+    for name, label, color, dash in temps:
+        if name in ds:
+            fig.add_trace(go.Scatter(x=t, y=ds[name].values, name=label,
+                                     line=dict(color=color, dash=dash)), row=3, col=1)
+    spread = ds["temperature_max"].values - ds["temperature_min"].values
+    fig.add_trace(go.Scatter(x=t, y=spread, name="spread (max − min)",
+                             line=dict(color=PALETTE[3])), row=4, col=1)
+    lim = limit_values(ds, limits)
+    if "datasheet_C" in lim:
+        fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=3, col=1,
+                      annotation_text=f"data-sheet max {lim['datasheet_C']:g} °C",
+                      annotation_position="top left")
+    if "temperature_max_C" in lim:
+        fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=3, col=1,
+                      annotation_text=f"design limit {lim['temperature_max_C']:g} °C",
+                      annotation_position="bottom left")
+    if "spread_K" in lim:
+        fig.add_hline(y=lim["spread_K"], line=_LIMIT_STYLE, row=4, col=1,
+                      annotation_text=f"spread limit {lim['spread_K']:g} K",
+                      annotation_position="top left")
+    fig.update_layout(**_LAYOUT)
+    fig.update_layout(title=dict(text=_run_title(ds)), height=820)
+    fig.update_yaxes(title_text="Voltage (V)", row=1, col=1)
+    fig.update_yaxes(title_text="Current (A)", row=2, col=1)
+    fig.update_yaxes(title_text="Temperature (°C)", row=3, col=1)
+    fig.update_yaxes(title_text="Spread (K)", rangemode="tozero", row=4, col=1)
+    fig.update_xaxes(title_text=t_label, row=4, col=1)
+    return fig
+
+
+def heat_split_figure(ds) -> go.Figure:
+    """The generated heat split by source over time (stacked areas) with the rejected heat."""
+    present = [name for name in HEAT_PARTS if name in ds]
+    _require(ds, ["heat_total"], "heat_split_figure")
+    if not present:
+        raise ValueError("heat_split_figure: the results Dataset has none of the heat_<source> variables "
+                         f"({', '.join(HEAT_PARTS)})")
+    t, t_label, _ = time_axis(ds)
+    fig = go.Figure()
+    # reversible heat changes sign (cooling on part of a cycle), which a stack cannot show honestly:
+    # positive parts are stacked, a negative contribution is drawn as its own line below zero.
+    for k, name in enumerate(present):
+        values = np.asarray(ds[name].values, dtype=float)
+        color = PALETTE[k % len(PALETTE)]
+        if name == "heat_reversible" and np.nanmin(values) < 0.0:
+            fig.add_trace(go.Scatter(x=t, y=values, name=HEAT_PARTS[name] + " (signed)",
+                                     line=dict(color=color, width=2)))
+            continue
+        fig.add_trace(go.Scatter(x=t, y=values, name=HEAT_PARTS[name], stackgroup="heat",
+                                 line=dict(color=color, width=0.5)))
+    fig.add_trace(go.Scatter(x=t, y=ds["heat_total"].values, name="total generated",
+                             line=dict(color="#000000", width=2)))
+    if "heat_rejected" in ds:
+        fig.add_trace(go.Scatter(x=t, y=ds["heat_rejected"].values, name="rejected to sinks",
+                                 line=dict(color="#000000", width=2, dash="dash")))
+    fig.update_layout(**_LAYOUT)
+    fig.update_layout(title=dict(text="Heat generation by source"), height=460)
+    fig.update_xaxes(title_text=t_label)
+    fig.update_yaxes(title_text="Heat (W)")
+    return fig
+
+
+_COMPARE = {
+    "temperature_max": ("Hottest point (°C)", 1.0),
+    "voltage": ("Terminal voltage (V)", 1.0),
+    "spread": ("Spread max − min (K)", 1.0),
+    "soc_mean": ("State of charge (%)", 100.0),
+    "heat_total": ("Generated heat (W)", 1.0),
+    "temperature_mean": ("Face mean temperature (°C)", 1.0),
+    "current": ("Current (A)", 1.0),
+}
+
+
+def _series(ds, name: str) -> np.ndarray:
+    if name == "spread":
+        return np.asarray(ds["temperature_max"].values - ds["temperature_min"].values, dtype=float)
+    return np.asarray(ds[name].values, dtype=float) * _COMPARE[name][1]
+
+
+def comparison_figure(scenarios, variables: Sequence[str] = ("temperature_max", "spread", "voltage"),
+                      limits=None) -> go.Figure:
+    """Overlay the traces of several runs, one panel per variable, one colour per scenario.
+
+    Parameters
+    ----------
+    scenarios : mapping name -> Dataset, or a sequence of Datasets (named by their cell and index)
+    variables : names from ``temperature_max``, ``spread``, ``voltage``, ``soc_mean``,
+        ``heat_total``, ``temperature_mean``, ``current``.
+    limits : explorer.Limits, optional
+        Drawn on the temperature and spread panels.
+    """
+    named = _named(scenarios, "comparison_figure")
+    bad = [v for v in variables if v not in _COMPARE]
+    if bad:
+        raise ValueError(f"comparison_figure: unknown variable(s) {bad}; expected some of "
+                         f"{', '.join(_COMPARE)}")
+    for name, ds in named.items():
+        needed = ["temperature_max", "temperature_min"] if "spread" in variables else []
+        _require(ds, needed + [v for v in variables if v != "spread"], f"comparison_figure[{name!r}]")
+    fig = make_subplots(rows=len(variables), cols=1, shared_xaxes=True, vertical_spacing=0.06)
+    t_label = "Time (s)"
+    minutes = max(float(ds["time"].values[-1]) for ds in named.values()) > 1200.0
+    if minutes:
+        t_label = "Time (min)"
+    for k, (name, ds) in enumerate(named.items()):
+        t = np.asarray(ds["time"].values, dtype=float) / (60.0 if minutes else 1.0)
+        color = PALETTE[k % len(PALETTE)]
+        for row, var in enumerate(variables, start=1):
+            fig.add_trace(go.Scatter(x=t, y=_series(ds, var), name=name, legendgroup=name,
+                                     showlegend=row == 1, line=dict(color=color)), row=row, col=1)
+    lim = limit_values(next(iter(named.values())), limits)
+    for row, var in enumerate(variables, start=1):
+        fig.update_yaxes(title_text=_COMPARE[var][0], row=row, col=1)
+        if var == "temperature_max" and "temperature_max_C" in lim:
+            fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=row, col=1,
+                          annotation_text=f"design limit {lim['temperature_max_C']:g} °C")
+        if var == "spread" and "spread_K" in lim:
+            fig.add_hline(y=lim["spread_K"], line=_LIMIT_STYLE, row=row, col=1,
+                          annotation_text=f"spread limit {lim['spread_K']:g} K")
+    fig.update_layout(**_LAYOUT)
+    fig.update_layout(title=dict(text="Scenario comparison"), height=260 * len(variables) + 100)
+    fig.update_xaxes(title_text=t_label, row=len(variables), col=1)
+    return fig
+
+
+def _named(scenarios, where: str) -> dict:
+    if hasattr(scenarios, "data_vars"):
+        scenarios = [scenarios]
+    if isinstance(scenarios, Mapping):
+        named = dict(scenarios)
+    else:
+        named = {}
+        for k, ds in enumerate(scenarios):
+            base = f"{k + 1}: {ds.attrs.get('cell_name', 'run')}" if hasattr(ds, "attrs") else str(k)
+            named[base] = ds
+    if not named:
+        raise ValueError(f"{where}: no scenarios given; expected at least one results Dataset")
+    return named
+
+
+def sizing_figure(result, limits=None, vary: str | None = None) -> go.Figure:
+    """Peak temperature and spread against the varied design value, with the limits and design point.
+
+    Parameters
+    ----------
+    result : the object returned by :func:`explorer.size_cooling`
+        Uses ``.curve`` (an xarray Dataset over dimension ``value`` with ``temperature_max_C`` and
+        ``spread_K``), ``.value`` and ``.feasible``; ``.vary`` / ``.limits`` when present.
+    limits : explorer.Limits, optional
+        Defaults to ``result.limits`` if the result carries them.
+    vary : str, optional
+        Name of the varied parameter for the axis label (default ``result.vary`` or "value").
+    """
+    curve = getattr(result, "curve", None)
+    if curve is None or not hasattr(curve, "data_vars"):
+        raise TypeError("sizing_figure: expected the result of explorer.size_cooling (with `.curve`, an "
+                        f"xarray Dataset), got {type(result).__name__}")
+    _require(curve, ["value", "temperature_max_C", "spread_K"], "sizing_figure (result.curve)")
+    vary = vary or getattr(result, "vary", None) or "value"
+    limits = limits if limits is not None else getattr(result, "limits", None)
+    order = np.argsort(curve["value"].values)
+    v = np.asarray(curve["value"].values, dtype=float)[order]
+    tmax = np.asarray(curve["temperature_max_C"].values, dtype=float)[order]
+    spread = np.asarray(curve["spread_K"].values, dtype=float)[order]
+    fig = make_subplots(rows=2, cols=1, shared_xaxes=True, vertical_spacing=0.08)
+    fig.add_trace(go.Scatter(x=v, y=tmax, mode="lines+markers", name="hottest point",
+                             line=dict(color=PALETTE[1])), row=1, col=1)
+    fig.add_trace(go.Scatter(x=v, y=spread, mode="lines+markers", name="spread",
+                             line=dict(color=PALETTE[3])), row=2, col=1)
+    lim = limit_values(None, limits)
+    if "temperature_max_C" in lim:
+        fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=1, col=1,
+                      annotation_text=f"limit {lim['temperature_max_C']:g} °C")
+    if "spread_K" in lim:
+        fig.add_hline(y=lim["spread_K"], line=_LIMIT_STYLE, row=2, col=1,
+                      annotation_text=f"limit {lim['spread_K']:g} K")
+    value = getattr(result, "value", None)
+    feasible = bool(getattr(result, "feasible", False))
+    if value is not None and np.isfinite(float(value)):
+        value = float(value)
+        fig.add_vline(x=value, line=dict(color="#000000", width=1.5), row="all", col=1)
+        fig.add_trace(go.Scatter(x=[value], y=[float(np.interp(value, v, tmax))], mode="markers",
+                                 marker=dict(size=12, symbol="diamond", color="#000000"),
+                                 name="design point"), row=1, col=1)
+        fig.add_trace(go.Scatter(x=[value], y=[float(np.interp(value, v, spread))], mode="markers",
+                                 marker=dict(size=12, symbol="diamond", color="#000000"),
+                                 showlegend=False, name="design point"), row=2, col=1)
+    verdict = f"design point {vary} = {value:.4g}" if value is not None and feasible else \
+        "no value within the bounds meets the limits"
+    fig.update_layout(**_LAYOUT)
+    fig.update_layout(title=dict(text=f"Sizing: {verdict}"), height=560, hovermode="closest")
+    fig.update_yaxes(title_text="Hottest point (°C)", row=1, col=1)
+    fig.update_yaxes(title_text="Spread (K)", row=2, col=1)
+    fig.update_xaxes(title_text=_axis_label(vary), row=2, col=1)
+    return fig
+
+
+def _axis_label(name: str) -> str:
+    """Turn a parameter name with a unit suffix into an axis label: ``flow_L_min`` -> ``flow (L/min)``."""
+    units = {"_L_min": "L/min", "_C": "°C", "_mm": "mm", "_W_mK": "W/(m K)", "_W_m2K": "W/(m² K)",
+             "_W_K": "W/K", "_K": "K", "_Pa": "Pa", "_kPa": "kPa"}
+    for suffix, unit in units.items():
+        if name.endswith(suffix):
+            return f"{name[: -len(suffix)].replace('_', ' ')} ({unit})"
+    return name.replace("_", " ")
+
+
+def _run_title(ds) -> str:
+    a = ds.attrs
+    parts = [str(a.get("cell_name", "run")), str(a.get("electrochemistry", "")).upper(),
+             str(a.get("layout", ""))]
+    status = a.get("status")
+    if status and status != "completed":
+        parts.append(f"status: {status}")
+    return " · ".join(p for p in parts if p)
