@@ -1,3 +1,64 @@
-"""Pouch Thermal Explorer: heat, temperature and SOC fields of large pouch cells, and cold-plate sizing."""
+"""Pouch Thermal Explorer: heat, temperature and SOC fields of large pouch cells, and cold-plate sizing.
+
+Public namespace, by task
+-------------------------
+Cells
+    :func:`load_cell` -- read and validate a cell file (or a bundled demo cell by name).
+Duty and cooling
+    :mod:`duty` -- discharge, charge, hold_voltage, rest, profile_csv, repeat, cc_cv_charge.
+    :mod:`cooling` -- convection, cold_plate, face_plate, edge_plate, tab_cooling.
+Running
+    :func:`simulate` -- one cell, one duty, one cooling design -> ``xarray.Dataset``.
+    :func:`open_results` -- load a saved run.
+Designing
+    :class:`Limits`, :func:`size_cooling`, :func:`sweep`.
+Exploring
+    :func:`explore` -- the notebook app.
+
+Results inform design; they do not certify it (see ``explorer.results.CAUTION``).
+"""
 
 __version__ = "0.1.0"
+
+
+__all__ = [
+    "__version__",
+    "load_cell",
+    "duty",
+    "cooling",
+    "simulate",
+    "open_results",
+    "Limits",
+    "size_cooling",
+    "sweep",
+    "explore",
+]
+
+# Heavier or optional parts load on first use (Dask, ipywidgets, CoolProp).
+_LAZY = {
+    "duty": ("explorer.duty", None),
+    "load_cell": ("explorer.cell", "load_cell"),
+    "simulate": ("explorer.simulate", "simulate"),
+    "open_results": ("explorer.results", "open_results"),
+    "cooling": ("explorer.cooling", None),
+    "Limits": ("explorer.limits", "Limits"),
+    "size_cooling": ("explorer.sizing", "size_cooling"),
+    "sweep": ("explorer.sweep", "sweep"),
+    "explore": ("explorer.app", "explore"),
+}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        module, attr = _LAZY[name]
+        mod = importlib.import_module(module)
+        value = mod if attr is None else getattr(mod, attr)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'explorer' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

@@ -1,0 +1,7 @@
+"""``python -m explorer``: the command line."""
+
+import sys
+
+from explorer.cli import main
+
+sys.exit(main())

@@ -1,0 +1,90 @@
+"""The main job on a bundled demo cell: ``python -m explorer demo``.
+
+A 2C continuous discharge of the delivery-van demo cell (invented) on an
+edge cold plate under its bottom edge with an aluminium fin sheet, averaged
+layout with SPMe; prints the key figures and writes the results (netCDF) and
+a self-contained HTML report.
+"""
+
+from __future__ import annotations
+
+import time
+from pathlib import Path
+
+from explorer.results import CAUTION, key_figures, save
+
+
+def demo_design():
+    """The demo's cooling design: water-cooled edge plate under the bottom edge, 0.5 mm fin."""
+    from explorer import cooling
+
+    plate = cooling.cold_plate(coolant="water", flow_L_min=2.0, inlet_C=25.0)
+    return cooling.edge_plate(plate, edge="bottom", fin_mm=0.5)
+
+
+def describe_cell(cell) -> str:
+    g, d = cell.geometry, cell.derived
+    tabs = ", ".join(f"{t.name} ({t.polarity}) on {t.edge} at {t.position_m * 1e3:.0f} mm, "
+                     f"{t.width_m * 1e3:.0f} mm wide" for t in g.tabs)
+    lines = [
+        f"{cell.name}: {cell.description}",
+        f"  file             {cell.source_path}",
+        f"  capacity         {cell.nominal_capacity_Ah:g} Ah nominal, "
+        f"{d.theoretical_capacity_Ah:.2f} Ah computed (N/P {d.np_ratio:.2f})",
+        f"  voltage window   {cell.voltage_min_V:g}-{cell.voltage_max_V:g} V, energy "
+        f"{d.energy_Wh:.0f} Wh",
+        f"  size             {g.width_m * 1e3:.0f} x {g.height_m * 1e3:.0f} x "
+        f"{g.stack_thickness_m * 1e3:.1f} mm, {g.unit_layers} unit layers, "
+        f"{d.mass_kg * 1e3:.0f} g",
+        f"  tabs             {tabs}",
+        f"  conductivity     {d.inplane_conductivity_W_mK:.1f} W/(m K) in plane, "
+        f"{d.throughplane_conductivity_W_mK:.2f} W/(m K) through plane",
+        f"  heat capacity    {d.heat_capacity_J_K:.0f} J/K",
+        f"  temperature      {cell.temperature_min_C:g} to {cell.temperature_max_C:g} degC "
+        "(data sheet)",
+    ]
+    return "\n".join(lines)
+
+
+def format_figures(fig: dict, ds) -> str:
+    limit = ds.attrs.get("temperature_limit_C")
+    ttl = fig["time_to_limit_s"]
+    rows = [
+        ("peak temperature", f"{fig['peak_temperature_C']:.1f} degC at "
+                             f"{fig['peak_time_s']:.0f} s (limit {limit:g} degC)"),
+        ("largest in-cell spread", f"{fig['max_spread_K']:.2f} K"),
+        ("time to temperature limit", "not reached" if ttl is None else f"{ttl:.0f} s"),
+        ("energy delivered", f"{fig['energy_delivered_Wh']:.1f} Wh "
+                             f"({fig['charge_delivered_Ah']:.2f} Ah)"),
+        ("heat generated / rejected", f"{fig['heat_generated_J'] / 1e3:.1f} kJ / "
+                                      f"{fig['heat_rejected_J'] / 1e3:.1f} kJ"),
+        ("end of run", f"{fig['duration_s']:.0f} s, {fig['end_voltage_V']:.3f} V, "
+                       f"SOC {fig['end_soc']:.3f}"),
+        ("status", f"{ds.attrs['status']}: {ds.attrs['status_message']}"),
+    ]
+    return "\n".join(f"  {k:26s} {v}" for k, v in rows)
+
+
+def run_demo(cell_name: str, out: Path, c_rate: float = 2.0) -> int:
+    import explorer
+
+    cell = explorer.load_cell(cell_name)
+    design = demo_design()
+    duty = explorer.duty.discharge(c_rate=c_rate)
+    print(describe_cell(cell))
+    print(f"\nRunning a {c_rate:g}C discharge, SPMe, averaged layout, edge plate with fin ...")
+    t0 = time.perf_counter()
+    ds = explorer.simulate(cell, duty, design, electrochemistry="spme", layout="averaged")
+    wall = time.perf_counter() - t0
+    fig = key_figures(ds)
+    print(f"done in {wall:.2f} s\n")
+    print(format_figures(fig, ds))
+    out = Path(out)
+    nc = save(ds, out / f"{cell.name}_{c_rate:g}C.nc")
+    from explorer.report import write_report
+
+    html = write_report(ds, out / f"{cell.name}_{c_rate:g}C_report.html",
+                        title=f"{cell.name}: {c_rate:g}C discharge on an edge cold plate")
+    print(f"\nwrote {nc}\nwrote {html}\n")
+    print(f"Caution: {CAUTION}")
+    return 0 if ds.attrs["status"] == "completed" else 1

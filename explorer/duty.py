@@ -1,0 +1,359 @@
+"""Duty cycles: what the cell is asked to do, step by step.
+
+A duty is one :class:`Step` or a list of them. Steps hold a current, a
+terminal power or a terminal voltage, or follow a recorded profile, until the
+first of their end conditions is met. Currents and powers are positive on
+discharge.
+
+>>> from explorer import duty
+>>> d = duty.discharge(c_rate=1.0)                       # CC to the lower voltage limit
+>>> d = [duty.charge(c_rate=2.0), duty.hold_voltage(end_c_rate=0.05), duty.rest(600)]
+>>> d = duty.repeat([duty.discharge(c_rate=1), duty.rest(300)], times=3)
+
+Public constructors: :func:`discharge`, :func:`charge`, :func:`hold_voltage`,
+:func:`rest`, :func:`profile_csv`, :func:`repeat`, :func:`cc_cv_charge`.
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+from dataclasses import asdict, dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from explorer.validators import InputError
+
+QUANTITIES = ("voltage", "current", "soc", "temperature", "time")
+# Units accepted in a profile CSV header, converted to SI by these factors.
+_PROFILE_UNITS = {
+    "time": {"s": 1.0, "min": 60.0, "h": 3600.0},
+    "current": {"A": 1.0, "mA": 1e-3},
+    "power": {"W": 1.0, "kW": 1e3, "mW": 1e-3},
+}
+
+
+@dataclass(frozen=True)
+class End:
+    """Stop the step when ``quantity`` crosses ``threshold`` going ``direction``.
+
+    ``quantity`` is one of ``QUANTITIES``; time counts from the step's start;
+    temperature is the hottest point of the face (degC); current is the
+    magnitude of the cell current (A).
+    """
+
+    quantity: str
+    threshold: float
+    direction: str  # "below" | "above"
+
+    def crossed(self, value: float) -> bool:
+        return value <= self.threshold if self.direction == "below" else value >= self.threshold
+
+    def distance(self, value: float) -> float:
+        """Signed distance to the threshold, positive while not yet crossed."""
+        return value - self.threshold if self.direction == "below" else self.threshold - value
+
+
+@dataclass(frozen=True)
+class Step:
+    """One duty step. Build steps with the module's functions, not directly.
+
+    ``kind`` is "current", "power", "voltage", "rest" or "profile".
+    ``value`` is A, W or V (positive discharge); ``c_rate`` (signed) is
+    resolved against the cell's nominal capacity at run time. A voltage step
+    with ``value`` None holds the cell's upper limit (charging) .
+    ``profile_time_s``/``profile_value`` hold a recorded profile (piecewise
+    constant from each sample to the next) of ``profile_quantity``.
+    ``ends`` are explicit end conditions; ``default_limit`` says whether the
+    cell's voltage window also ends the step (it does unless the user gave a
+    voltage end of their own).
+    """
+
+    kind: str
+    value: float | None = None
+    c_rate: float | None = None
+    ends: tuple[End, ...] = ()
+    default_limit: bool = True
+    end_c_rate: float | None = None  # voltage holds: end current as a C-rate
+    profile_time_s: tuple[float, ...] = ()
+    profile_value: tuple[float, ...] = ()
+    profile_quantity: str = ""
+    label: str = ""
+    source: str = ""  # file a profile came from
+
+    def describe(self) -> dict:
+        d = {k: v for k, v in asdict(self).items() if v not in (None, (), "")}
+        d.pop("profile_time_s", None)
+        d.pop("profile_value", None)
+        if self.profile_time_s:
+            d["profile_samples"] = len(self.profile_time_s)
+            d["profile_duration_s"] = self.profile_time_s[-1]
+        d["ends"] = [asdict(e) for e in self.ends]
+        return d
+
+    def max_duration_s(self) -> float:
+        """The step's time end condition (inf when none)."""
+        t = [e.threshold for e in self.ends if e.quantity == "time"]
+        if self.kind == "profile":
+            t.append(self.profile_time_s[-1])
+        return min(t) if t else math.inf
+
+
+def _ends(where: str, *, voltage=None, voltage_direction="below", current_A=None, soc=None,
+          soc_direction="below", temperature_C=None, time_s=None) -> tuple[End, ...]:
+    ends = []
+    if voltage is not None:
+        ends.append(End("voltage", _finite(where, "end_voltage_V", voltage), voltage_direction))
+    if current_A is not None:
+        ends.append(End("current", _positive(where, "end_current_A", current_A), "below"))
+    if soc is not None:
+        s = _finite(where, "end_soc", soc)
+        if not 0.0 <= s <= 1.0:
+            raise InputError(f"{where}: `end_soc` must be within 0..1, got {soc!r}")
+        ends.append(End("soc", s, soc_direction))
+    if temperature_C is not None:
+        ends.append(End("temperature", _finite(where, "end_temperature_C", temperature_C), "above"))
+    if time_s is not None:
+        ends.append(End("time", _positive(where, "end_time_s", time_s), "above"))
+    return tuple(ends)
+
+
+def _finite(where, name, value) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"{where}: `{name}` must be a number, got {value!r}") from None
+    if not math.isfinite(v):
+        raise InputError(f"{where}: `{name}` must be finite, got {value!r}")
+    return v
+
+
+def _positive(where, name, value) -> float:
+    v = _finite(where, name, value)
+    if v <= 0:
+        raise InputError(f"{where}: `{name}` must be > 0, got {value!r}")
+    return v
+
+
+def _one_of(where, **given):
+    chosen = {k: v for k, v in given.items() if v is not None}
+    if len(chosen) != 1:
+        names = ", ".join(f"`{k}`" for k in given)
+        raise InputError(f"{where}: give exactly one of {names}; got {sorted(chosen) or 'none'}")
+    (name, value), = chosen.items()
+    return name, _positive(where, name, value)
+
+
+def _constant(where, sign, c_rate, current_A, power_W, ends, label):
+    name, value = _one_of(where, c_rate=c_rate, current_A=current_A, power_W=power_W)
+    if name == "c_rate":
+        return Step("current", c_rate=sign * value, ends=ends, label=label,
+                    default_limit=not any(e.quantity == "voltage" for e in ends))
+    kind = "current" if name == "current_A" else "power"
+    return Step(kind, value=sign * value, ends=ends, label=label,
+                default_limit=not any(e.quantity == "voltage" for e in ends))
+
+
+def discharge(c_rate=None, *, current_A=None, power_W=None, end_voltage_V=None, end_soc=None,
+              end_temperature_C=None, end_time_s=None, end_current_A=None, label="discharge") -> Step:
+    """Constant-current (``c_rate`` or ``current_A``) or constant-power (``power_W``) discharge.
+
+    Ends at the cell's lower voltage limit unless ``end_voltage_V`` is given;
+    the other ``end_*`` keywords add conditions (first met ends the step).
+    """
+    ends = _ends("duty.discharge", voltage=end_voltage_V, current_A=end_current_A, soc=end_soc,
+                 temperature_C=end_temperature_C, time_s=end_time_s)
+    return _constant("duty.discharge", +1.0, c_rate, current_A, power_W, ends, label)
+
+
+def charge(c_rate=None, *, current_A=None, power_W=None, end_voltage_V=None, end_soc=None,
+           end_temperature_C=None, end_time_s=None, end_current_A=None, label="charge") -> Step:
+    """Constant-current or constant-power charge; magnitudes are given positive.
+
+    Ends at the cell's upper voltage limit unless ``end_voltage_V`` is given.
+    """
+    ends = _ends("duty.charge", voltage=end_voltage_V, voltage_direction="above",
+                 current_A=end_current_A, soc=end_soc, soc_direction="above",
+                 temperature_C=end_temperature_C, time_s=end_time_s)
+    return _constant("duty.charge", -1.0, c_rate, current_A, power_W, ends, label)
+
+
+def hold_voltage(voltage_V=None, *, end_current_A=None, end_c_rate=None, end_time_s=None,
+                 end_temperature_C=None, label="hold") -> Step:
+    """Hold the terminal voltage (CV); ``voltage_V`` defaults to the cell's upper limit.
+
+    Ends when the current magnitude falls to ``end_current_A`` (or
+    ``end_c_rate`` times the nominal capacity; C/20 when neither is given) or
+    at ``end_time_s``.
+    """
+    v = None if voltage_V is None else _positive("duty.hold_voltage", "voltage_V", voltage_V)
+    if end_current_A is not None and end_c_rate is not None:
+        raise InputError("duty.hold_voltage: give `end_current_A` or `end_c_rate`, not both")
+    if end_current_A is None and end_c_rate is None:
+        end_c_rate = 0.05
+    if end_c_rate is not None:
+        end_c_rate = _positive("duty.hold_voltage", "end_c_rate", end_c_rate)
+    ends = _ends("duty.hold_voltage", current_A=end_current_A, time_s=end_time_s,
+                 temperature_C=end_temperature_C)
+    return Step("voltage", value=v, ends=ends, end_c_rate=end_c_rate, default_limit=False,
+                label=label)
+
+
+def rest(seconds, *, label="rest") -> Step:
+    """Open circuit for ``seconds``."""
+    return Step("rest", value=0.0, ends=_ends("duty.rest", time_s=seconds), default_limit=False,
+                label=label)
+
+
+def cc_cv_charge(c_rate, *, end_c_rate=0.05, voltage_V=None, end_temperature_C=None) -> list[Step]:
+    """A CC-CV charge: constant current to the upper limit, then hold until ``end_c_rate``."""
+    cc = charge(c_rate=c_rate, end_voltage_V=voltage_V, end_temperature_C=end_temperature_C,
+                label="charge CC")
+    cv = hold_voltage(voltage_V, end_c_rate=end_c_rate, end_temperature_C=end_temperature_C,
+                      label="charge CV")
+    return [cc, cv]
+
+
+def repeat(steps, times: int) -> list[Step]:
+    """The steps ``times`` times over (a cycle)."""
+    if int(times) != times or times < 1:
+        raise InputError(f"duty.repeat: `times` must be a whole number >= 1, got {times!r}")
+    steps = as_steps(steps)
+    out = []
+    for k in range(int(times)):
+        out.extend(replace(s, label=f"{s.label} #{k + 1}") for s in steps)
+    return out
+
+
+def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=None,
+                label=None) -> Step:
+    """A recorded load profile from a CSV file.
+
+    The header names the columns with units in brackets: ``time [s]`` (or
+    ``[min]``, ``[h]``) and either ``current [A]`` or ``power [W]`` (``[kW]``),
+    positive on discharge. Each value holds from its time to the next; the
+    profile ends at the last time. The cell's voltage window ends it early.
+    """
+    path = Path(path)
+    where = f"{path}"
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise InputError(f"{where}: cannot read the profile ({exc.strerror})") from None
+    rows = [r for r in csv.reader(text.splitlines()) if r and any(c.strip() for c in r)]
+    if len(rows) < 3:
+        raise InputError(f"{where}: a profile needs a header and at least two rows, "
+                         f"found {len(rows)} line(s)")
+    columns = {}
+    for i, head in enumerate(rows[0]):
+        name, unit = _parse_header(where, head)
+        columns[name] = (i, unit)
+    if "time" not in columns:
+        raise InputError(f"{where}: header {rows[0]!r} has no `time [s]` column")
+    load = [q for q in ("current", "power") if q in columns]
+    if len(load) != 1:
+        raise InputError(f"{where}: header {rows[0]!r} needs exactly one of `current [A]` or "
+                         f"`power [W]`, found {load or 'neither'}")
+    quantity = load[0]
+    data = {}
+    for name in ("time", quantity):
+        col, unit = columns[name]
+        scale = _PROFILE_UNITS[name].get(unit)
+        if scale is None:
+            raise InputError(f"{where}: column `{name}` has unknown unit [{unit}]; expected one "
+                             f"of {sorted(_PROFILE_UNITS[name])}")
+        values = []
+        for line, r in enumerate(rows[1:], start=2):
+            try:
+                v = float(r[col])
+            except (IndexError, ValueError):
+                raise InputError(f"{where}, line {line}: column `{name}` value "
+                                 f"{r[col] if col < len(r) else '(missing)'!r} is not a number") from None
+            if not math.isfinite(v):
+                raise InputError(f"{where}, line {line}: column `{name}` is {r[col]!r}; "
+                                 "expected a finite number")
+            values.append(v * scale)
+        data[name] = np.asarray(values)
+    t = data["time"] - data["time"][0]
+    steps = np.diff(t)
+    if np.any(steps <= 0):
+        bad = int(np.argmax(steps <= 0)) + 3
+        raise InputError(f"{where}, line {bad}: times must increase strictly; "
+                         f"found {data['time'][bad - 3]:g} then {data['time'][bad - 2]:g} s")
+    ends = _ends(where, voltage=end_voltage_V, soc=end_soc, temperature_C=end_temperature_C)
+    return Step("profile", ends=ends, profile_time_s=tuple(t.tolist()),
+                profile_value=tuple(data[quantity].tolist()), profile_quantity=quantity,
+                label=label or path.stem, source=str(path),
+                default_limit=end_voltage_V is None)
+
+
+def _parse_header(where, head: str):
+    h = head.strip()
+    if "[" in h and h.endswith("]"):
+        name, unit = h[:-1].split("[", 1)
+        return name.strip().lower(), unit.strip()
+    raise InputError(f"{where}: header {head!r} must state its unit in brackets, "
+                     "e.g. `time [s]`, `current [A]`, `power [W]`")
+
+
+def as_steps(duty) -> list[Step]:
+    """A duty (one step or a nested list of steps) as a flat list, checked."""
+    if isinstance(duty, Step):
+        return [duty]
+    if isinstance(duty, (list, tuple)):
+        out = []
+        for item in duty:
+            out.extend(as_steps(item))
+        if not out:
+            raise InputError("duty: the list of steps is empty")
+        return out
+    raise InputError(f"duty: expected a step from explorer.duty or a list of them, got "
+                     f"{type(duty).__name__} {duty!r}")
+
+
+@dataclass
+class ResolvedStep:
+    """A step with every C-rate and default resolved against a cell (SI)."""
+
+    step: Step
+    kind: str
+    value: float  # A, W or V; 0 for rest; unused for profiles
+    ends: list[End] = field(default_factory=list)
+
+    def load_at(self, t_in_step: float) -> float:
+        """Profile value at a time within the step (piecewise constant)."""
+        tp = self.step.profile_time_s
+        i = int(np.searchsorted(tp, t_in_step, side="right")) - 1
+        return self.step.profile_value[min(max(i, 0), len(tp) - 1)]
+
+    def next_breakpoint(self, t_in_step: float) -> float:
+        tp = self.step.profile_time_s
+        i = int(np.searchsorted(tp, t_in_step + 1e-9, side="right"))
+        return tp[i] if i < len(tp) else math.inf
+
+
+def resolve(step: Step, cell) -> ResolvedStep:
+    """Turn C-rates into amperes and add the cell's voltage window as an end condition."""
+    capacity = cell.nominal_capacity_Ah
+    ends = list(step.ends)
+    kind, value = step.kind, step.value
+    if step.c_rate is not None:
+        value = step.c_rate * capacity
+    if kind == "voltage":
+        value = cell.voltage_max_V if value is None else value
+        if not cell.voltage_min_V <= value <= cell.voltage_max_V:
+            raise InputError(f"duty.hold_voltage: `voltage_V` {value:g} V is outside the cell "
+                             f"{cell.name!r} window {cell.voltage_min_V:g}-{cell.voltage_max_V:g} V")
+        if step.end_c_rate is not None:
+            ends.append(End("current", step.end_c_rate * capacity, "below"))
+    if step.default_limit:
+        if kind == "profile":
+            ends.append(End("voltage", cell.voltage_min_V, "below"))
+            ends.append(End("voltage", cell.voltage_max_V, "above"))
+        elif kind in ("current", "power") and value is not None:
+            if value > 0:
+                ends.append(End("voltage", cell.voltage_min_V, "below"))
+            else:
+                ends.append(End("voltage", cell.voltage_max_V, "above"))
+    return ResolvedStep(step, kind, 0.0 if value is None else float(value), ends)

@@ -1,0 +1,106 @@
+"""The single-temperature thermal model: the whole cell at one temperature.
+
+It meets the thermal-model contract of :mod:`explorer.inplane.base` on a
+1 x 1 grid, so the stepper drives it exactly like the 2-D field. Each sink of
+a :class:`~explorer.inplane.sinks.Sinks` becomes one conductance to its
+(area- or length-averaged) temperature; a fin sheet is taken in series with
+its contact; a coolant stream is met at its mean temperature along this cell,
+which for a lumped cell is solved in closed form (see ``_stream_factor``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from explorer.inplane.grid import Grid
+
+
+def _mean(v) -> float:
+    return float(np.mean(v))
+
+
+class LumpedThermal:
+    """Implicit (backward Euler) lumped-capacitance model of the whole cell."""
+
+    def __init__(self, cell, sinks=None):
+        g = cell.geometry
+        self.grid = Grid.single(g.width_m, g.height_m)
+        self.heat_capacity_J_per_K = cell.derived.heat_capacity_J_K
+        self._thickness = g.stack_thickness_m
+        self._k_through = cell.derived.throughplane_conductivity_W_mK
+        self._paths = []  # (sink name, conductance W/K, sink temperature degC)
+        self._cooled_faces = 0
+        area = g.width_m * g.height_m
+        edge_length = {"bottom": g.width_m, "top": g.width_m, "left": g.height_m,
+                       "right": g.height_m}
+        self._stream = None
+        if sinks is not None:
+            for name, f in sinks.faces.items():
+                self._paths.append((name, _mean(f.h_W_m2K) * area, _mean(f.temperature_C)))
+                self._cooled_faces += 1
+            fin = sinks.fin
+            for name, e in sinks.edges.items():
+                G = _mean(e.conductance_W_mK) * edge_length[name]
+                if e.layer == "fin" and fin is not None:
+                    G = 1.0 / (1.0 / G + 1.0 / (fin.contact_W_m2K * area))
+                    self._cooled_faces = max(self._cooled_faces, 1)
+                self._paths.append((name, G, _mean(e.temperature_C)))
+            for name, t in sinks.tabs.items():
+                self._paths.append((name, t.conductance_W_K, t.temperature_C))
+            self._stream = sinks.coolant
+        self._names = [p[0] for p in self._paths]
+        self._G = np.array([p[1] for p in self._paths], dtype=float)
+        self._Ts = np.array([p[2] for p in self._paths], dtype=float)
+        if self._stream is not None and self._stream.sink in self._names:
+            i = self._names.index(self._stream.sink)
+            G = self._G[i]
+            self._Ts[i] = self._stream.inlet_C
+            self._G[i] = G * _stream_factor(G, self._stream)
+        self._outlet_rise_per_W = None
+        if self._stream is not None:
+            self._outlet_rise_per_W = (self._stream.upstream_cells + 1) / self._stream.capacity_rate_W_K
+
+    def initial_state(self, temperature_C: float) -> np.ndarray:
+        return np.array([float(temperature_C)])
+
+    def step(self, state, heat_W, dt, tab_heat_W=None):
+        q = float(np.sum(heat_W)) + (sum(tab_heat_W.values()) if tab_heat_W else 0.0)
+        C = self.heat_capacity_J_per_K
+        T_new = (C * state[0] / dt + q + np.dot(self._G, self._Ts)) / (C / dt + self._G.sum())
+        flows = self._G * (T_new - self._Ts)
+        return np.array([T_new]), dict(zip(self._names, flows.tolist(), strict=True))
+
+    def temperature_C(self, state) -> np.ndarray:
+        return state.reshape(1, 1)
+
+    def mean_temperature_C(self, state) -> float:
+        return float(state[0])
+
+    def stored_J(self, state) -> float:
+        return self.heat_capacity_J_per_K * float(state[0])
+
+    def coolant_outlet_C(self, rejected_W: dict) -> float | None:
+        if self._stream is None:
+            return None
+        return self._stream.inlet_C + self._outlet_rise_per_W * rejected_W.get(self._stream.sink, 0.0)
+
+    def core_surface_difference_K(self, heat_W) -> np.ndarray:
+        """Plane wall with uniform generation (Incropera & DeWitt §3.5): q L^2/(8k) cooled on
+        both faces, q L^2/(2k) on one face; faces uncooled: no through-plane gradient."""
+        L = self._thickness
+        q_vol = float(np.sum(heat_W)) / (self.grid.area_m2 * L)
+        if self._cooled_faces == 0:
+            return np.zeros((1, 1))
+        factor = 8.0 if self._cooled_faces >= 2 else 2.0
+        return np.full((1, 1), q_vol * L**2 / (factor * self._k_through))
+
+
+def _stream_factor(G: float, stream) -> float:
+    """Effective-conductance factor of a sink whose coolant warms along the cell.
+
+    The coolant meets this cell at ``T_in + k Q/C`` (k upstream cells like
+    this one, each rejecting Q) and leaves at ``T_in + (k+1) Q/C``; taking the
+    cell against the mean, ``Q = G (T - T_in - (k + 1/2) Q/C)``, so
+    ``Q = G (T - T_in) / (1 + (k + 1/2) G / C)``.
+    """
+    return 1.0 / (1.0 + (stream.upstream_cells + 0.5) * G / stream.capacity_rate_W_K)

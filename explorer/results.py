@@ -1,0 +1,178 @@
+"""Results: the one place a run becomes an ``xarray.Dataset``, and its file I/O.
+
+:func:`to_dataset` turns the stepper's :class:`~explorer.stepping.run.Record`
+into the Dataset of the public contract (CF-style ``units`` and
+``long_name`` on every variable); :func:`save` writes it to netCDF
+atomically; :func:`open_results` reads it back; :func:`key_figures` gives the
+numbers a design review asks for first.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from explorer import __version__
+from explorer.validators import InputError
+
+CAUTION = (
+    "Results inform design; they do not certify it. The model does not cover abuse, internal "
+    "short circuits or thermal runaway. Temperature limits and margins come from the cell maker's "
+    "data sheet, the applicable standards and local codes; sign-off belongs to qualified engineers."
+)
+
+_HEAT_LONG = {
+    "irreversible": "irreversible (reaction overpotential) heat",
+    "reversible": "reversible (entropic) heat",
+    "ohmic_electrolyte": "Ohmic heat in the electrolyte",
+    "ohmic_solid": "Ohmic heat in the electrode solid phase",
+    "collector": "Joule heat in the current-collector foils",
+    "tab": "Joule heat in the tabs and tab welds",
+}
+
+
+def _var(dims, data, units, long_name):
+    return xr.Variable(dims, np.asarray(data, dtype=float), {"units": units, "long_name": long_name})
+
+
+def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
+    """Build the results Dataset from a stepper record.
+
+    ``attrs`` carries the model settings (electrochemistry, layout, duty,
+    cooling, ...); the cell's identity, the tool version and the status are
+    added here.
+    """
+    t = np.asarray(record.time)
+    T = np.stack(record.temperature)
+    area = grid.cell_area_m2
+    heat_map = np.stack(record.heat_map) / area
+    soc = np.asarray(record.soc)
+    current = np.asarray(record.current)
+    voltage = np.asarray(record.voltage)
+    Tmax = T.max(axis=(1, 2))
+    heat_vars = {f"heat_{k}": _var("time", v, "W", _HEAT_LONG[k]) for k, v in record.heat.items()}
+    heat_total = sum(np.asarray(v) for v in record.heat.values())
+    data = {
+        "voltage": _var("time", voltage, "V", "terminal voltage"),
+        "current": _var("time", current, "A", "cell current (positive on discharge)"),
+        "power": _var("time", current * voltage, "W", "terminal power (positive on discharge)"),
+        "ocv": _var("time", record.ocv, "V", "open-circuit voltage at the electrodes' state"),
+        "soc_mean": _var("time", soc, "1", "state of charge"),
+        "soc": _var(("time", "y", "x"), np.broadcast_to(soc[:, None, None], T.shape), "1",
+                    "local state of charge"),
+        "temperature": _var(("time", "y", "x"), T, "degC", "cell temperature"),
+        "temperature_max": _var("time", Tmax, "degC", "hottest point of the face"),
+        "temperature_min": _var("time", T.min(axis=(1, 2)), "degC", "coldest point of the face"),
+        "temperature_mean": _var("time", T.mean(axis=(1, 2)), "degC", "area-mean temperature"),
+        "temperature_core_max": _var("time", Tmax + np.asarray(record.core_difference), "degC",
+                                     "hottest point plus the through-plane core-to-surface rise"),
+        "heat_flux": _var(("time", "y", "x"), heat_map, "W m-2",
+                          "generated heat per unit face area"),
+        "heat_total": _var("time", heat_total, "W", "total generated heat"),
+        **heat_vars,
+        "heat_rejected": _var("time", record.heat_rejected, "W", "heat into all sinks"),
+        "heat_stored": _var("time", record.stored_J, "J",
+                            "heat stored in the cell (and fin) relative to 0 degC"),
+        "lithium": _var("time", record.lithium_mol, "mol", "cyclable lithium in the electrodes"),
+        "step": xr.Variable("time", np.asarray(record.step, dtype=np.int32),
+                            {"units": "1", "long_name": "index of the duty step"}),
+    }
+    for name, w in record.rejected_by_sink.items():
+        data[f"heat_to_{name}"] = _var("time", w, "W", f"heat into the {name} sink")
+    outlet = np.asarray(record.coolant_outlet, dtype=float)
+    if np.isfinite(outlet).any():
+        data["coolant_outlet"] = _var("time", outlet, "degC", "coolant temperature leaving this cell")
+    coords = {
+        "time": ("time", t, {"units": "s", "long_name": "time from the start of the duty"}),
+        "x": ("x", grid.x, {"units": "m", "long_name": "position across the electrode width"}),
+        "y": ("y", grid.y, {"units": "m", "long_name": "position along the electrode height"}),
+    }
+    full_attrs = {
+        "title": f"Pouch Thermal Explorer run: {cell.name}",
+        "tool_version": __version__,
+        "cell_name": cell.name,
+        "cell_sha256": cell.sha256,
+        "cell_file": cell.source_path,
+        "temperature_limit_C": cell.temperature_max_C,
+        "grid_nx": grid.nx,
+        "grid_ny": grid.ny,
+        **{k: (json.dumps(v) if isinstance(v, (dict, list, tuple)) else v)
+           for k, v in attrs.items() if v is not None},
+        "status": record.status,
+        "status_message": record.message,
+        "wall_time_s": record.wall_time_s,
+        "steps_taken": record.steps_taken,
+        "steps_rejected": record.steps_rejected,
+        "caution": CAUTION,
+        "Conventions": "CF-1.10",
+    }
+    return xr.Dataset(data, coords=coords, attrs=full_attrs)
+
+
+def key_figures(ds: xr.Dataset) -> dict:
+    """The figures a design review asks for first, as plain floats."""
+    t = ds["time"].values
+    Tmax = ds["temperature_max"].values
+    spread = Tmax - ds["temperature_min"].values
+    limit = float(ds.attrs.get("temperature_limit_C", math.nan))
+    over = np.nonzero(Tmax >= limit)[0] if math.isfinite(limit) else []
+    i_peak = int(np.argmax(Tmax))
+    power = ds["power"].values
+    return {
+        "peak_temperature_C": float(Tmax[i_peak]),
+        "peak_time_s": float(t[i_peak]),
+        "max_spread_K": float(spread.max()),
+        "time_to_limit_s": float(t[over[0]]) if len(over) else None,
+        "end_soc": float(ds["soc_mean"].values[-1]),
+        "energy_delivered_Wh": _integral(t, power) / 3600.0,
+        "charge_delivered_Ah": _integral(t, ds["current"].values) / 3600.0,
+        "heat_generated_J": _integral(t, ds["heat_total"].values),
+        "heat_rejected_J": _integral(t, ds["heat_rejected"].values),
+        "duration_s": float(t[-1] - t[0]),
+        "end_voltage_V": float(ds["voltage"].values[-1]),
+        "status": str(ds.attrs.get("status", "")),
+    }
+
+
+def _integral(t, y) -> float:
+    """Integral over the record with each value holding over the step that ends at it.
+
+    The stepper's implicit steps hold the end-of-step rates over the step, so
+    this rule reproduces the energy the thermal model actually received.
+    """
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(y, dtype=float)
+    return float(np.sum(y[1:] * np.diff(t)))
+
+
+def save(ds: xr.Dataset, path) -> Path:
+    """Write ``ds`` to netCDF atomically (temporary file in the same folder, then rename)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    os.close(fd)
+    try:
+        ds.to_netcdf(tmp, engine="h5netcdf")
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
+
+
+def open_results(path) -> xr.Dataset:
+    """Load a saved run (all variables into memory, all attributes kept)."""
+    path = Path(path)
+    if not path.is_file():
+        raise InputError(f"{path}: no such results file")
+    try:
+        with xr.open_dataset(path, engine="h5netcdf") as ds:
+            return ds.load()
+    except (OSError, ValueError) as exc:
+        raise InputError(f"{path}: not a results file this tool can read ({exc})") from None

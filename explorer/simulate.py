@@ -1,0 +1,194 @@
+"""``explorer.simulate``: one cell, one duty, one cooling design -> a results Dataset."""
+
+from __future__ import annotations
+
+import logging
+import math
+
+import numpy as np
+
+from explorer import duty as _duty
+from explorer.inplane.grid import Grid
+from explorer.inplane.lumped import LumpedThermal
+from explorer.inplane.sinks import Sinks
+from explorer.results import to_dataset
+from explorer.stepping.run import Coupling, Settings, run
+from explorer.validators import InputError
+
+log = logging.getLogger(__name__)
+
+ELECTROCHEMISTRY = ("spm", "spme", "dfn")
+LAYOUTS = ("single", "averaged", "distributed")
+CELLS_ON_GRID = 1536  # default in-plane grid size (32 x 48 on a 2:3 face)
+
+
+def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: str = "averaged",
+             start_soc: float = 1.0, start_temperature_C: float = 25.0, *, grid=None,
+             position=None, output_interval_s: float = 10.0, mesh: dict | None = None,
+             progress=None):
+    """Run ``duty`` on ``cell`` with ``cooling`` and return the results Dataset.
+
+    Parameters
+    ----------
+    cell : Cell
+        From :func:`explorer.load_cell`.
+    duty : Step or list of Step
+        From :mod:`explorer.duty`.
+    cooling : cooling design or None
+        From :mod:`explorer.cooling`; None is an adiabatic cell.
+    electrochemistry : {"spm", "spme", "dfn"}
+    layout : {"single", "averaged", "distributed"}
+        ``single``: one rod and a single cell temperature, no collectors;
+        ``averaged``: one rod at the area-mean temperature, coupled to the 2-D
+        collector and thermal fields.
+    start_soc, start_temperature_C : float
+        Initial state (uniform, at rest).
+    grid : (nx, ny), optional
+        In-plane grid; default about 1,500 near-square control volumes.
+    position : int, optional
+        Which cell along a shared cold plate to simulate (0 = first the
+        coolant meets); default the last, which sees the warmest coolant.
+    output_interval_s : float
+        Spacing of the recorded time base (steps also end exactly at events).
+    mesh : dict, optional
+        Rod mesh sizes, passed to the electrochemical model.
+    progress : callable(t_s, step_index), optional
+
+    Returns
+    -------
+    xarray.Dataset
+        See :mod:`explorer.results`; ``attrs["status"]`` says whether the run
+        completed or why it stopped.
+
+    Examples
+    --------
+    >>> import explorer
+    >>> cell = explorer.load_cell("demo_cells/van_nmc_66ah.toml")     # doctest: +SKIP
+    >>> ds = explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0))  # doctest: +SKIP
+    """
+    from explorer.rod import RodParameters, make_rod
+
+    electrochemistry = _choice("electrochemistry", electrochemistry, ELECTROCHEMISTRY)
+    layout = _choice("layout", layout, LAYOUTS)
+    start_soc = _number("start_soc", start_soc, 0.0, 1.0)
+    start_temperature_C = _number("start_temperature_C", start_temperature_C, -40.0, 80.0)
+    if not output_interval_s > 0:
+        raise InputError(f"simulate: `output_interval_s` must be > 0, got {output_interval_s!r}")
+    if layout == "distributed":
+        raise InputError("simulate: `layout='distributed'` is not available in this version; "
+                         "use 'averaged' (2-D collector and thermal fields) or 'single'")
+    steps = [_duty.resolve(s, cell) for s in _duty.as_steps(duty)]
+
+    g = cell.geometry
+    if layout == "single":
+        the_grid = Grid.single(g.width_m, g.height_m)
+    else:
+        the_grid = _grid(g.width_m, g.height_m, grid)
+    position = _position(cooling, position)
+    sinks = _sinks(cooling, cell, the_grid, position)
+
+    rod = make_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
+    if layout == "single":
+        thermal = LumpedThermal(cell, sinks)
+        coupling = Coupling()
+        r_collector = 0.0
+    else:
+        from explorer.inplane.collector import CollectorNetwork
+        from explorer.inplane.thermal import PlaneThermal
+
+        network = CollectorNetwork(cell, the_grid)
+        thermal = PlaneThermal(cell, the_grid, sinks)
+        coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
+                            dict(network.tab_joule_W_per_A2))
+        r_collector = network.resistance_ohm
+    record = run(rod, thermal, steps, start_soc=start_soc,
+                 start_temperature_C=start_temperature_C, coupling=coupling,
+                 settings=Settings(output_interval_s=float(output_interval_s)), progress=progress)
+    mean_rejected = float(np.mean(record.heat_rejected)) if record.heat_rejected else 0.0
+    attrs = {
+        "electrochemistry": electrochemistry,
+        "layout": layout,
+        "start_soc": start_soc,
+        "start_temperature_C": start_temperature_C,
+        "heat_capacity_J_per_K": thermal.heat_capacity_J_per_K,
+        "collector_resistance_ohm": r_collector,
+        "output_interval_s": float(output_interval_s),
+        "duty": [s.step.describe() for s in steps],
+        "cooling": _describe(cooling),
+        "hydraulics": _hydraulics(cooling, mean_rejected),
+        "cell_position": position,
+        "rod_mesh": mesh or {},
+    }
+    return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
+
+
+def _choice(name, value, choices):
+    if not isinstance(value, str) or value.lower() not in choices:
+        raise InputError(f"simulate: `{name}` must be one of {', '.join(map(repr, choices))}; "
+                         f"got {value!r}")
+    return value.lower()
+
+
+def _number(name, value, lo, hi):
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"simulate: `{name}` must be a number, got {value!r}") from None
+    if not (math.isfinite(v) and lo <= v <= hi):
+        raise InputError(f"simulate: `{name}` must be within {lo:g}..{hi:g}, got {value!r}")
+    return v
+
+
+def _grid(width, height, grid) -> Grid:
+    if grid is None:
+        nx = max(4, round(math.sqrt(CELLS_ON_GRID * width / height)))
+        ny = max(4, round(CELLS_ON_GRID / nx))
+        return Grid(width, height, nx, ny)
+    try:
+        nx, ny = (int(v) for v in grid)
+    except (TypeError, ValueError):
+        raise InputError(f"simulate: `grid` must be (nx, ny), got {grid!r}") from None
+    if nx < 2 or ny < 2 or nx * ny > 200_000:
+        raise InputError(f"simulate: `grid` needs 2 <= nx, ny and nx*ny <= 200000, got {grid!r}")
+    return Grid(width, height, nx, ny)
+
+
+def _position(cooling, position):
+    positions = list(getattr(cooling, "positions_to_check", lambda: [0])()) if cooling else [0]
+    if position is None:
+        return int(max(positions))
+    if int(position) != position or position < 0:
+        raise InputError(f"simulate: `position` must be a whole number >= 0, got {position!r}")
+    return int(position)
+
+
+def _sinks(cooling, cell, grid, position) -> Sinks:
+    if cooling is None:
+        return Sinks()
+    if isinstance(cooling, Sinks):
+        return cooling
+    if not hasattr(cooling, "sinks"):
+        raise InputError("simulate: `cooling` must be None or a design from explorer.cooling, got "
+                         f"{type(cooling).__name__}")
+    try:
+        return cooling.sinks(cell, grid, position=position)
+    except TypeError:
+        return cooling.sinks(cell, grid)
+
+
+def _describe(cooling) -> dict:
+    if cooling is None:
+        return {"kind": "adiabatic"}
+    if isinstance(cooling, Sinks):
+        return {"kind": "sinks"}
+    return cooling.describe()
+
+
+def _hydraulics(cooling, heat_W) -> dict:
+    fn = getattr(cooling, "hydraulics", None)
+    if fn is None:
+        return {}
+    try:
+        return fn(heat_W=heat_W) or {}
+    except TypeError:
+        return fn() or {}

@@ -1,0 +1,337 @@
+"""The time stepper: drives a rod model and a thermal model through a duty.
+
+Per time step (operator splitting, the thermal field lagging one step):
+
+1. the rod advances at the thermal model's mean temperature, with the
+   collector and tab resistance in series, under the step's control;
+2. its heat (spread uniformly) plus the collector Joule map times I^2 and
+   the tab Joule heat go into one implicit thermal step;
+3. end conditions are checked; a crossing is located by re-taking the step
+   with a shorter dt (Illinois false position) to within the tolerances in
+   ``END_TOLERANCE``, so no end condition is overshot.
+
+Steps adapt to the voltage and current change per step and never exceed the
+output interval, on whose multiples the stepper lands so the record is on a
+regular time base (plus the exact moments steps end). A failed rod solve
+retries with a quarter of the step; below ``dt_min`` the run stops cleanly
+with what it computed and a status saying when and why. Ctrl-C does the same.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+import time as _time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from explorer.duty import End, ResolvedStep
+from explorer.rod.base import Control, RodStepError
+
+log = logging.getLogger(__name__)
+
+# How close a located end condition must come to its threshold (in the quantity's unit).
+END_TOLERANCE = {"voltage": 1e-3, "soc": 1e-4, "temperature": 1e-2}
+CURRENT_RELATIVE_TOLERANCE = 1e-3  # of the end current
+HEAT_KEYS = ("irreversible", "reversible", "ohmic_electrolyte", "ohmic_solid")
+
+
+@dataclass
+class Settings:
+    output_interval_s: float = 10.0
+    dt_min_s: float = 1e-3
+    dt_first_s: float = 1.0  # first step after a load change
+    voltage_change_V: float = 0.02  # largest voltage change accepted in one step
+    current_change: float = 0.1  # largest relative current change in one step (CV holds)
+
+
+@dataclass
+class Record:
+    """What the stepper computed, one entry per recorded time."""
+
+    time: list = field(default_factory=list)
+    step: list = field(default_factory=list)
+    voltage: list = field(default_factory=list)
+    current: list = field(default_factory=list)
+    ocv: list = field(default_factory=list)
+    soc: list = field(default_factory=list)
+    temperature: list = field(default_factory=list)  # (ny, nx) arrays
+    heat_map: list = field(default_factory=list)  # (ny, nx) W per grid cell
+    heat: dict = field(default_factory=dict)  # source -> list of W
+    heat_rejected: list = field(default_factory=list)
+    rejected_by_sink: dict = field(default_factory=dict)
+    core_difference: list = field(default_factory=list)  # max K
+    coolant_outlet: list = field(default_factory=list)
+    stored_J: list = field(default_factory=list)
+    lithium_mol: list = field(default_factory=list)
+    status: str = "completed"
+    message: str = ""
+    wall_time_s: float = 0.0
+    steps_taken: int = 0
+    steps_rejected: int = 0
+
+
+class _Stop(Exception):
+    def __init__(self, status, message):
+        super().__init__(message)
+        self.status, self.message = status, message
+
+
+@dataclass
+class Coupling:
+    """What ties the rod to the in-plane models (the averaged layout; zeros for single)."""
+
+    series_resistance_ohm: float = 0.0
+    joule_map_W_per_A2: np.ndarray | None = None  # (ny, nx) collector foils
+    tab_joule_W_per_A2: dict = field(default_factory=dict)
+
+
+def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temperature_C: float,
+        coupling: Coupling | None = None, settings: Settings | None = None,
+        progress=None) -> Record:
+    """Run ``steps`` and return the :class:`Record` (never raises for solver trouble)."""
+    coupling = coupling or Coupling()
+    settings = settings or Settings()
+    stepper = _Stepper(rod, thermal, coupling, settings, progress)
+    wall = _time.perf_counter()
+    stepper.start(start_soc, start_temperature_C)
+    try:
+        for index, step in enumerate(steps):
+            stepper.run_step(index, step)
+    except _Stop as stop:
+        stepper.rec.status, stepper.rec.message = stop.status, stop.message
+    except KeyboardInterrupt:
+        stepper.rec.status = "stopped"
+        stepper.rec.message = f"interrupted by the user at t = {stepper.t:.1f} s"
+    else:
+        stepper.rec.message = f"all {len(steps)} duty step(s) ran to their end conditions"
+    stepper.rec.wall_time_s = _time.perf_counter() - wall
+    return stepper.rec
+
+
+class _Trial:
+    __slots__ = ("dt", "rod", "thermal", "rejected", "heat_map", "tab_heat", "heat", "t_max")
+
+
+class _Stepper:
+    def __init__(self, rod, thermal, coupling, settings, progress):
+        self.rod, self.thermal, self.c, self.s = rod, thermal, coupling, settings
+        self.progress = progress
+        self.rec = Record(heat={k: [] for k in (*HEAT_KEYS, "collector", "tab")})
+        shape = thermal.grid.shape
+        self.n_cells = shape[0] * shape[1]
+        self.joule = (coupling.joule_map_W_per_A2 if coupling.joule_map_W_per_A2 is not None
+                      else np.zeros(shape))
+        self.R = coupling.series_resistance_ohm
+        self.R_tab = float(sum(coupling.tab_joule_W_per_A2.values()))
+
+    # -- state ------------------------------------------------------------------------------
+    def start(self, soc, temperature_C):
+        self.t = 0.0
+        self.T_state = self.thermal.initial_state(temperature_C)
+        self.rod_state = self.rod.initial_state(soc, temperature_C + 273.15)
+        self.current = 0.0
+        # a zero-current step of zero length would need the rod's OCV; take a tiny rest step
+        res = self.rod.solve_step(self.rod_state, 1e-6, temperature_C + 273.15,
+                                  Control("current", 0.0), self.R)
+        zero = np.zeros(self.thermal.grid.shape)
+        self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {})
+
+    def _record(self, index, res, heat_map, tab_heat, heat, rejected):
+        r = self.rec
+        T = self.thermal.temperature_C(self.T_state)
+        r.time.append(self.t)
+        r.step.append(index)
+        r.voltage.append(res.voltage_V)
+        r.current.append(res.current_A)
+        r.ocv.append(res.ocv_V)
+        r.soc.append(res.soc)
+        r.temperature.append(np.array(T, dtype=float, copy=True))
+        r.heat_map.append(heat_map)
+        for k in HEAT_KEYS:
+            r.heat[k].append(heat.get(k, 0.0))
+        I2 = res.current_A ** 2
+        r.heat["collector"].append(I2 * float(self.joule.sum()))
+        r.heat["tab"].append(sum(tab_heat.values()) if tab_heat else 0.0)
+        r.heat_rejected.append(float(sum(rejected.values())))
+        for name, w in rejected.items():
+            r.rejected_by_sink.setdefault(name, [0.0] * (len(r.time) - 1)).append(w)
+        for name, lst in r.rejected_by_sink.items():
+            if len(lst) < len(r.time):
+                lst.append(0.0)
+        dT = self.thermal.core_surface_difference_K(heat_map)
+        r.core_difference.append(float(np.max(T + dT) - np.max(T)) if np.size(dT) else 0.0)
+        outlet = getattr(self.thermal, "coolant_outlet_C", None)
+        r.coolant_outlet.append(outlet(rejected) if outlet and rejected else math.nan)
+        r.stored_J.append(self.thermal.stored_J(self.T_state))
+        r.lithium_mol.append(self.rod.lithium_mol(res.state))
+
+    # -- one duty step ------------------------------------------------------------------------
+    def run_step(self, index, step: ResolvedStep):
+        s = self.s
+        t0 = self.t
+        dt = min(s.dt_first_s, s.output_interval_s)
+        t_end = t0 + (step.step.max_duration_s() if step.kind != "rest" or step.ends else math.inf)
+        prev_voltage = self.rec.voltage[-1]
+        while True:
+            t_in = self.t - t0
+            # land on output times, step ends and profile breakpoints
+            next_out = (math.floor(self.t / s.output_interval_s + 1e-9) + 1) * s.output_interval_s
+            limit = min(next_out, t_end)
+            if step.kind == "profile":
+                limit = min(limit, t0 + step.next_breakpoint(t_in))
+            dt = max(min(dt, limit - self.t), 0.0)
+            if dt <= 1e-9:
+                if self.t >= t_end - 1e-9:
+                    return
+                dt = min(s.dt_first_s, limit - self.t)
+            control = self._control(step, t_in)
+            trial = self._try(control, dt, index)
+            if trial is None:
+                self.rec.steps_rejected += 1
+                dt /= 4.0
+                if dt < s.dt_min_s:
+                    raise _Stop("failed", self._failure_message(step, control))
+                continue
+            dV = abs(trial.rod.voltage_V - prev_voltage)
+            dI = abs(trial.rod.current_A - self.current) / max(abs(self.current), 1e-3 * abs(
+                trial.rod.current_A) + 1e-9)
+            too_big = dV > s.voltage_change_V or (step.kind == "voltage" and dI > s.current_change
+                                                 and abs(self.current) > 0)
+            if too_big and dt > 4 * s.dt_min_s:
+                self.rec.steps_rejected += 1
+                dt /= 2.0
+                continue
+            end = self._crossed(step, trial, t0)
+            if end is not None:
+                trial = self._locate(step, end, control, trial, t0, index)
+                self._accept(trial, index)
+                return
+            self._accept(trial, index)
+            prev_voltage = trial.rod.voltage_V
+            if self.t >= t_end - 1e-9:
+                return
+            dt = min(trial.dt * (1.5 if dV < 0.5 * s.voltage_change_V else 1.0),
+                     s.output_interval_s)
+
+    def _control(self, step: ResolvedStep, t_in: float) -> Control:
+        if step.kind == "rest":
+            return Control("current", 0.0)
+        if step.kind == "profile":
+            return Control(step.step.profile_quantity, step.load_at(t_in))
+        return Control(step.kind, step.value)
+
+    def _try(self, control, dt, index) -> _Trial | None:
+        T_mean = self.thermal.mean_temperature_C(self.T_state)
+        try:
+            res = self.rod.solve_step(self.rod_state, dt, T_mean + 273.15, control, self.R)
+        except RodStepError as exc:
+            log.debug("rod step failed at t=%.3f dt=%.3g: %s", self.t, dt, exc)
+            self._last_error = str(exc)
+            return None
+        if not np.isfinite(res.voltage_V):
+            self._last_error = "the rod returned a non-finite voltage"
+            return None
+        I = res.current_A
+        q_rod = sum(res.heat_W.get(k, 0.0) for k in HEAT_KEYS)
+        heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells) + I * I * self.joule
+        tab_heat = {k: I * I * v for k, v in self.c.tab_joule_W_per_A2.items()}
+        T_new, rejected = self.thermal.step(self.T_state, heat_map, dt, tab_heat or None)
+        tr = _Trial()
+        tr.dt, tr.rod, tr.thermal, tr.rejected = dt, res, T_new, rejected
+        tr.heat_map, tr.tab_heat, tr.heat = heat_map, tab_heat, res.heat_W
+        tr.t_max = float(np.max(self.thermal.temperature_C(T_new)))
+        return tr
+
+    def _value(self, end: End, tr: _Trial, t0: float) -> float:
+        q = end.quantity
+        if q == "voltage":
+            return tr.rod.voltage_V
+        if q == "current":
+            return abs(tr.rod.current_A)
+        if q == "soc":
+            return tr.rod.soc
+        if q == "temperature":
+            return tr.t_max
+        return self.t + tr.dt - t0
+
+    def _crossed(self, step, tr, t0) -> End | None:
+        for end in step.ends:
+            if end.quantity == "time":
+                continue  # handled by landing exactly on t_end
+            if end.crossed(self._value(end, tr, t0)):
+                return end
+        return None
+
+    def _tolerance(self, end: End) -> float:
+        if end.quantity == "current":
+            return CURRENT_RELATIVE_TOLERANCE * abs(end.threshold)
+        return END_TOLERANCE[end.quantity]
+
+    def _locate(self, step, end, control, tr_hi, t0, index) -> _Trial:
+        """Shorten the step until ``end`` is met within tolerance (Illinois false position)."""
+        tol = self._tolerance(end)
+        g_hi = end.distance(self._value(end, tr_hi, t0))  # <= 0: crossed
+        if abs(g_hi) <= tol:
+            return tr_hi
+        lo, g_lo = 0.0, self._distance_now(end, t0)
+        hi = tr_hi.dt
+        best = tr_hi
+        side = 0
+        for _ in range(60):
+            if g_lo is None or not math.isfinite(g_lo) or g_lo - g_hi <= 0:
+                dt = 0.5 * (lo + hi)
+            else:
+                dt = hi - g_hi * (hi - lo) / (g_hi - g_lo)
+                dt = min(max(dt, lo + 0.02 * (hi - lo)), hi - 0.02 * (hi - lo))
+            tr = self._try(control, dt, index)
+            if tr is None:  # past a limit the rod cannot reach: treat as crossed
+                hi, g_hi = dt, -math.inf
+                continue
+            g = end.distance(self._value(end, tr, t0))
+            if abs(g) <= tol:
+                return tr
+            if g > 0:
+                lo, g_lo = dt, g
+                if side == +1:
+                    g_hi *= 0.5
+                side = +1
+            else:
+                hi, g_hi, best = dt, g, tr
+                if side == -1 and g_lo is not None:
+                    g_lo *= 0.5
+                side = -1
+            if hi - lo < self.s.dt_min_s:
+                break
+        return best
+
+    def _distance_now(self, end, t0):
+        r = self.rec
+        if end.quantity == "voltage":
+            return end.distance(r.voltage[-1])
+        if end.quantity == "current":
+            return end.distance(abs(r.current[-1]))
+        if end.quantity == "soc":
+            return end.distance(r.soc[-1])
+        if end.quantity == "temperature":
+            return end.distance(float(np.max(r.temperature[-1])))
+        return None
+
+    def _accept(self, tr: _Trial, index):
+        self.t += tr.dt
+        self.rod_state = tr.rod.state
+        self.T_state = tr.thermal
+        self.current = tr.rod.current_A
+        self.rec.steps_taken += 1
+        self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected)
+        if self.progress is not None:
+            self.progress(self.t, index)
+
+    def _failure_message(self, step, control) -> str:
+        what = {"current": f"a current of {control.value:.4g} A",
+                "power": f"a power of {control.value:.4g} W",
+                "voltage": f"a terminal voltage of {control.value:.4g} V"}[control.kind]
+        reason = getattr(self, "_last_error", "the solver did not converge")
+        return (f"stopped at t = {self.t:.1f} s in duty step {step.step.label!r}: the cell "
+                f"could not sustain {what} ({reason})")
