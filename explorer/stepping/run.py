@@ -157,7 +157,7 @@ class _Stepper:
         r.heat_rejected.append(float(sum(rejected.values())))
         for name, w in rejected.items():
             r.rejected_by_sink.setdefault(name, [0.0] * (len(r.time) - 1)).append(w)
-        for name, lst in r.rejected_by_sink.items():
+        for lst in r.rejected_by_sink.values():
             if len(lst) < len(r.time):
                 lst.append(0.0)
         dT = self.thermal.core_surface_difference_K(heat_map)
