@@ -1,0 +1,157 @@
+"""Benchmarks: ``python -m explorer.bench [--json] [--quick] [--only NAME ...]``.
+
+Speed targets are met here, never in timed unit tests. Every ratio is
+measured side by side in the same run. Sections:
+
+* ``rods``      full 1C discharge through ``simulate`` (single layout) for each
+                model on each demo cell; real-time factor; DFN/SPMe ratio
+* ``averaged``  SPMe, averaged layout, 32 x 48 thermal grid, full 1C discharge
+* ``sweep``     48-case sweep, serial against the local Dask cluster
+* ``app``       the notebook app's run-to-figure and time-slider update
+
+Each figure is the best of ``--repeat`` runs (default 3) after one warm-up,
+which suppresses the noise of a shared machine without hiding a slow path.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import platform
+import sys
+import time
+
+TARGETS = {
+    ("rods", "spme"): 0.1,
+    ("rods", "dfn"): 3.0,
+    ("averaged", "spme"): 0.5,
+}
+
+
+def _best(fn, repeat):
+    fn()  # warm-up: imports, factorisations cached per process, numba-free first calls
+    best, out = float("inf"), None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        best = min(best, time.perf_counter() - t0)
+    return best, out
+
+
+def bench_rods(repeat=3, cells=None):
+    import explorer
+    from explorer.cell import list_demo_cells
+
+    rows = []
+    for name in cells or list(list_demo_cells()):
+        cell = explorer.load_cell(name)
+        times = {}
+        for model in ("spm", "spme", "dfn"):
+            def once(model=model, cell=cell):
+                return explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0),
+                                         electrochemistry=model, layout="single")
+            wall, ds = _best(once, repeat if model != "dfn" else max(1, repeat - 1))
+            times[model] = wall
+            duration = float(ds.time[-1])
+            rows.append({"section": "rods", "cell": name, "model": model, "wall_s": wall,
+                         "duration_s": duration, "real_time_factor": duration / wall,
+                         "steps": int(ds.attrs["steps_taken"]), "status": ds.attrs["status"],
+                         "target_s": TARGETS.get(("rods", model))})
+        rows.append({"section": "rods", "cell": name, "model": "dfn/spme",
+                     "ratio": times["dfn"] / times["spme"], "target_ratio_min": 30.0})
+    return rows
+
+
+def bench_averaged(repeat=3, cells=None):
+    import explorer
+    from explorer.cell import list_demo_cells
+
+    rows = []
+    for name in cells or list(list_demo_cells()):
+        cell = explorer.load_cell(name)
+
+        def once(cell=cell):
+            return explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0),
+                                     explorer.cooling.convection(10.0, 25.0),
+                                     electrochemistry="spme", layout="averaged", grid=(32, 48))
+        wall, ds = _best(once, repeat)
+        duration = float(ds.time[-1])
+        rows.append({"section": "averaged", "cell": name, "model": "spme", "grid": "32x48",
+                     "wall_s": wall, "duration_s": duration, "real_time_factor": duration / wall,
+                     "steps": int(ds.attrs["steps_taken"]), "status": ds.attrs["status"],
+                     "target_s": TARGETS[("averaged", "spme")]})
+    return rows
+
+
+def _section(name, quick):
+    if name == "rods":
+        return bench_rods(repeat=1 if quick else 3)
+    if name == "averaged":
+        return bench_averaged(repeat=1 if quick else 3)
+    if name == "sweep":
+        from explorer.sweep_bench import bench_sweep
+
+        return bench_sweep()
+    if name == "app":
+        from explorer.app.bench import bench_app
+
+        return bench_app()
+    raise ValueError(name)
+
+
+SECTIONS = ("rods", "averaged", "sweep", "app")
+
+
+def _table(rows) -> str:
+    keys = []
+    for r in rows:
+        keys.extend(k for k in r if k not in keys)
+    cols = [[k] + [_fmt(r.get(k)) for r in rows] for k in keys]
+    widths = [max(len(c) for c in col) for col in cols]
+    lines = []
+    for i in range(len(rows) + 1):
+        lines.append("  ".join(col[i].ljust(w) for col, w in zip(cols, widths)))
+        if i == 0:
+            lines.append("  ".join("-" * w for w in widths))
+    return "\n".join(lines)
+
+
+def _fmt(v) -> str:
+    if v is None:
+        return ""
+    if isinstance(v, float):
+        return f"{v:.4g}"
+    return str(v)
+
+
+def main(argv=None) -> int:
+    p = argparse.ArgumentParser(prog="python -m explorer.bench", description=__doc__.split("\n")[0])
+    p.add_argument("--json", action="store_true", help="print machine-readable figures")
+    p.add_argument("--quick", action="store_true", help="one repeat per figure")
+    p.add_argument("--only", nargs="+", choices=SECTIONS, help="sections to run")
+    args = p.parse_args(argv)
+    rows, errors = [], []
+    for name in args.only or SECTIONS:
+        try:
+            rows.extend(_section(name, args.quick))
+        except Exception as exc:  # a broken section must not hide the others' figures
+            errors.append({"section": name, "error": f"{type(exc).__name__}: {exc}"})
+    meta = {"python": platform.python_version(), "machine": platform.machine(),
+            "processor": platform.processor()}
+    if args.json:
+        json.dump({"meta": meta, "rows": rows, "errors": errors}, sys.stdout, indent=2)
+        print()
+    else:
+        by = {}
+        for r in rows:
+            by.setdefault(r["section"], []).append(r)
+        for name, rs in by.items():
+            print(f"\n== {name} ==")
+            print(_table([{k: v for k, v in r.items() if k != "section"} for r in rs]))
+        for e in errors:
+            print(f"\n== {e['section']} == FAILED: {e['error']}")
+    return 1 if errors else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
