@@ -65,9 +65,10 @@ HEAT_PARTS = {
 _LAYOUT = dict(
     template="simple_white",
     font=dict(family="Helvetica, Arial, sans-serif", size=13),
-    margin=dict(l=70, r=30, t=60, b=60),
+    margin=dict(l=70, r=30, t=110, b=60),
     hovermode="x unified",
-    legend=dict(orientation="h", yanchor="bottom", y=1.02, xanchor="left", x=0.0),
+    legend=dict(orientation="h", yanchor="bottom", y=1.01, xanchor="left", x=0.0),
+    title=dict(x=0.01, xanchor="left", y=0.99, yanchor="top"),
 )
 _LIMIT_STYLE = dict(color="#B2182B", width=1.5, dash="dash")
 _SHEET_STYLE = dict(color="#444444", width=1.5, dash="dot")
@@ -194,8 +195,8 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
     plotly.graph_objects.Figure
         Trace 0 is the heat map, trace 1 the marker of the extreme point.
     """
-    _require(ds, [variable, "time", "x", "y"], "field_figure")
     label, unit, _, colorscale = _scale(variable)
+    _require(ds, [variable, "time", "x", "y"], "field_figure")
     n_time = ds.sizes["time"]
     if n_time == 0:
         raise ValueError("field_figure: the results Dataset has no time samples")
@@ -244,7 +245,9 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
             name = str(int(k))
             frames.append(go.Frame(
                 name=name,
-                data=[go.Heatmap(z=fr["z"]), go.Scatter(x=[fr["spot_x_mm"]], y=[fr["spot_y_mm"]])],
+                # full heat-map data in each frame: a z-only frame can leave the map blank
+                data=[go.Heatmap(x=x_mm, y=y_mm, z=fr["z"], zmin=zmin, zmax=zmax, colorscale=colorscale),
+                      go.Scatter(x=[fr["spot_x_mm"]], y=[fr["spot_y_mm"]])],
                 traces=[0, 1],
                 layout=go.Layout(title=dict(text=fr["title"])),
             ))
@@ -256,8 +259,8 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
         fig.frames = frames
         active = int(np.argmin(np.abs(idx - index)))
         fig.update_layout(
-            sliders=[dict(active=active, steps=steps, currentvalue=dict(prefix="t (s) = "),
-                          pad=dict(t=50), len=0.9, x=0.1)],
+            sliders=[dict(active=active, steps=steps, currentvalue=dict(prefix="time (s): "),
+                          pad=dict(t=50), len=0.85, x=0.15)],
             updatemenus=[dict(
                 type="buttons", direction="left", x=0.0, y=0.0, xanchor="left", yanchor="top",
                 pad=dict(t=50, r=10), showactive=False,
@@ -292,7 +295,7 @@ def traces_figure(ds, limits=None) -> go.Figure:
         fig.add_trace(go.Scatter(x=t, y=ds["ocv"].values, name="open-circuit voltage",
                                  line=dict(color=PALETTE[0], dash="dot", width=1)), row=1, col=1)
     fig.add_trace(go.Scatter(x=t, y=ds["current"].values, name="current (+ discharge)",
-                             line=dict(color=PALETTE[1])), row=2, col=1)
+                             line=dict(color=PALETTE[4])), row=2, col=1)
     temps = [("temperature_max", "hottest point", PALETTE[1], None),
              ("temperature_mean", "face mean", PALETTE[2], None),
              ("temperature_min", "coldest point", PALETTE[5], None),

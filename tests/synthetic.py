@@ -173,3 +173,4 @@ class SyntheticSizing:
         self.feasible = True
         self.dataset = synthetic_dataset()
         self.message = "limits met (invented)"
+

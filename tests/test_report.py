@@ -1,0 +1,153 @@
+"""The HTML report: one self-contained file with inputs, settings, key figures, plots and the caution.
+
+Parsed with the Python standard library's ``html.parser`` (an independent HTML tokenizer following
+the WHATWG HTML Living Standard tokenization rules), not by string search alone.
+"""
+
+from __future__ import annotations
+
+import json
+from html.parser import HTMLParser
+
+import plotly.offline
+import pytest
+from synthetic import SyntheticSizing, synthetic_dataset
+
+from explorer import results
+from explorer.report import cmd_report, render_report, write_report
+
+
+class _Collect(HTMLParser):
+    """Collect the text, the script blocks and the external references of a page."""
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.text: list[str] = []
+        self.scripts: list[str] = []
+        self.external: list[str] = []
+        self.tags: dict[str, int] = {}
+        self._in_script = False
+
+    def handle_starttag(self, tag, attrs):
+        self.tags[tag] = self.tags.get(tag, 0) + 1
+        a = dict(attrs)
+        for key in ("src", "href"):
+            value = a.get(key) or ""
+            if value.startswith(("http:", "https:", "//")):
+                self.external.append(value)
+        if tag == "script":
+            self._in_script = True
+            self.scripts.append("")
+
+    def handle_endtag(self, tag):
+        if tag == "script":
+            self._in_script = False
+
+    def handle_data(self, data):
+        if self._in_script:
+            self.scripts[-1] += data
+        else:
+            self.text.append(data)
+
+
+def _parse(text: str) -> _Collect:
+    p = _Collect()
+    p.feed(text)
+    p.close()
+    return p
+
+
+@pytest.fixture(scope="module")
+def ds():
+    return synthetic_dataset()
+
+
+def test_report_is_self_contained_and_complete(tmp_path, ds):
+    inputs = {"cell": "van_nmc_66ah", "flow_L_min": 2.5, "cooling": {"kind": "edge plate", "fin_mm": 0.5}}
+    path = write_report(ds, tmp_path / "r.html", inputs=inputs, title="Edge plate review",
+                        limits={"temperature_max_C": 45.0, "spread_K": 5.0})
+    text = path.read_text(encoding="utf-8")
+    page = _parse(text)
+    body = " ".join(page.text)
+    # no network: nothing loaded from outside, and the plotly.js bundle inline exactly once
+    assert page.external == []
+    assert '<script src="http' not in text
+    bundle_head = plotly.offline.get_plotlyjs()[:40]  # "/**\n* plotly.js vX.Y.Z" banner
+    assert sum(s.lstrip().startswith(bundle_head) for s in page.scripts) == 1
+    # inputs, settings, key figures, caution, version
+    assert "Edge plate review" in body
+    assert "flow_L_min" in body and "2.5" in body and "fin_mm" in body
+    assert "electrochemistry" in body and "spme" in body and "cell_sha256" in body
+    figures = results.key_figures(ds)
+    assert "Peak temperature (°C)" in body and f"{figures['peak_temperature_C']:.2f}" in body
+    assert f"{figures['energy_delivered_Wh']:.1f}" in body
+    assert results.CAUTION in body and body.count(results.CAUTION) >= 2  # top and footer
+    assert ds.attrs["tool_version"] in body
+    # the plots are there: one div per figure with plotly's call
+    assert text.count("Plotly.newPlot") >= 3
+    assert "Temperature at t" in text and "Heat generation by source" in text
+
+
+def test_report_of_several_runs_compares_them(tmp_path, ds):
+    other = synthetic_dataset(rise_K=10.0)
+    path = write_report({"baseline": ds, "face plate": other}, tmp_path / "two.html",
+                        sizing=SyntheticSizing())
+    body = " ".join(_parse(path.read_text(encoding="utf-8")).text)
+    assert "Comparison" in body and "face plate (Δ to first)" in body
+    delta = results.key_figures(other)["peak_temperature_C"] - results.key_figures(ds)["peak_temperature_C"]
+    assert f"({delta:.2f})" in body  # the difference to the first run, signed
+    assert "Sizing" in body and "limits met (invented)" in body
+
+
+def test_atomic_write_leaves_no_temporary_files(tmp_path, ds):
+    write_report(ds, tmp_path / "a.html")
+    write_report(ds, tmp_path / "a.html")  # overwrite in place
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.html"]
+
+
+def test_text_is_escaped(ds):
+    bad = ds.copy()
+    bad.attrs["cell_name"] = "<script>alert(1)</script>"
+    text = render_report(bad, inputs={"note": "<b>x</b>"})
+    assert "<script>alert(1)</script>" not in text.split("</head>", 1)[1]
+    assert "&lt;b&gt;x&lt;/b&gt;" in text
+
+
+def test_bad_arguments(tmp_path, ds):
+    with pytest.raises(ValueError, match="does not exist"):
+        write_report(ds, tmp_path / "missing" / "r.html")
+    with pytest.raises(ValueError, match="is a folder"):
+        write_report(ds, tmp_path)
+    with pytest.raises(TypeError, match="xarray.Dataset"):
+        write_report(["not a dataset"], tmp_path / "r.html")
+    with pytest.raises(TypeError, match="`inputs` must be a mapping"):
+        write_report(ds, tmp_path / "r.html", inputs=[1])
+    with pytest.raises(ValueError, match="no runs"):
+        write_report([], tmp_path / "r.html")
+
+
+def _netcdf_writer_or_skip():
+    # explorer.results.save writes through h5netcdf, which needs h5py at run time
+    pytest.importorskip("h5py", reason="h5py missing: explorer.results.save cannot write netCDF")
+
+
+def test_cmd_report_round_trip(tmp_path, ds, capsys):
+    _netcdf_writer_or_skip()
+    nc = results.save(ds, tmp_path / "run.nc")
+    assert cmd_report(str(nc), None) == 0
+    out = tmp_path / "run.html"
+    assert out.is_file() and str(out) in capsys.readouterr().out
+    body = " ".join(_parse(out.read_text(encoding="utf-8")).text)
+    assert json.loads(ds.attrs["duty"])[0]["kind"] in body
+    assert cmd_report(str(nc), str(tmp_path / "custom.html")) == 0
+    assert (tmp_path / "custom.html").is_file()
+
+
+def test_cmd_report_errors(tmp_path, capsys):
+    assert cmd_report(str(tmp_path / "nope.nc"), None) == 2
+    assert "nope.nc" in capsys.readouterr().err
+    _netcdf_writer_or_skip()
+    junk = tmp_path / "junk.nc"
+    junk.write_text("not netcdf")
+    assert cmd_report(str(junk), None) == 2
+    assert "junk.nc" in capsys.readouterr().err
