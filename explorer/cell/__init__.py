@@ -1,0 +1,38 @@
+"""Cell definition: the file format, the loader and the derived properties.
+
+* :func:`load_cell` — read and validate a cell TOML file (or a demo cell by name).
+* :func:`list_demo_cells` — names of the bundled demo cells and their paths.
+* :mod:`explorer.cell.model` — the :class:`Cell` dataclasses (SI units).
+* :mod:`explorer.cell.schema` — the file format's tables and keys.
+* :mod:`explorer.cell.derived` — capacities, foils, mass, stack properties.
+"""
+
+from explorer.cell.derived import ocv
+from explorer.cell.loader import CellFileNotFoundError, list_demo_cells, load_cell
+from explorer.cell.model import (
+    Cell,
+    Collector,
+    Derived,
+    Electrode,
+    Electrolyte,
+    Geometry,
+    Separator,
+    Tab,
+    ThermalOverrides,
+)
+
+__all__ = [
+    "load_cell",
+    "list_demo_cells",
+    "ocv",
+    "CellFileNotFoundError",
+    "Cell",
+    "Collector",
+    "Derived",
+    "Electrode",
+    "Electrolyte",
+    "Geometry",
+    "Separator",
+    "Tab",
+    "ThermalOverrides",
+]
