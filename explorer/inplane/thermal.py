@@ -1,0 +1,532 @@
+"""The 2-D in-plane thermal field of a pouch cell with its heat sinks.
+
+:class:`PlaneThermal` meets the contract of :mod:`explorer.inplane.base`.
+The stack is one sheet over the coated area: in-plane conductance
+``k_inplane * L`` per square (``L`` the stack thickness), areal heat capacity
+``heat_capacity_J_K / electrode_area`` -- the pouch seal, the overhang and the
+tabs are lumped into the coated area's heat capacity. The unknown is the
+through-thickness *mean* temperature; every exchange through a face goes in
+series with the mean-to-face conduction resistance of
+:mod:`explorer.inplane.throughplane` (switch off with ``throughplane=False``).
+
+Nodes of the linear system
+--------------------------
+* the cell sheet, ``ny * nx`` control volumes (heat capacity);
+* the fin sheet when ``sinks.fin`` is set, ``ny * nx`` (heat capacity),
+  under one face, coupled per unit area by ``contact_W_m2K`` (plus the
+  cell's mean-to-face resistance); the face sink of that face and the
+  ``layer="fin"`` edge sink attach to it;
+* one node per tab at the middle of its free length (no heat capacity),
+  where the tab's Joule heat is deposited: linked to the edge volumes its
+  root joins through half the free length (``k A / (L_free / 2)``, shared
+  over the root as parallel strips) and to its busbar through the other
+  half in series with ``TabSink.conductance_W_K``. For a rod with uniform
+  generation this midpoint node gives the exact heat reaching each end
+  (plane wall with generation, Incropera & DeWitt §3.5);
+* for a coolant stream, the coolant temperature at the boundaries of the
+  strips it crosses and the mean coolant temperature each strip sees (no
+  heat capacity). A strip (a row or column of the face, or the volumes of an
+  edge) exchanges ``Q = m c_p (1 - exp(-NTU)) (T_wall - T_in)`` with the
+  coolant (Incropera & DeWitt §8.3, eq. 8.42b form, applied strip by strip),
+  and the coolant entering this cell is ``inlet_C + upstream_cells * Q_cell /
+  (m c_p)``. All of that is linear, so the coolant is solved *implicitly*,
+  together with the temperatures, at every step (no lag, no iteration).
+
+Time stepping is backward Euler with the sparse LU factorisation cached per
+``dt`` (a small LRU). Every heat flow reported is evaluated from the new
+state, which is what the scheme moves, so stored + rejected = generated to
+round-off.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import OrderedDict
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.linalg import splu
+
+from explorer.cell.model import EDGES
+from explorer.inplane import throughplane as tp
+from explorer.inplane.collector import _solid
+from explorer.inplane.edges import edge_cells, tab_overlap
+from explorer.inplane.grid import Grid
+from explorer.inplane.laplace import grid_links
+from explorer.inplane.sinks import FACES, FLOW_DIRECTIONS, Sinks
+from explorer.validators import InputError, check_choice, check_integer, check_positive
+
+__all__ = ["PlaneThermal"]
+
+
+def _field(name: str, value, shape, *, allow_inf: bool = False, nonnegative: bool = True):
+    """``value`` as a float array of ``shape`` (a scalar is broadcast), with a clear error."""
+    try:
+        arr = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise InputError(f"`{name}`: expected a number or an array of numbers, "
+                         f"got {value!r}") from None
+    if arr.ndim == 0:
+        arr = np.full(shape, float(arr))
+    if arr.shape != tuple(shape):
+        raise InputError(f"`{name}`: expected a scalar or an array of shape {tuple(shape)}, "
+                         f"got shape {arr.shape}")
+    if np.any(np.isnan(arr)) or (not allow_inf and not np.all(np.isfinite(arr))):
+        raise InputError(f"`{name}`: expected finite values{' (or inf)' if allow_inf else ''}, "
+                         f"got NaN or inf")
+    if nonnegative and np.any(arr < 0):
+        raise InputError(f"`{name}`: expected values >= 0, got minimum {arr.min():g}")
+    return arr
+
+
+def _recip(a: np.ndarray) -> np.ndarray:
+    """1 / a with 1 / inf = 0 and 1 / 0 = inf, without warnings."""
+    with np.errstate(divide="ignore"):
+        return 1.0 / a
+
+
+class _System:
+    """Triplets of the steady conductance matrix ``K`` and the fixed source ``s``.
+
+    ``K @ x = s + q`` at steady state; rows are energy balances (W) for nodes
+    with heat capacity and tab nodes, or algebraic relations for coolant nodes.
+    """
+
+    def __init__(self):
+        self.rows, self.cols, self.vals = [], [], []
+        self.n = 0
+        self.s_terms = []  # (node index, value)
+
+    def nodes(self, count: int) -> np.ndarray:
+        out = np.arange(self.n, self.n + count)
+        self.n += count
+        return out
+
+    def add(self, r, c, v):
+        r, c, v = np.broadcast_arrays(np.asarray(r), np.asarray(c), np.asarray(v, dtype=float))
+        self.rows.append(r.ravel())
+        self.cols.append(c.ravel())
+        self.vals.append(v.ravel())
+
+    def link(self, a, b, G):
+        """Conductance ``G`` between nodes ``a`` and ``b`` (both energy balances)."""
+        self.add(a, a, G)
+        self.add(b, b, G)
+        self.add(a, b, -np.asarray(G))
+        self.add(b, a, -np.asarray(G))
+
+    def to_fixed(self, a, G, T):
+        """Conductance ``G`` from node ``a`` to a fixed temperature ``T``."""
+        self.add(a, a, G)
+        self.s_terms.append((np.asarray(a).ravel(), np.broadcast_to(G * T, np.shape(a)).ravel()))
+
+    def build(self):
+        K = sp.csr_matrix((np.concatenate(self.vals),
+                           (np.concatenate(self.rows), np.concatenate(self.cols))),
+                          shape=(self.n, self.n))
+        s = np.zeros(self.n)
+        for idx, v in self.s_terms:
+            np.add.at(s, idx, v)
+        return K.tocsc(), s
+
+
+class _SinkFlow:
+    """How to evaluate the heat flow into one sink from the state vector.
+
+    flow = G . x[nodes] - const - Gm . x[m_nodes]
+    """
+
+    __slots__ = ("name", "nodes", "G", "const", "m_nodes", "Gm")
+
+    def __init__(self, name, nodes, G, const=0.0, m_nodes=None, Gm=None):
+        self.name = name
+        self.nodes = np.asarray(nodes)
+        self.G = np.asarray(G, dtype=float)
+        self.const = float(const)
+        self.m_nodes = np.asarray(m_nodes if m_nodes is not None else [], dtype=int)
+        self.Gm = np.asarray(Gm if Gm is not None else [], dtype=float)
+
+    def flow(self, x: np.ndarray) -> float:
+        return float(self.G @ x[self.nodes] - self.const - self.Gm @ x[self.m_nodes])
+
+
+class PlaneThermal:
+    """Transient 2-D in-plane temperature of one cell, lumped through its thickness.
+
+    Parameters
+    ----------
+    cell : explorer.cell.model.Cell
+    grid : Grid
+        Spans the coated area (``cell.geometry`` width and height).
+    sinks : Sinks, optional
+        The heat paths (default: adiabatic). Read once here.
+    throughplane : bool, default True
+        Put the mean-to-face conduction resistance ``d / (3 k_through)`` in
+        series with every face exchange (see :mod:`explorer.inplane.throughplane`).
+    cache_size : int, default 4
+        How many factorisations (one per distinct ``dt``) to keep.
+
+    Examples
+    --------
+    >>> model = PlaneThermal(cell, grid, sinks)               # doctest: +SKIP
+    >>> x = model.initial_state(25.0)                         # doctest: +SKIP
+    >>> x, rejected = model.step(x, heat_W, 10.0)             # doctest: +SKIP
+    """
+
+    def __init__(self, cell, grid: Grid, sinks: Sinks | None = None, *,
+                 throughplane: bool = True, cache_size: int = 4):
+        sinks = Sinks() if sinks is None else sinks
+        g, d = cell.geometry, cell.derived
+        for name, a, b in (("width_m", grid.width_m, g.width_m),
+                           ("height_m", grid.height_m, g.height_m)):
+            if not math.isclose(a, b, rel_tol=1e-9):
+                raise InputError(f"`grid.{name}`: expected the coated {name[:-2]} of cell "
+                                 f"{cell.name!r}, {b:g} m, got {a:g} m")
+        self.grid = grid
+        self.cell_name = cell.name
+        self.heat_capacity_J_per_K = check_positive("cell.derived.heat_capacity_J_K",
+                                                    d.heat_capacity_J_K, "J/K")
+        self.thickness_m = check_positive("cell.geometry.stack_thickness_m",
+                                          g.stack_thickness_m, "m")
+        self.k_inplane_W_mK = check_positive("cell.derived.inplane_conductivity_W_mK",
+                                             d.inplane_conductivity_W_mK, "W/(m K)")
+        self.k_through_W_mK = check_positive("cell.derived.throughplane_conductivity_W_mK",
+                                             d.throughplane_conductivity_W_mK, "W/(m K)")
+        self._cache_size = check_integer("cache_size", cache_size, 1)
+        self._lu = OrderedDict()
+        self._steady_lu = None
+
+        shape, N, dA = grid.shape, grid.nx * grid.ny, grid.cell_area_m2
+        L = self.thickness_m
+        sys = _System()
+        cell_nodes = sys.nodes(N)
+        capacity = [np.full(N, self.heat_capacity_J_per_K / N)]
+        self._flows: list[_SinkFlow] = []
+        self._attach = {}  # sink name -> (nodes, G) for a coolant stream to take over
+
+        # -- cell sheet in the plane --
+        a, b, G = grid_links(grid, self.k_inplane_W_mK * L)
+        sys.link(a, b, G)
+
+        # -- which faces have a heat path, and the through-plane depths --
+        fin = sinks.fin
+        for face in sinks.faces:
+            check_choice("sinks.faces key", face, FACES)
+        if fin is not None:
+            check_choice("sinks.fin.face", fin.face, FACES)
+            check_choice("sinks.fin.edge", fin.edge, EDGES)
+            for f in ("thickness_m", "conductivity_W_mK", "density_kg_m3",
+                      "specific_heat_J_kgK"):
+                check_positive(f"sinks.fin.{f}", getattr(fin, f))
+            _field("sinks.fin.contact_W_m2K", fin.contact_W_m2K, (), allow_inf=True)
+        face_h, face_u = {}, {}
+        for face in FACES:
+            if face in sinks.faces:
+                face_h[face] = _field(f"sinks.faces[{face!r}].h_W_m2K",
+                                      sinks.faces[face].h_W_m2K, shape, allow_inf=True)
+            if fin is not None and fin.face == face:
+                face_u[face] = _field("sinks.fin.contact_W_m2K", fin.contact_W_m2K, shape,
+                                      allow_inf=True)
+            else:
+                face_u[face] = face_h.get(face, np.zeros(shape))
+        d_front, d_back = tp.face_depths(face_u["front"], face_u["back"], L, shape)
+        depth = {"front": d_front, "back": d_back}
+        self._core_surface = tp.core_surface_factor(d_front, d_back, self.k_through_W_mK) / (dA * L)
+        self._core_mean = tp.core_mean_factor(d_front, d_back, L, self.k_through_W_mK) / (dA * L)
+        r_face = {f: (tp.mean_to_face_resistance(depth[f], self.k_through_W_mK) if throughplane
+                      else np.zeros(shape)) for f in FACES}
+
+        def face_conductance(name, u, r):
+            G = dA / (_recip(u) + r)
+            if not np.all(np.isfinite(G)):
+                raise InputError(f"`{name}`: expected a finite face conductance (an infinite "
+                                 f"value needs throughplane=True), got inf")
+            return G.ravel()
+
+        # -- fin sheet --
+        fin_nodes = None
+        if fin is not None:
+            fin_nodes = sys.nodes(N)
+            capacity.append(np.full(N, fin.density_kg_m3 * fin.specific_heat_J_kgK
+                                    * fin.thickness_m * dA))
+            a, b, G = grid_links(grid, fin.conductivity_W_mK * fin.thickness_m)
+            sys.link(fin_nodes[a], fin_nodes[b], G)
+            Gc = face_conductance("sinks.fin.contact_W_m2K", face_u[fin.face], r_face[fin.face])
+            sys.link(cell_nodes, fin_nodes, Gc)
+        self._fin_nodes = fin_nodes
+
+        # -- face sinks --
+        for face, fs in sinks.faces.items():
+            T = _field(f"sinks.faces[{face!r}].temperature_C", fs.temperature_C, shape,
+                       nonnegative=False).ravel()
+            if fin is not None and fin.face == face:
+                nodes = fin_nodes
+                Gf = face_conductance(f"sinks.faces[{face!r}].h_W_m2K", face_h[face],
+                                      np.zeros(shape))
+            else:
+                nodes = cell_nodes
+                Gf = face_conductance(f"sinks.faces[{face!r}].h_W_m2K", face_h[face],
+                                      r_face[face])
+            self._attach[face] = ("face", nodes, Gf, T)
+
+        # -- edge sinks --
+        for edge, es in sinks.edges.items():
+            check_choice("sinks.edges key", edge, EDGES)
+            layer = check_choice(f"sinks.edges[{edge!r}].layer", es.layer, ("cell", "fin"))
+            ec = edge_cells(grid, edge)
+            per_len = _field(f"sinks.edges[{edge!r}].conductance_W_mK", es.conductance_W_mK,
+                             (ec.size,), allow_inf=True)
+            T = _field(f"sinks.edges[{edge!r}].temperature_C", es.temperature_C, (ec.size,),
+                       nonnegative=False)
+            if layer == "fin":
+                if fin is None:
+                    raise InputError(f"`sinks.edges[{edge!r}].layer`: expected 'cell' "
+                                     f"(the sinks have no fin), got 'fin'")
+                if fin.edge != edge:
+                    raise InputError(f"`sinks.edges[{edge!r}].layer`: the fin bends onto the "
+                                     f"{fin.edge!r} edge, so a fin edge sink must be on "
+                                     f"{fin.edge!r}, got {edge!r}")
+                nodes, sheet = fin_nodes[ec.index], fin.conductivity_W_mK * fin.thickness_m
+            else:
+                nodes, sheet = cell_nodes[ec.index], self.k_inplane_W_mK * L
+            Ge = ec.length_m / (_recip(per_len) + ec.half_m / sheet)
+            self._attach[edge] = ("edge", nodes, Ge, T)
+
+        # -- coolant stream or fixed temperatures --
+        stream = sinks.coolant
+        if stream is not None:
+            self._coolant = self._add_coolant(sys, stream)
+        else:
+            self._coolant = None
+        for name, (_kind, nodes, G, T) in self._attach.items():
+            if self._coolant is not None and name == stream.sink:
+                continue
+            sys.to_fixed(nodes, G, T)
+            self._flows.append(_SinkFlow(name, nodes, G, const=float(G @ T)))
+
+        # -- tabs --
+        k_sheet = self.k_inplane_W_mK * L
+        self._tab_nodes = {}
+        tab_names = [t.name for t in g.tabs]
+        for name in sinks.tabs:
+            check_choice("sinks.tabs key", name, tab_names)
+        for tab in g.tabs:
+            mat = _solid(tab.material, f"tab {tab.name!r} material")
+            k_tab = mat.thermal_conductivity_W_mK
+            idx, length = tab_overlap(grid, tab)
+            half_cell = 0.5 * (grid.dy if tab.edge in ("bottom", "top") else grid.dx)
+            half_tab = 0.5 * tab.free_length_m
+            node = sys.nodes(1)[0]
+            self._tab_nodes[tab.name] = node
+            G_root = length / (half_cell / k_sheet + half_tab / (k_tab * tab.thickness_m))
+            sys.link(np.full(idx.size, node), cell_nodes[idx], G_root)
+            ts = sinks.tabs.get(tab.name)
+            if ts is not None:
+                g_sink = _field(f"sinks.tabs[{tab.name!r}].conductance_W_K", ts.conductance_W_K,
+                                (), allow_inf=True)
+                T_bus = _field(f"sinks.tabs[{tab.name!r}].temperature_C", ts.temperature_C, (),
+                               nonnegative=False)
+                R = half_tab / (k_tab * tab.width_m * tab.thickness_m) + _recip(g_sink)
+                if R <= 0:
+                    raise InputError(f"`sinks.tabs[{tab.name!r}].conductance_W_K`: expected a "
+                                     f"finite value for a tab with zero free length, got inf")
+                Gt = float(1.0 / R)
+                if Gt > 0:
+                    sys.to_fixed(node, Gt, float(T_bus))
+                    self._flows.append(_SinkFlow(tab.name, [node], [Gt], const=Gt * float(T_bus)))
+
+        n_extra = sys.n - sum(c.size for c in capacity)
+        self._c = np.concatenate(capacity + [np.zeros(n_extra)])
+        self._K, self._s = sys.build()
+        self._N = N
+        self._n = sys.n
+        self._has_sink = bool(self._flows) or self._coolant is not None
+
+    # -- coolant ----------------------------------------------------------------
+    def _add_coolant(self, sys: _System, stream) -> dict:
+        """Coolant nodes and relations for ``stream`` (see the module docstring)."""
+        if stream.sink not in self._attach:
+            valid = ", ".join(repr(k) for k in self._attach) or "none"
+            raise InputError(f"`sinks.coolant.sink`: expected the name of a face or edge sink "
+                             f"({valid}), got {stream.sink!r}")
+        check_choice("sinks.coolant.direction", stream.direction, FLOW_DIRECTIONS)
+        C = check_positive("sinks.coolant.capacity_rate_W_K", stream.capacity_rate_W_K, "W/K")
+        inlet = _field("sinks.coolant.inlet_C", stream.inlet_C, (), nonnegative=False)
+        n_up = check_integer("sinks.coolant.upstream_cells", stream.upstream_cells, 0)
+        kind, nodes, G, _ = self._attach[stream.sink]
+        nx, ny = self.grid.nx, self.grid.ny
+        axis, sign = stream.direction[1], stream.direction[0]
+        if kind == "face":
+            j, i = np.divmod(np.arange(nx * ny), nx)
+            pos, S = (i, nx) if axis == "x" else (j, ny)
+        else:
+            along = "x" if stream.sink in ("bottom", "top") else "y"
+            if axis == along:
+                pos, S = np.arange(nodes.size), nodes.size
+            else:  # the coolant crosses the edge: one strip at one mean temperature
+                pos, S = np.zeros(nodes.size, dtype=int), 1
+                sign = "+"
+        strip = pos if sign == "+" else (S - 1 - pos)
+        Gk = np.bincount(strip, G, S)
+        ntu = Gk / C
+        with np.errstate(invalid="ignore", divide="ignore"):
+            phi = np.where(ntu > 1e-8, -np.expm1(-ntu) / ntu, 1.0 - 0.5 * ntu)
+        m = sys.nodes(S)
+        bnd = sys.nodes(S + 1)
+        # cells: G_i (T_i - m_k)
+        sys.add(nodes, nodes, G)
+        sys.add(nodes, m[strip], -G)
+        # m_k = (1 - phi_k) sum(G_i T_i) / G_k + phi_k b_k
+        sys.add(m, m, 1.0)
+        w = np.where(Gk[strip] > 0, G / np.where(Gk[strip] > 0, Gk[strip], 1.0), 0.0)
+        sys.add(m[strip], nodes, -(1.0 - phi[strip]) * w)
+        sys.add(m, bnd[:-1], -phi)
+        # b_{k+1} = b_k + (sum(G_i T_i) - G_k m_k) / C
+        sys.add(bnd[1:], bnd[1:], 1.0)
+        sys.add(bnd[1:], bnd[:-1], -1.0)
+        sys.add(bnd[1:][strip], nodes, -G / C)
+        sys.add(bnd[1:], m, Gk / C)
+        # b_0 = inlet + n_up (b_S - b_0)
+        sys.add(bnd[0], bnd[0], 1.0 + n_up)
+        if n_up:
+            sys.add(bnd[0], bnd[-1], -float(n_up))
+        sys.s_terms.append((np.array([bnd[0]]), np.array([float(inlet)])))
+        self._flows.append(_SinkFlow(stream.sink, nodes, G, m_nodes=m, Gm=Gk))
+        return {"sink": stream.sink, "strip_nodes": m, "boundary_nodes": bnd,
+                "capacity_rate_W_K": C, "direction": stream.direction}
+
+    # -- contract -----------------------------------------------------------------
+    def initial_state(self, temperature_C: float) -> np.ndarray:
+        """Uniform state at ``temperature_C``, with tab and coolant nodes consistent with it."""
+        T0 = _field("temperature_C", temperature_C, (), nonnegative=False)
+        x = np.full(self._n, float(T0))
+        alg = np.flatnonzero(self._c == 0)
+        if alg.size:
+            dif = np.flatnonzero(self._c > 0)
+            K = self._K
+            Kaa = K[alg][:, alg].tocsc()
+            rhs = self._s[alg] - K[alg][:, dif] @ x[dif]
+            x[alg] = splu(Kaa).solve(rhs)
+        return x
+
+    def _factor(self, dt: float):
+        entry = self._lu.get(dt)
+        if entry is None:
+            c_dt = self._c / dt
+            entry = (splu((self._K + sp.diags(c_dt)).tocsc()), c_dt)
+            self._lu[dt] = entry
+            if len(self._lu) > self._cache_size:
+                self._lu.popitem(last=False)
+        else:
+            self._lu.move_to_end(dt)
+        return entry
+
+    def _source(self, heat_W, tab_heat_W) -> np.ndarray:
+        heat = np.asarray(heat_W, dtype=float)
+        if heat.shape != self.grid.shape:
+            raise InputError(f"`heat_W`: expected an array of shape {self.grid.shape}, "
+                             f"got shape {heat.shape}")
+        q = self._s.copy()
+        q[: self._N] += heat.ravel()
+        if tab_heat_W:
+            for name, value in tab_heat_W.items():
+                node = self._tab_nodes.get(name)
+                if node is None:
+                    check_choice("tab_heat_W key", name, tuple(self._tab_nodes))
+                q[node] += value
+        return q
+
+    def step(self, state, heat_W, dt, tab_heat_W=None):
+        """One backward-Euler step; see :mod:`explorer.inplane.base`.
+
+        Returns
+        -------
+        new_state : ndarray
+        rejected_W : dict
+            Heat flow into each sink over the step (W), from the new state.
+        """
+        dt = float(dt)
+        if not (dt > 0 and math.isfinite(dt)):
+            raise InputError(f"`dt`: expected a time step > 0 s, got {dt!r}")
+        lu, c_dt = self._factor(dt)
+        rhs = self._source(heat_W, tab_heat_W)
+        rhs += c_dt * state
+        new = lu.solve(rhs)
+        return new, self.heat_flows_W(new)
+
+    def heat_flows_W(self, state) -> dict:
+        """Heat flow into every sink (W) at ``state``."""
+        return {f.name: f.flow(state) for f in self._flows}
+
+    def steady_state(self, heat_W, tab_heat_W=None) -> np.ndarray:
+        """The steady state for constant generation (needs at least one sink)."""
+        if not self._has_sink:
+            raise InputError(f"cell {self.cell_name!r}: an adiabatic cell has no steady "
+                             f"state; expected sinks with at least one heat path")
+        if self._steady_lu is None:
+            self._steady_lu = splu(self._K)
+        return self._steady_lu.solve(self._source(heat_W, tab_heat_W))
+
+    def temperature_C(self, state) -> np.ndarray:
+        """Cell-sheet temperature (through-thickness mean), ``grid.shape``."""
+        return state[: self._N].reshape(self.grid.shape)
+
+    def mean_temperature_C(self, state) -> float:
+        return float(np.mean(state[: self._N]))
+
+    def stored_J(self, state) -> float:
+        """Heat stored relative to 0 degC, fin included (J)."""
+        return float(self._c @ state)
+
+    def fin_temperature_C(self, state):
+        """Fin-sheet temperature, ``grid.shape`` (None without a fin)."""
+        if self._fin_nodes is None:
+            return None
+        return state[self._fin_nodes].reshape(self.grid.shape)
+
+    def tab_temperature_C(self, state) -> dict:
+        """Temperature of each tab node (middle of its free length)."""
+        return {name: float(state[n]) for name, n in self._tab_nodes.items()}
+
+    def core_surface_difference_K(self, heat_W) -> np.ndarray:
+        """Through-plane core - surface estimate per grid cell (K).
+
+        ``q''' d**2 / (2 k_through)`` with ``d`` the deeper conduction depth;
+        symmetric two-face cooling gives ``q''' L**2 / (8 k)``, one face
+        cooled ``q''' L**2 / (2 k)``, no face path 0 (see
+        :mod:`explorer.inplane.throughplane`). Note the field itself is the
+        mean temperature: the core is :meth:`core_temperature_C`.
+        """
+        return np.asarray(heat_W, dtype=float) * self._core_surface
+
+    def core_temperature_C(self, state, heat_W) -> np.ndarray:
+        """Core (hottest through-plane) temperature per grid cell: mean + core - mean."""
+        return self.temperature_C(state) + np.asarray(heat_W, dtype=float) * self._core_mean
+
+    # -- coolant outputs --
+    @property
+    def has_coolant(self) -> bool:
+        return self._coolant is not None
+
+    def coolant_outlet_C(self, state):
+        """Coolant temperature leaving this cell (degC), None without a coolant stream."""
+        if self._coolant is None:
+            return None
+        return float(state[self._coolant["boundary_nodes"][-1]])
+
+    def coolant_inlet_C(self, state):
+        """Coolant temperature reaching this cell (inlet plus upstream cells' heat)."""
+        if self._coolant is None:
+            return None
+        return float(state[self._coolant["boundary_nodes"][0]])
+
+    def coolant_temperature_C(self, state):
+        """Mean coolant temperature seen by each strip, in flow order (None without stream)."""
+        if self._coolant is None:
+            return None
+        return state[self._coolant["strip_nodes"]].copy()
+
+    def __repr__(self) -> str:
+        names = ", ".join(f.name for f in self._flows) or "adiabatic"
+        return (f"<PlaneThermal {self.cell_name!r} {self.grid.nx}x{self.grid.ny}"
+                f"{' + fin' if self._fin_nodes is not None else ''}: {names}>")

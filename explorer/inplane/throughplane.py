@@ -1,0 +1,83 @@
+"""One-dimensional through-plane conduction used by the in-plane thermal field.
+
+The in-plane field carries the through-thickness *mean* temperature of the
+stack. Heat generated uniformly through the thickness ``L`` leaves through
+the faces that have a heat path; the plane where the through-plane gradient
+vanishes sits at depth ``d_f`` below face ``f``. Per the plane wall with
+uniform generation (Incropera & DeWitt, *Fundamentals of Heat and Mass
+Transfer*, §3.5, the parabolic profile of eq. 3.42 form), over the depth
+``d`` from that plane to a face:
+
+* core - surface   = q''' d**2 / (2 k)
+* mean - surface   = q''' d**2 / (3 k) = q'' d / (3 k), so the mean-to-face
+  resistance per unit area is ``d / (3 k)``;
+* core - mean      = q''' d**2 / (6 k).
+
+With both faces cooled symmetrically ``d = L/2`` (core - surface =
+q''' L**2 / (8 k)); with one face cooled and the other adiabatic ``d = L``
+(q''' L**2 / (2 k)). For two faces with unequal heat paths the depth is split
+in proportion to each face's conductance per unit area (a first-order
+estimate: exact for equal paths and in the one-sided limit). With no face
+heat path at all (edge or tab cooling, adiabatic faces) heat flows in the
+plane and the through-plane profile is taken flat (``d = 0``). The same
+``d / (3 k)`` also holds for the slowest mode of a slab cooling without
+generation (small Biot number expansion of Incropera & DeWitt §5.5).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Stand-in for an infinite face conductance when splitting the depth.
+_BIG = 1e12
+
+
+def face_depths(u_front, u_back, thickness_m: float, shape) -> tuple[np.ndarray, np.ndarray]:
+    """Conduction depth below each face, split by face conductance per area.
+
+    Parameters
+    ----------
+    u_front, u_back : scalar or ndarray
+        Conductance per unit face area of each face's heat path (W m-2 K-1);
+        0 where the face is adiabatic.
+    thickness_m : float
+        Stack thickness ``L``.
+    shape : tuple
+        Grid shape to broadcast to.
+
+    Returns
+    -------
+    d_front, d_back : ndarray
+        Depths (m) with ``d_front + d_back = L`` where any face is cooled, 0 elsewhere.
+    """
+    uf = np.minimum(np.broadcast_to(np.asarray(u_front, dtype=float), shape), _BIG)
+    ub = np.minimum(np.broadcast_to(np.asarray(u_back, dtype=float), shape), _BIG)
+    total = uf + ub
+    safe = np.where(total > 0, total, 1.0)
+    d_front = np.where(total > 0, thickness_m * uf / safe, 0.0)
+    d_back = np.where(total > 0, thickness_m * ub / safe, 0.0)
+    return d_front, d_back
+
+
+def mean_to_face_resistance(depth_m, k_through_W_mK: float) -> np.ndarray:
+    """Resistance per unit area from the mean temperature to a face, ``d / (3 k)`` (m2 K/W)."""
+    return np.asarray(depth_m, dtype=float) / (3.0 * k_through_W_mK)
+
+
+def core_surface_factor(d_front, d_back, k_through_W_mK: float) -> np.ndarray:
+    """Core - surface difference per unit volumetric generation, ``d**2 / (2 k)``.
+
+    The deeper of the two sides is used: it belongs to the face that takes
+    more heat, whose surface is the coolest, so this is the larger difference.
+    """
+    d = np.maximum(d_front, d_back)
+    return d**2 / (2.0 * k_through_W_mK)
+
+
+def core_mean_factor(d_front, d_back, thickness_m: float, k_through_W_mK: float) -> np.ndarray:
+    """Core - mean difference per unit volumetric generation.
+
+    The mean over the whole thickness of the two parabolic pieces:
+    ``sum_f (d_f / L) d_f**2 / (6 k)``.
+    """
+    return (d_front**3 + d_back**3) / (6.0 * k_through_W_mK * thickness_m)
