@@ -28,7 +28,7 @@ reported (``SizingResult.monotone`` and ``.turning_points``), never hidden.
 
 from __future__ import annotations
 
-import inspect
+import json
 import logging
 import math
 from dataclasses import dataclass, field
@@ -185,7 +185,7 @@ def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float
         i += step
     a, b = float(xs[i]), float(xs[i + step])  # a meets, b fails
     islands = _islands(xs, met, skip=(min(i, anchor), max(i, anchor)))
-    a, b = _refine(f, a, b, rtol)
+    a, b = _refine(f, seen, a, b, rtol)
     return outcome(a, True, "boundary", bracket=(a, b), islands=islands)
 
 
@@ -202,39 +202,26 @@ def _islands(xs, met, skip) -> list[tuple[float, float]]:
     return runs
 
 
-def _refine(f, a: float, b: float, rtol: float) -> tuple[float, float]:
-    """Shrink the bracket (a meets, b fails) by Illinois false position with bisection."""
-    fa, fb = f(a), f(b)
-    side = 0  # which end was retained last (for the Illinois halving)
-    while abs(b - a) > rtol * max(abs(a), abs(b), 1e-12):
-        x = b - fb * (b - a) / (fb - fa) if fb != fa else 0.5 * (a + b)
-        # Safeguard: keep the new point well inside the bracket.
-        lo_x, hi_x = sorted((a, b))
-        inner = 0.02 * (hi_x - lo_x)
-        if not lo_x + inner <= x <= hi_x - inner:
-            x = 0.5 * (a + b)
-        fx = f(x)
-        width = abs(b - a)
-        if fx >= 0.0:
-            a, fa = x, fx
-            if side == 1:
-                fb *= 0.5
-            side = 1
-        else:
-            b, fb = x, fx
-            if side == -1:
-                fa *= 0.5
-            side = -1
-        if abs(b - a) > 0.6 * width:
-            # A slow step: bisect once so the bracket shrinks at least geometrically.
-            m = 0.5 * (a + b)
-            fm = f(m)
-            if fm >= 0.0:
-                a, fa = m, fm
-            else:
-                b, fb = m, fm
-            side = 0
-    return a, b
+def _refine(f, seen: dict, a: float, b: float, rtol: float) -> tuple[float, float]:
+    """Shrink the bracket (``a`` meets, ``b`` fails) to ``rtol`` of the value.
+
+    Brent's method locates the root of the margin; the tightest pair of
+    evaluated points around it is then taken from ``seen`` (feasible end
+    nearest the failing side), bisected further if still too wide.
+    """
+    from scipy.optimize import brentq
+
+    lo, hi = sorted((a, b))
+    brentq(f, lo, hi, xtol=1e-12 * (hi - lo), rtol=0.25 * rtol, full_output=True, disp=False)
+    toward_b = 1.0 if b > a else -1.0
+    while True:
+        inside = [x for x in seen if lo <= x <= hi]
+        a = max((x for x in inside if seen[x] >= 0.0), key=lambda x: toward_b * x)
+        fails = [x for x in inside if seen[x] < 0.0 and toward_b * (x - a) > 0]
+        b = min(fails, key=lambda x: toward_b * x)
+        if abs(b - a) <= rtol * max(abs(a), abs(b), 1e-12):
+            return a, b
+        f(0.5 * (a + b))
 
 
 # --------------------------------------------------------------------------- sizing a design
@@ -442,17 +429,17 @@ def _coldest_sink(cooling, vary, lo, hi) -> float:
     return min(temps) if temps else -math.inf
 
 
-def _call_simulate(cell, duty, design, position, kwargs):
-    import explorer
+def _simulate(cell, duty, **kwargs):
+    from explorer.simulate import simulate
 
-    simulate = explorer.simulate
+    return simulate(cell, duty, **kwargs)
+
+
+def _call_simulate(cell, duty, design, position, kwargs):
     kw = dict(kwargs)
     if position is not None:
-        if "position" not in inspect.signature(simulate).parameters:
-            raise SizingError("size_cooling: explorer.simulate takes no `position`; cannot "
-                              "check several cells along the coolant path")
         kw["position"] = position
-    return simulate(cell, duty, cooling=design, **kw)
+    return _simulate(cell, duty, cooling=design, **kw)
 
 
 class _Runner:
@@ -468,6 +455,7 @@ class _Runner:
         self.runs = 0
 
     def hydraulics(self, value) -> dict:
+        """The design's hydraulics at ``value`` (recorded by the run, or asked of the design)."""
         if value not in self._hydraulics:
             design = _replace(self.cooling, self.vary, value)
             h = design.hydraulics() if hasattr(design, "hydraulics") else {}
@@ -490,6 +478,9 @@ class _Runner:
                 raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
                                   f"(position {position}) failed: "
                                   f"{ds.attrs.get('status_message', '')}")
+            recorded = run_hydraulics(ds)
+            if recorded is not None:
+                self._hydraulics.setdefault(value, recorded)
             self.results[key] = (ds, self.limits.check(ds, self.hydraulics(value)))
         return self.results[key]
 
@@ -515,17 +506,33 @@ class _Runner:
         return self.worst(value)["scaled"]
 
     def choose_positions(self) -> None:
-        """Keep refining at one position when it was the worst at every value so far."""
+        """Refine at the positions that are worst where the margin is nearest zero.
+
+        Near the boundary the worst cell decides; the answer is re-checked at
+        every position afterwards (see :func:`_recheck_all_positions`).
+        """
+        if len(self.positions) < 2:
+            return
         values = sorted({v for v, _ in self.results})
-        worst = {self.worst(v, self.positions)["position"] for v in values}
-        if len(self.positions) > 1 and len(worst) == 1:
-            self.active = [worst.pop()]
+        rows = {v: self.worst(v, self.positions) for v in values}
+        met = [rows[v]["met"] for v in values]
+        edges = [v for k, v in enumerate(values)
+                 if (k > 0 and met[k] != met[k - 1]) or (k + 1 < len(values) and met[k] != met[k + 1])]
+        nearest = edges or sorted(values, key=lambda v: abs(rows[v]["scaled"]))[:2]
+        self.active = sorted({rows[v]["position"] for v in nearest},
+                             key=self.positions.index)
 
     def curve(self) -> xr.Dataset:
-        """Every value evaluated, worst over the positions run there, as a Dataset over ``value``."""
+        """Every value evaluated, as a Dataset over ``value``.
+
+        The figures are the worst over the positions run at *every* value (the
+        ones that decided the refinement), so the curve is consistent along
+        ``value``; ``positions_checked`` counts all positions run at a value.
+        """
         values = sorted({v for v, _ in self.results})
         ran = {v: [p for p in self.positions if (v, p) in self.results] for v in values}
-        rows = [self.worst(v, ran[v]) for v in values]
+        common = [p for p in self.positions if all(p in ran[v] for v in values)]
+        rows = [self.worst(v, common) for v in values]
         data = {}
         names = list(dict.fromkeys(["temperature_max_C", "spread_K", *self.limits.names(),
                                     *rows[0]["figures"]]))
@@ -549,12 +556,34 @@ class _Runner:
                             {"units": "1", "long_name": "worst cell position (-1: single)"})
         data["positions_checked"] = ("value", np.array([len(ran[v]) for v in values]),
                                      {"units": "1", "long_name": "cell positions run"})
-        unit = self.vary.rsplit("_", 1)[-1] if "_" in self.vary else ""
         curve = xr.Dataset(data, coords={"value": ("value", np.array(values),
-                                                   {"long_name": self.vary, "units": unit})})
-        curve.attrs.update({"vary": self.vary,
+                                                   {"long_name": self.vary,
+                                                    "units": parameter_unit(self.vary)})})
+        curve.attrs.update({"vary": self.vary, "positions": json.dumps(common),
                             **{f"limit_{k}": v for k, v in self.limits.as_dict().items()}})
         return curve
+
+
+def parameter_unit(name: str) -> str:
+    """The CF-style unit of a design parameter, read from its name's suffix."""
+    for suffix, unit in (("_L_min", "L min-1"), ("_W_m2K", "W m-2 K-1"), ("_W_mK", "W m-1 K-1"),
+                         ("_W_K", "W K-1"), ("_mm", "mm"), ("_kPa", "kPa"), ("_C", "degC"),
+                         ("_K", "K"), ("_W", "W")):
+        if name.endswith(suffix):
+            return unit
+    return "1"
+
+
+def run_hydraulics(ds) -> dict | None:
+    """The hydraulics a run recorded in its ``hydraulics`` attribute (None when absent)."""
+    text = ds.attrs.get("hydraulics")
+    if text is None:
+        return None
+    try:
+        value = json.loads(text) if isinstance(text, str) else dict(text)
+    except (TypeError, ValueError):
+        return None
+    return value if isinstance(value, dict) else None
 
 
 def _message(outcome, vary, lo, hi, runner, limits, tps=None) -> str:

@@ -1,0 +1,543 @@
+"""Design sweeps: the cartesian product of design parameters, run on Dask.
+
+:func:`sweep` runs :func:`explorer.simulate` for every combination of the
+values in ``axes`` and gathers one summary per case into a Dataset with one
+dimension per axis.
+
+Execution
+    By default a local Dask cluster on the loopback interface (two worker
+    processes, one thread each, no dashboard) is started and stopped; a
+    scheduler address (``"tcp://host:8786"``) or a ``distributed.Client``
+    uses a running cluster; ``scheduler="serial"`` runs in this process.
+Cache
+    With ``cache_dir`` every finished case is written there at once
+    (atomically, netCDF named by a SHA-256 key of the cell file's hash, the
+    duty, ``cooling.describe()`` of the case's design, the model settings and
+    the tool version). A sweep that was interrupted resumes from the cache:
+    only the missing cases run. Failed cases are not cached, so they are
+    retried on the next run.
+Failures
+    A case that raises is recorded (``case_status`` "failed" and
+    ``case_message`` with the reason) and the sweep goes on.
+Traces
+    Time traces (voltage, current, temperatures, heat, SOC) are linearly
+    resampled onto one uniform time base from 0 to the longest case's end,
+    spaced by ``trace_interval_s`` (default: the runs' output interval), and
+    padded with NaN after each case's own end. Fields (``temperature``,
+    ``soc``, ``heat_flux`` over y, x) are kept only with ``keep_fields=True``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import itertools
+import json
+import logging
+import math
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from explorer.limits import UNITS as LIMIT_UNITS
+from explorer.limits import Limits
+from explorer.sizing import parameter_unit, run_hydraulics
+from explorer.validators import InputError
+
+log = logging.getLogger(__name__)
+
+# Model settings that may also be swept (numbers passed straight to simulate).
+SETTING_AXES = ("start_soc", "start_temperature_C")
+TRACES = {
+    "voltage": ("V", "terminal voltage"),
+    "current": ("A", "cell current (positive on discharge)"),
+    "power": ("W", "terminal power (positive on discharge)"),
+    "soc_mean": ("1", "state of charge"),
+    "temperature_max": ("degC", "hottest point of the face"),
+    "temperature_min": ("degC", "coldest point of the face"),
+    "temperature_mean": ("degC", "area-mean temperature"),
+    "temperature_core_max": ("degC", "hottest core temperature estimate"),
+    "heat_total": ("W", "total generated heat"),
+    "heat_rejected": ("W", "heat into all sinks"),
+    "coolant_outlet": ("degC", "coolant temperature leaving this cell"),
+}
+FIELDS = ("temperature", "soc", "heat_flux")
+SUMMARY = {
+    "peak_temperature_C": ("degC", "hottest point of the face over the duty"),
+    "max_spread_K": ("K", "largest spread across the face"),
+    "core_temperature_max_C": ("degC", "hottest core temperature estimate"),
+    "coolant_outlet_max_C": ("degC", "hottest coolant outlet"),
+    "end_soc": ("1", "state of charge at the end"),
+    "energy_delivered_Wh": ("Wh", "energy delivered (positive on discharge)"),
+    "heat_generated_J": ("J", "heat generated"),
+    "heat_rejected_J": ("J", "heat rejected into the sinks"),
+    "duration_s": ("s", "duration of the run"),
+    "end_voltage_V": ("V", "terminal voltage at the end"),
+    "time_to_limit_s": ("s", "time to the cell's data-sheet temperature limit (NaN: never)"),
+    "pressure_drop_kPa": ("kPa", "plate pressure drop"),
+    "pump_power_W": ("W", "pump power"),
+}
+CACHE_FORMAT = 1  # bump when the cached case layout changes
+
+
+@dataclasses.dataclass
+class _Case:
+    index: tuple  # position in the axes grid
+    values: dict  # axis name -> value
+    design: object  # the cooling design of this case (None: adiabatic)
+    settings: dict  # simulate keywords of this case
+    key: str = ""
+
+
+def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = False,
+          cache_dir=None, progress: bool = True, *, limits: Limits | None = None,
+          trace_interval_s: float | None = None, **simulate_kwargs) -> xr.Dataset:
+    """Run every combination of ``axes`` and return one Dataset with a dimension per axis.
+
+    Parameters
+    ----------
+    cell : Cell
+        From :func:`explorer.load_cell`.
+    duty : Step or list of Step
+        From :mod:`explorer.duty`.
+    cooling : cooling design or None
+        From :mod:`explorer.cooling`; the swept design parameters are changed
+        with ``cooling.replace(name=value)``.
+    axes : dict
+        Axis name -> list of values. A name is one of ``cooling.parameters()``
+        or a model setting in ``SETTING_AXES`` (``start_soc``,
+        ``start_temperature_C``).
+    scheduler : None, "serial", str or distributed.Client
+        None starts (and stops) a local cluster on loopback; "serial" runs in
+        this process; a string is the address of a running Dask scheduler.
+    keep_fields : bool
+        Also keep the fields over (y, x) on the common time base.
+    cache_dir : path, optional
+        Folder for the per-case cache (created when missing).
+    progress : bool
+        Show a progress bar (tqdm).
+    limits : Limits, optional
+        Adds each limit's margin per case and ``meets_limits``.
+    trace_interval_s : float, optional
+        Spacing of the common time base of the traces.
+    **simulate_kwargs
+        Passed to :func:`explorer.simulate` for every case.
+
+    Returns
+    -------
+    xarray.Dataset
+        Summary figures (``peak_temperature_C``, ``max_spread_K``, ``end_soc``,
+        ``energy_delivered_Wh``, ``heat_rejected_J``, ``pressure_drop_kPa``,
+        ``pump_power_W``, ...), ``case_status`` and ``case_message`` over the
+        axes; traces over the axes and ``time``; fields when asked for.
+    """
+    if limits is not None and not isinstance(limits, Limits):
+        raise InputError(f"sweep: `limits` must be an explorer.Limits, got {type(limits).__name__}")
+    if trace_interval_s is not None and not (isinstance(trace_interval_s, (int, float))
+                                             and trace_interval_s > 0):
+        raise InputError(f"sweep: `trace_interval_s` must be a number > 0, got "
+                         f"{trace_interval_s!r}")
+    axes = _check_axes(axes, cooling, simulate_kwargs)
+    cases = _cases(cell, duty, cooling, axes, simulate_kwargs, keep_fields)
+    cache = Path(cache_dir) if cache_dir is not None else None
+    if cache is not None:
+        cache.mkdir(parents=True, exist_ok=True)
+
+    results: dict[tuple, xr.Dataset] = {}
+    for case in cases:
+        hit = _read_cache(cache, case.key)
+        if hit is not None:
+            results[case.index] = hit
+    todo = [c for c in cases if c.index not in results]
+    log.info("sweep: %d cases, %d from the cache, %d to run", len(cases), len(results), len(todo))
+
+    from tqdm.auto import tqdm
+
+    bar = tqdm(total=len(cases), initial=len(results), disable=not progress, desc="sweep",
+               unit="case")
+
+    def done(case, result):
+        results[case.index] = result
+        if cache is not None and result.attrs.get("case_status") != "failed":
+            _write_cache(cache, case.key, result)
+        bar.update(1)
+
+    try:
+        if todo:
+            _execute(cell, duty, todo, scheduler, keep_fields, done)
+    finally:
+        bar.close()
+    return _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields,
+                     trace_interval_s, simulate_kwargs, scheduler)
+
+
+# --------------------------------------------------------------------------- cases and keys
+
+
+def _check_axes(axes, cooling, simulate_kwargs) -> dict:
+    if not isinstance(axes, dict) or not axes:
+        raise InputError(f"sweep: `axes` must be a non-empty dict name -> list of values, got "
+                         f"{axes!r}")
+    params = dict(cooling.parameters()) if cooling is not None else {}
+    valid = sorted(params) + list(SETTING_AXES)
+    out = {}
+    for name, values in axes.items():
+        if name not in params and name not in SETTING_AXES:
+            raise InputError(f"sweep: axis `{name}` is not a parameter of the cooling design nor "
+                             f"a swept setting; expected one of {valid}")
+        if name in simulate_kwargs:
+            raise InputError(f"sweep: `{name}` is both an axis and a fixed setting; give it once")
+        try:
+            arr = np.asarray(values, dtype=float).ravel()
+        except (TypeError, ValueError):
+            raise InputError(f"sweep: axis `{name}` must be a list of numbers, got "
+                             f"{values!r}") from None
+        if arr.size == 0:
+            raise InputError(f"sweep: axis `{name}` has no values")
+        if not np.isfinite(arr).all():
+            raise InputError(f"sweep: axis `{name}` must hold finite numbers, got {values!r}")
+        if np.unique(arr).size != arr.size:
+            raise InputError(f"sweep: axis `{name}` repeats a value: {values!r}")
+        out[name] = arr
+    return out
+
+
+def _cases(cell, duty, cooling, axes, simulate_kwargs, keep_fields) -> list[_Case]:
+    names = list(axes)
+    base = {"cell": _cell_key(cell), "duty": _duty_key(duty), "fields": bool(keep_fields),
+            "format": CACHE_FORMAT}
+    from explorer import __version__
+
+    base["version"] = __version__
+    cases = []
+    for index in itertools.product(*(range(len(axes[n])) for n in names)):
+        values = {n: float(axes[n][i]) for n, i in zip(names, index)}
+        design_values = {n: v for n, v in values.items() if n not in SETTING_AXES}
+        settings = dict(simulate_kwargs)
+        settings.update({n: v for n, v in values.items() if n in SETTING_AXES})
+        design = cooling
+        if design_values:
+            try:
+                design = cooling.replace(**design_values)
+            except (ValueError, TypeError) as exc:
+                raise InputError(f"sweep: the case {design_values} is not a valid design: "
+                                 f"{exc}") from None
+        key_data = {**base, "cooling": design.describe() if design is not None else None,
+                    "settings": settings}
+        key = hashlib.sha256(json.dumps(key_data, sort_keys=True, default=str).encode())
+        cases.append(_Case(index, values, design, settings, key.hexdigest()))
+    return cases
+
+
+def _cell_key(cell) -> str:
+    sha = getattr(cell, "sha256", "")
+    if sha:
+        return sha
+    # A cell built in code has no file: hash its full definition instead.
+    return hashlib.sha256(repr(dataclasses.asdict(cell)).encode()).hexdigest()
+
+
+def _duty_key(duty) -> list:
+    from explorer.duty import as_steps
+
+    out = []
+    for step in as_steps(duty):
+        d = step.describe()
+        if step.profile_time_s:
+            samples = np.asarray([step.profile_time_s, step.profile_value], dtype=float)
+            d["profile_sha256"] = hashlib.sha256(samples.tobytes()).hexdigest()
+        out.append(d)
+    return out
+
+
+# --------------------------------------------------------------------------- running a case
+
+
+def _simulate(cell, duty, **kwargs):
+    from explorer.simulate import simulate
+
+    return simulate(cell, duty, **kwargs)
+
+
+def run_case(cell, duty, design, settings: dict, keep_fields: bool = False) -> xr.Dataset:
+    """Run one case and reduce it to what a sweep keeps (never raises on a failed run).
+
+    Returns a small Dataset: the traces over ``time``, the summary figures as
+    0-d variables, the fields when ``keep_fields``, and ``case_status`` /
+    ``case_message`` in its attributes.
+    """
+    try:
+        ds = _simulate(cell, duty, cooling=design, **settings)
+    except Exception as exc:  # one bad case must not stop the sweep
+        log.warning("sweep case %s failed: %s", settings, exc)
+        return _failed(f"{type(exc).__name__}: {exc}")
+    return reduce_run(ds, keep_fields)
+
+
+def reduce_run(ds: xr.Dataset, keep_fields: bool = False) -> xr.Dataset:
+    """The traces, summary figures and (optionally) fields of one run."""
+    from explorer.results import key_figures
+
+    fig = key_figures(ds)
+    hyd = run_hydraulics(ds) or {}
+    summary = {
+        "peak_temperature_C": fig["peak_temperature_C"],
+        "max_spread_K": fig["max_spread_K"],
+        "core_temperature_max_C": _nanmax(ds, "temperature_core_max"),
+        "coolant_outlet_max_C": _nanmax(ds, "coolant_outlet"),
+        "end_soc": fig["end_soc"],
+        "energy_delivered_Wh": fig["energy_delivered_Wh"],
+        "heat_generated_J": fig["heat_generated_J"],
+        "heat_rejected_J": fig["heat_rejected_J"],
+        "duration_s": fig["duration_s"],
+        "end_voltage_V": fig["end_voltage_V"],
+        "time_to_limit_s": math.nan if fig["time_to_limit_s"] is None else fig["time_to_limit_s"],
+        "pressure_drop_kPa": (hyd["pressure_drop_Pa"] / 1e3
+                              if hyd.get("pressure_drop_Pa") is not None else math.nan),
+        "pump_power_W": (float(hyd["pump_power_W"])
+                         if hyd.get("pump_power_W") is not None else math.nan),
+    }
+    data = {name: ((), float(v)) for name, v in summary.items()}
+    for name in TRACES:
+        if name in ds:
+            data[name] = ("time", np.asarray(ds[name].values, dtype=float))
+    coords = {"time": ds["time"].values}
+    if keep_fields:
+        for name in FIELDS:
+            data[name] = (("time", "y", "x"), np.asarray(ds[name].values, dtype=float))
+        coords.update(x=ds["x"].values, y=ds["y"].values)
+    status = str(ds.attrs.get("status", "completed"))
+    attrs = {"case_status": status, "case_message": str(ds.attrs.get("status_message", "")),
+             "output_interval_s": float(ds.attrs.get("output_interval_s", math.nan)),
+             "hydraulics_warnings": json.dumps(list(hyd.get("warnings", []) or []))}
+    return xr.Dataset(data, coords=coords, attrs=attrs)
+
+
+def _failed(message: str) -> xr.Dataset:
+    return xr.Dataset(attrs={"case_status": "failed", "case_message": message})
+
+
+def _nanmax(ds, name) -> float:
+    if name not in ds:
+        return math.nan
+    v = np.asarray(ds[name].values, dtype=float)
+    return float(np.nanmax(v)) if np.isfinite(v).any() else math.nan
+
+
+# --------------------------------------------------------------------------- cache
+
+
+def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
+    if cache is None:
+        return None
+    path = cache / f"{key}.nc"
+    if not path.is_file():
+        return None
+    try:
+        with xr.open_dataset(path, engine="h5netcdf") as ds:
+            return ds.load()
+    except (OSError, ValueError) as exc:  # a damaged entry is recomputed, not fatal
+        log.warning("sweep cache entry %s unreadable (%s); recomputing", path, exc)
+        return None
+
+
+def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
+    from explorer.results import save
+
+    save(result, cache / f"{key}.nc")
+
+
+# --------------------------------------------------------------------------- execution
+
+
+def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
+    if isinstance(scheduler, str) and scheduler.lower() in ("serial", "local-serial"):
+        for case in todo:
+            done(case, run_case(cell, duty, case.design, case.settings, keep_fields))
+        return
+    client, cluster = _connect(scheduler)
+    futures = {}
+    try:
+        from distributed import as_completed
+
+        cell_f = client.scatter(cell, broadcast=True)  # ship the cell once, not per case
+        for case in todo:
+            fut = client.submit(run_case, cell_f, duty, case.design, case.settings, keep_fields,
+                                pure=False)
+            futures[fut] = case
+        for fut in as_completed(futures):
+            case = futures[fut]
+            try:
+                result = fut.result()
+            except Exception as exc:  # e.g. a worker died: record it, keep the sweep going
+                result = _failed(f"{type(exc).__name__}: {exc}")
+            done(case, result)
+    finally:
+        for fut in futures:
+            fut.cancel()
+        if cluster is not None:
+            client.close()
+            cluster.close()
+
+
+def _connect(scheduler):
+    """A Dask client, and the cluster when this call started one (to stop it after)."""
+    try:
+        from distributed import Client, LocalCluster
+    except ImportError:  # pragma: no cover - dask[distributed] is a dependency
+        raise InputError("sweep: Dask distributed is needed for parallel sweeps "
+                         "(pip install 'dask[distributed]'); or use scheduler='serial'") from None
+    if scheduler is None:
+        cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                               host="127.0.0.1", dashboard_address=None,
+                               silence_logs=logging.ERROR)
+        return Client(cluster), cluster
+    if isinstance(scheduler, Client):
+        return scheduler, None
+    if isinstance(scheduler, str):
+        try:
+            return Client(scheduler, timeout="10s"), None
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"sweep: cannot reach the Dask scheduler at {scheduler!r} ({exc}); "
+                             "expected the address of a running scheduler such as "
+                             "'tcp://127.0.0.1:8786', or 'serial'") from None
+    raise InputError(f"sweep: `scheduler` must be None, 'serial', an address string or a "
+                     f"distributed.Client, got {scheduler!r}")
+
+
+# --------------------------------------------------------------------------- assembly
+
+
+def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, trace_interval_s,
+              simulate_kwargs, scheduler) -> xr.Dataset:
+    names = list(axes)
+    shape = tuple(len(axes[n]) for n in names)
+    ok = [results[c.index] for c in cases if results[c.index].attrs["case_status"] != "failed"]
+    data = {}
+    for name, (unit, long) in SUMMARY.items():
+        arr = np.full(shape, np.nan)
+        for c in cases:
+            r = results[c.index]
+            if name in r:
+                arr[c.index] = float(r[name].values)
+        data[name] = (names, arr, {"units": unit, "long_name": long})
+    status = np.empty(shape, dtype=object)
+    message = np.empty(shape, dtype=object)
+    for c in cases:
+        status[c.index] = str(results[c.index].attrs["case_status"])
+        message[c.index] = str(results[c.index].attrs.get("case_message", ""))
+    data["case_status"] = (names, status.astype(str),
+                           {"long_name": "completed | stopped | failed"})
+    data["case_message"] = (names, message.astype(str), {"long_name": "why a case stopped or failed"})
+    if limits is not None:
+        _add_margins(data, names, shape, limits)
+
+    # Common time base for the traces, NaN-padded after each case's end.
+    if ok:
+        end = max(float(r["time"].values[-1]) for r in ok if "time" in r.coords)
+        dt = trace_interval_s or _interval(ok)
+        n = max(2, int(math.floor(end / dt + 1e-9)) + 1)
+        time = np.arange(n) * dt
+        if time[-1] < end - 1e-9:
+            time = np.append(time, end)
+    else:
+        time = np.zeros(0)
+    present = [t for t in TRACES if any(t in r for r in ok)]
+    for name in present:
+        arr = np.full((*shape, time.size), np.nan)
+        for c in cases:
+            r = results[c.index]
+            if name in r:
+                arr[c.index] = _resample(r["time"].values, r[name].values, time)
+        unit, long = TRACES[name]
+        data[name] = ([*names, "time"], arr, {"units": unit, "long_name": long})
+    coords = {n: (n, axes[n], {"long_name": n, "units": parameter_unit(n)}) for n in names}
+    coords["time"] = ("time", time, {"units": "s", "long_name": "time from the start of the duty "
+                                     "(common base; NaN after a case's end)"})
+    if keep_fields and ok:
+        ref = next(r for r in ok if "temperature" in r)
+        for name in FIELDS:
+            arr = np.full((*shape, time.size, ref.sizes["y"], ref.sizes["x"]), np.nan)
+            for c in cases:
+                r = results[c.index]
+                if name in r:
+                    arr[c.index] = _resample(r["time"].values, r[name].values, time)
+            unit = {"temperature": "degC", "soc": "1", "heat_flux": "W m-2"}[name]
+            data[name] = ([*names, "time", "y", "x"], arr, {"units": unit, "long_name": name})
+        coords.update(x=("x", ref["x"].values, {"units": "m"}), y=("y", ref["y"].values,
+                                                                   {"units": "m"}))
+    from explorer import __version__
+    from explorer.results import CAUTION
+
+    n_failed = int(sum(s == "failed" for s in status.ravel()))
+    attrs = {
+        "title": f"Pouch Thermal Explorer sweep: {cell.name}",
+        "tool_version": __version__,
+        "cell_name": cell.name,
+        "cell_sha256": getattr(cell, "sha256", ""),
+        "cell_file": getattr(cell, "source_path", ""),
+        "temperature_limit_C": cell.temperature_max_C,
+        "duty": json.dumps(_duty_key(duty), default=str),
+        "cooling": json.dumps(cooling.describe() if cooling is not None else {"kind": "adiabatic"},
+                              default=str),
+        "axes": json.dumps({n: axes[n].tolist() for n in names}),
+        "settings": json.dumps(simulate_kwargs, default=str),
+        "limits": json.dumps(limits.as_dict() if limits is not None else {}),
+        "cases": len(cases),
+        "cases_failed": n_failed,
+        "scheduler": scheduler if isinstance(scheduler, str) else
+        ("local cluster" if scheduler is None else "client"),
+        "time_base": "traces linearly resampled onto a uniform time base, NaN after each "
+                     "case's end",
+        "caution": CAUTION,
+    }
+    return xr.Dataset(data, coords=coords, attrs=attrs)
+
+
+def _add_margins(data, names, shape, limits: Limits) -> None:
+    source = {"temperature_max_C": "peak_temperature_C", "spread_K": "max_spread_K",
+              "core_temperature_max_C": "core_temperature_max_C",
+              "coolant_outlet_C": "coolant_outlet_max_C",
+              "pressure_drop_kPa": "pressure_drop_kPa", "pump_power_W": "pump_power_W"}
+    met = np.ones(shape, dtype=bool)
+    for name, value in limits.as_dict().items():
+        margin = value - data[source[name]][1]
+        data[f"margin_{name}"] = (names, margin, {
+            "units": LIMIT_UNITS[name].replace("degC", "K"),
+            "long_name": f"margin on {name} = {value:g} (positive = met)"})
+        met &= margin >= 0.0  # NaN (failed case or no such figure) counts as not met
+    data["meets_limits"] = (names, met.astype("int8"),
+                            {"units": "1", "long_name": "every limit met (1) or not (0)"})
+
+
+def _interval(results) -> float:
+    vals = [float(r.attrs.get("output_interval_s", math.nan)) for r in results]
+    vals = [v for v in vals if math.isfinite(v) and v > 0]
+    if vals:
+        return max(vals)
+    # Fall back on the median recorded step of the longest case.
+    longest = max(results, key=lambda r: r["time"].values[-1])
+    return float(np.median(np.diff(longest["time"].values))) or 1.0
+
+
+def _resample(t, y, time):
+    """Linear interpolation of ``y`` (time first, any trailing dims) onto ``time``.
+
+    NaN beyond the end of ``t``: the case had stopped by then.
+    """
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(y, dtype=float)
+    # Event times can repeat a sample (a step ends and the next begins): keep the last.
+    keep = np.append(np.diff(t) > 0, True)
+    t, y = t[keep], y[keep]
+    shape = (time.size, *y.shape[1:])
+    if t.size == 1:
+        out = np.full(shape, np.nan)
+        out[np.isclose(time, t[0])] = y[0]
+        return out
+    i = np.clip(np.searchsorted(t, time, side="right") - 1, 0, t.size - 2)
+    w = ((time - t[i]) / (t[i + 1] - t[i])).reshape((-1,) + (1,) * (y.ndim - 1))
+    out = y[i] * (1.0 - w) + y[i + 1] * w
+    out[time > t[-1] * (1 + 1e-12) + 1e-9] = np.nan
+    return out
