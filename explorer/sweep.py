@@ -35,6 +35,8 @@ import itertools
 import json
 import logging
 import math
+import os
+import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -328,6 +330,24 @@ def _nanmax(ds, name) -> float:
 # --------------------------------------------------------------------------- cache
 
 
+def write_netcdf(ds: xr.Dataset, path) -> Path:
+    """Write ``ds`` to netCDF atomically: a temporary file in the same folder, then a rename.
+
+    The engine is xarray's default for the installed libraries.
+    """
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    os.close(fd)
+    try:
+        ds.to_netcdf(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+    return path
+
+
 def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
     if cache is None:
         return None
@@ -335,7 +355,7 @@ def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
     if not path.is_file():
         return None
     try:
-        with xr.open_dataset(path, engine="h5netcdf") as ds:
+        with xr.open_dataset(path) as ds:
             return ds.load()
     except (OSError, ValueError) as exc:  # a damaged entry is recomputed, not fatal
         log.warning("sweep cache entry %s unreadable (%s); recomputing", path, exc)
@@ -343,9 +363,7 @@ def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
 
 
 def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
-    from explorer.results import save
-
-    save(result, cache / f"{key}.nc")
+    write_netcdf(result, cache / f"{key}.nc")
 
 
 # --------------------------------------------------------------------------- execution

@@ -1,0 +1,141 @@
+"""Design sweeps: the case grid, the per-case cache and resume, failures, Dask vs serial.
+
+The bookkeeping is tested on the INVENTED stand-in of ``test_sizing`` (a
+lumped cell on a coolant stream, lumped-capacitance solution of Incropera &
+DeWitt, Fundamentals of Heat and Mass Transfer, 6th ed. 2007, §5.3); the
+Dask-against-serial comparison and the coolant energy balance use real runs
+of explorer.simulate on a demo cell.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import xarray as xr
+from test_sizing import DUTY, STANDIN_CELL, Counter, StandInPlate, standin_simulate
+
+import explorer.sweep as sweep_mod
+from explorer.limits import Limits
+from explorer.results import key_figures
+from explorer.sweep import _resample, sweep
+from explorer.validators import InputError
+
+AXES = {"flow_L_min": [1.0, 2.0, 4.0], "inlet_C": [20.0, 30.0]}
+
+
+@pytest.fixture
+def standin(monkeypatch):
+    counter = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", counter)
+    return counter
+
+
+def test_serial_sweep_matches_single_runs(standin):
+    plate = StandInPlate()
+    ds = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", progress=False)
+    assert ds["peak_temperature_C"].dims == ("flow_L_min", "inlet_C")
+    assert ds["temperature_max"].dims == ("flow_L_min", "inlet_C", "time")
+    assert standin.calls == 6
+    for q in AXES["flow_L_min"]:
+        for t in AXES["inlet_C"]:
+            one = standin_simulate(STANDIN_CELL, DUTY, plate.replace(flow_L_min=q, inlet_C=t))
+            fig = key_figures(one)
+            case = ds.sel(flow_L_min=q, inlet_C=t)
+            assert float(case["peak_temperature_C"]) == pytest.approx(fig["peak_temperature_C"])
+            assert float(case["energy_delivered_Wh"]) == pytest.approx(fig["energy_delivered_Wh"])
+            assert float(case["pressure_drop_kPa"]) == pytest.approx(
+                plate.replace(flow_L_min=q).hydraulics()["pressure_drop_Pa"] / 1e3)
+            # same time base as the run here (uniform output), so the traces match exactly
+            np.testing.assert_allclose(case["temperature_max"].values,
+                                       one["temperature_max"].values)
+    assert (ds["case_status"] == "completed").all()
+    # more flow helps, a warmer inlet hurts (the stand-in's physics)
+    assert (ds["peak_temperature_C"].diff("flow_L_min") < 0).all()
+    assert (ds["peak_temperature_C"].diff("inlet_C") > 0).all()
+
+
+def test_interrupted_sweep_resumes_from_cache(tmp_path, monkeypatch):
+    plate = StandInPlate()
+    interrupted = Counter(interrupt_after=4)
+    monkeypatch.setattr(sweep_mod, "_simulate", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+              progress=False)
+    assert len(list(tmp_path.glob("*.nc"))) == 4
+    resumed = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", resumed)
+    ds = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+               progress=False)
+    assert resumed.calls == 2  # only the two missing cases ran
+    fresh = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", fresh)
+    ref = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", progress=False)
+    xr.testing.assert_allclose(ds.drop_vars(["case_status", "case_message"]),
+                               ref.drop_vars(["case_status", "case_message"]))
+    # a changed setting is a different case: nothing is reused
+    again = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", again)
+    sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+          progress=False, heat_W=41.0)
+    assert again.calls == 6
+
+
+def test_failed_case_is_recorded_and_not_cached(tmp_path, standin):
+    plate = StandInPlate(fail_at_flow=2.0)
+    ds = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+               progress=False)
+    failed = ds["case_status"].sel(flow_L_min=2.0)
+    assert (failed == "failed").all()
+    assert "stand-in failure" in str(ds["case_message"].sel(flow_L_min=2.0, inlet_C=20.0).values)
+    assert np.isnan(ds["peak_temperature_C"].sel(flow_L_min=2.0)).all()
+    assert np.isnan(ds["temperature_max"].sel(flow_L_min=2.0)).all()
+    assert (ds["case_status"].sel(flow_L_min=[1.0, 4.0]) == "completed").all()
+    assert ds.attrs["cases_failed"] == 2
+    assert len(list(tmp_path.glob("*.nc"))) == 4  # failures are retried next time
+
+
+def test_limits_margins_per_case(standin):
+    lim = Limits(temperature_max_C=40.0, pressure_drop_kPa=20.0)
+    ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), AXES, scheduler="serial", progress=False,
+               limits=lim)
+    np.testing.assert_allclose(ds["margin_temperature_max_C"], 40.0 - ds["peak_temperature_C"])
+    met = (ds["margin_temperature_max_C"] >= 0) & (ds["margin_pressure_drop_kPa"] >= 0)
+    np.testing.assert_array_equal(ds["meets_limits"].values, met.values.astype("int8"))
+
+
+def test_setting_axis(standin):
+    ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), {"start_temperature_C": [15.0, 25.0]},
+               scheduler="serial", progress=False)
+    assert ds.sizes["start_temperature_C"] == 2
+
+
+def test_resample_pads_with_nan():
+    t = np.array([0.0, 10.0, 10.0, 20.0])  # a repeated event time
+    y = np.array([0.0, 1.0, 2.0, 4.0])
+    out = _resample(t, y, np.arange(0.0, 31.0, 5.0))
+    np.testing.assert_allclose(out[:5], [0.0, 1.0, 2.0, 3.0, 4.0])
+    assert np.isnan(out[5:]).all()
+    field = np.stack([y, 2 * y], axis=1)[:, None, :]  # (time, 1, 2)
+    out = _resample(t, field, np.array([5.0, 15.0]))
+    np.testing.assert_allclose(out[:, 0, 1], [2.0, 6.0])
+
+
+def test_bad_axes(standin):
+    plate = StandInPlate()
+    with pytest.raises(InputError, match=r"axis `fin_mm` is not a parameter.*flow_L_min"):
+        sweep(STANDIN_CELL, DUTY, plate, {"fin_mm": [1.0]}, scheduler="serial", progress=False)
+    with pytest.raises(InputError, match="non-empty"):
+        sweep(STANDIN_CELL, DUTY, plate, {}, scheduler="serial", progress=False)
+    with pytest.raises(InputError, match="list of numbers"):
+        sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": ["a"]}, scheduler="serial")
+    with pytest.raises(InputError, match="repeats"):
+        sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": [1.0, 1.0]}, scheduler="serial")
+    with pytest.raises(InputError, match="no values"):
+        sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": []}, scheduler="serial")
+    with pytest.raises(InputError, match="not a valid design"):
+        sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": [-1.0]}, scheduler="serial")
+    with pytest.raises(InputError, match="both an axis and a fixed setting"):
+        sweep(STANDIN_CELL, DUTY, plate, {"start_soc": [0.5]}, scheduler="serial", start_soc=1.0)
+    with pytest.raises(InputError, match="scheduler"):
+        sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": [1.0]}, scheduler=42, progress=False)
+    assert standin.calls == 0
