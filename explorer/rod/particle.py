@@ -1,0 +1,131 @@
+"""Spherical particle diffusion: conservative finite volumes, implicit in time.
+
+Discretisation
+--------------
+The particle of radius ``R`` is cut into ``n`` shells of EQUAL RADIAL WIDTH
+``dr = R / n``; the unknowns are the shells' volume-averaged concentrations.
+Equal widths are chosen over equal volumes because equal-volume shells make
+the centre shell ``n**(1/3)`` times wider than average, so after a pulse the
+relaxing profile is resolved worst exactly where it is steepest in time, and
+the strongly graded mesh makes the truncation error uneven; equal widths give
+a uniform second-order flux stencil and a surface shell as thin as any other.
+
+Shell ``i`` balances
+
+    V_i dc_i/dt = S_{i+1/2} D (c_{i+1} - c_i)/dr - S_{i-1/2} D (c_i - c_{i-1})/dr,
+
+with the outermost face carrying the reaction flux ``N`` (mol m^-2 s^-1,
+positive out of the particle) instead of a diffusive flux, so the particle's
+lithium changes by exactly ``-4 pi R^2 N dt`` per step (conservative).
+Backward Euler in time (L-stable, so any step from 1e-3 s to minutes is
+acceptable; the caller controls accuracy through ``dt``).
+
+The surface concentration is extrapolated from the outer shell's average,
+which is the value at the shell's volume centroid ``r_c``, with the exact
+surface gradient ``dc/dr = -N / D`` given by the boundary condition:
+
+    c_surf = c_{n-1} - N (R - r_c) / D.
+
+Because the step is linear in the old state and in ``N`` (``D`` is held at
+the step's temperature), it is precomputed as a propagator
+
+    c_new = P c_old + q N,   c_surf_new = s . c_old + s_q N,
+
+with ``P = (W/dt + D K / R^2)^-1 W / dt``; ``P`` and ``q`` are cached per
+``(D, R, dt)`` so a step costs a small dense mat-vec.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.linalg import solve_banded
+
+__all__ = ["SphereShells", "Propagator"]
+
+
+@dataclass(frozen=True)
+class Propagator:
+    """One backward-Euler step of particle diffusion, linear in state and flux.
+
+    ``new = old @ P.T + outer(N, q)``; ``surface = old @ s + N * s_q``.
+    """
+
+    P: np.ndarray  # (n, n)
+    q: np.ndarray  # (n,) response to a unit outward flux N = 1 mol/m^2/s
+    s: np.ndarray  # (n,) surface concentration from the old state
+    s_q: float  # surface concentration per unit N
+
+
+class SphereShells:
+    """Equal-width shell mesh of a sphere, in units of the radius.
+
+    Parameters
+    ----------
+    n : int
+        Number of shells (at least 3).
+
+    Attributes
+    ----------
+    weights : ndarray
+        Shell volume fractions (sum to 1): the particle average is ``weights @ c``.
+    """
+
+    def __init__(self, n: int):
+        if int(n) != n or n < 3:
+            raise ValueError(f"`shells`: expected an integer of at least 3, got {n!r}")
+        self.n = n = int(n)
+        edges = np.linspace(0.0, 1.0, n + 1)
+        self.edges = edges
+        self.weights = edges[1:] ** 3 - edges[:-1] ** 3
+        # conductance of the internal faces per D/R^2, in volume-fraction units:
+        # (4 pi R^2 rho^2) / (4/3 pi R^3) / (R drho) = 3 rho^2 / (R^2 drho)
+        drho = 1.0 / n
+        self._g = 3.0 * edges[1:-1] ** 2 / drho
+        outer = edges[-2]
+        centroid = 0.75 * (1.0 - outer ** 4) / (1.0 - outer ** 3)
+        self.surface_distance = 1.0 - centroid  # (R - r_c) / R
+        self._cache: dict = {}
+
+    def mean(self, c):
+        """Volume average over the last axis."""
+        return c @ self.weights
+
+    def propagator(self, diffusivity: float, radius: float, dt: float) -> Propagator:
+        """The step operator for these values (cached; a few entries are kept)."""
+        key = (diffusivity, radius, dt)
+        hit = self._cache.get(key)
+        if hit is not None:
+            return hit
+        n = self.n
+        w = self.weights / dt
+        g = self._g * diffusivity / radius ** 2
+        ab = np.zeros((3, n))
+        ab[1] = w
+        ab[1, :-1] += g
+        ab[1, 1:] += g
+        ab[0, 1:] = -g
+        ab[2, :-1] = -g
+        rhs = np.zeros((n, n + 1))
+        rhs[np.arange(n), np.arange(n)] = w
+        rhs[n - 1, n] = -3.0 / radius  # outer-face flux term (4 pi R^2) / (4/3 pi R^3)
+        sol = solve_banded((1, 1), ab, rhs, check_finite=False)
+        P, q = sol[:, :n], sol[:, n]
+        s = P[n - 1].copy()
+        s_q = q[n - 1] - radius * self.surface_distance / diffusivity
+        prop = Propagator(P, q, s, float(s_q))
+        if len(self._cache) > 8:
+            self._cache.clear()
+        self._cache[key] = prop
+        return prop
+
+    def step(self, c_old, flux, diffusivity, radius, dt):
+        """Advance concentrations ``c_old`` (..., n) by ``dt`` under outward flux ``flux`` (...).
+
+        Returns ``(c_new, c_surface_new)``.
+        """
+        pr = self.propagator(diffusivity, radius, dt)
+        flux = np.asarray(flux, dtype=float)
+        c_new = c_old @ pr.P.T + flux[..., None] * pr.q
+        return c_new, c_old @ pr.s + flux * pr.s_q

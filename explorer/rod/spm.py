@@ -1,0 +1,228 @@
+"""Single particle model (SPM): one particle per electrode, uniform reaction.
+
+Each electrode is represented by one particle whose surface carries the
+electrode-averaged reaction ``j = +-I / (A a L)`` (A the cell's active area,
+a = 3 eps_s / R_p, L the coating thickness). The electrolyte stays at its
+initial concentration and conducts perfectly, the solid has no resistance:
+
+    V_rod = U_p(c_p,surf) - U_n(c_n,surf) + eta_p - eta_n,
+
+with ``eta`` from inverse Butler-Volmer (:mod:`explorer.rod.kinetics`). The
+particles are the conservative finite-volume spheres of
+:mod:`explorer.rod.particle`, advanced by backward Euler.
+
+State layout: ``[c_n shells, c_p shells, I]`` -- the last entry is the
+current of the step that produced the state (0 at rest), used only as the
+starting guess of the next voltage-controlled step.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from explorer.rod.base import RodModel, RodStepError, StepResult
+from explorer.rod.control import check_control, solve_current
+from explorer.rod.heat import heat_split
+from explorer.rod.kinetics import exchange_current, overpotential
+from explorer.rod.mesh import RodMesh
+from explorer.rod.params import FARADAY, RodParameters
+from explorer.rod.particle import SphereShells
+from explorer.validators import InputError
+
+__all__ = ["SPM", "check_step_inputs"]
+
+
+def check_step_inputs(dt, temperature_K, series_resistance_ohm):
+    """Validate the scalar step inputs; return them as floats."""
+    try:
+        dt, T, R = float(dt), float(temperature_K), float(series_resistance_ohm)
+    except (TypeError, ValueError):
+        raise InputError(f"rod step: `dt`, `temperature_K` and `series_resistance_ohm` must be "
+                         f"numbers, got {dt!r}, {temperature_K!r}, {series_resistance_ohm!r}") from None
+    if not (dt > 0 and math.isfinite(dt)):
+        raise InputError(f"`dt`: expected a positive time step in s, got {dt!r}")
+    if not (150.0 < T < 500.0):
+        raise InputError(f"`temperature_K`: expected a cell temperature in kelvin (150-500 K), "
+                         f"got {T!r}")
+    if not (R >= 0 and math.isfinite(R)):
+        raise InputError(f"`series_resistance_ohm`: expected a resistance >= 0, got {R!r}")
+    return dt, T, R
+
+
+class SPM(RodModel):
+    """Single particle model.
+
+    Parameters
+    ----------
+    params : RodParameters
+    mesh : None, RodMesh or dict, optional
+        Only ``shells`` is used.
+
+    Examples
+    --------
+    >>> rod = SPM(params)                                         # doctest: +SKIP
+    >>> x = rod.initial_state(1.0, 298.15)                        # doctest: +SKIP
+    >>> r = rod.solve_step(x, 10.0, 298.15, Control("current", 66.0))  # doctest: +SKIP
+    """
+
+    name = "spm"
+    has_electrolyte = False
+
+    def __init__(self, params: RodParameters, mesh=None):
+        if not isinstance(params, RodParameters):
+            raise InputError(f"`params`: expected RodParameters, got {type(params).__name__}")
+        self.params = params
+        self.mesh = RodMesh.coerce(mesh)
+        self.shells = SphereShells(self.mesh.shells)
+        self.nr = self.mesh.shells
+        A = params.area_m2
+        self._electrodes = (params.negative, params.positive)
+        # outward particle flux per ampere of cell current (j / F with j = +-I / (A a L))
+        self._flux_per_A = tuple(e.sign / (A * e.surface_area_m2_m3 * e.thickness_m * FARADAY)
+                                 for e in self._electrodes)
+        self._j_per_A = tuple(e.sign / (A * e.surface_area_m2_m3 * e.thickness_m)
+                              for e in self._electrodes)
+        # solid volume of each electrode, for lithium inventories
+        self._solid_m3 = tuple(e.active_fraction * e.thickness_m * A for e in self._electrodes)
+        self.current_1C_A = params.capacity_Ah
+        self.size = 2 * self.nr + self._extra_size() + 1
+
+    # ---- hooks the SPMe extends ------------------------------------------------------------
+    def _extra_size(self) -> int:
+        return 0
+
+    # ---- contract ------------------------------------------------------------------------
+    def initial_state(self, soc: float, temperature_K: float) -> np.ndarray:
+        soc = float(soc)
+        if not math.isfinite(soc):
+            raise InputError(f"`soc`: expected a number, got {soc!r}")
+        stos = self.params.stoichiometry_at(soc)
+        for e, sto in zip(self._electrodes, stos):
+            if not 0.0 < sto < 1.0:
+                raise InputError(f"`soc`: {soc!r} puts the {e.name} electrode at stoichiometry "
+                                 f"{sto:.4f}, outside (0, 1); expected a SOC inside the cell's window")
+        x = np.zeros(self.size)
+        nr = self.nr
+        x[:nr] = stos[0] * self.params.negative.max_concentration_mol_m3
+        x[nr:2 * nr] = stos[1] * self.params.positive.max_concentration_mol_m3
+        self._fill_extra_initial(x)
+        return x
+
+    def _fill_extra_initial(self, x):
+        pass
+
+    def _check_state(self, state):
+        x = np.asarray(state, dtype=float)
+        if x.shape != (self.size,):
+            raise InputError(f"`state`: expected a {self.name} state of length {self.size}, "
+                             f"got shape {x.shape}")
+        return x
+
+    def soc(self, state) -> float:
+        x = self._check_state(state)
+        sto_n = self.shells.mean(x[:self.nr]) / self.params.negative.max_concentration_mol_m3
+        return float(self.params.soc_from_negative(sto_n))
+
+    def lithium_by_electrode(self, state) -> dict[str, float]:
+        """Lithium in each electrode's solid phase, mol."""
+        x = self._check_state(state)
+        nr = self.nr
+        return {"negative": float(self.shells.mean(x[:nr]) * self._solid_m3[0]),
+                "positive": float(self.shells.mean(x[nr:2 * nr]) * self._solid_m3[1])}
+
+    def lithium_mol(self, state) -> float:
+        li = self.lithium_by_electrode(state)
+        return li["negative"] + li["positive"]
+
+    # ---- stepping ------------------------------------------------------------------------
+    def _prepare(self, x, dt, T):
+        """Parts of the step that do not depend on the current: surfaces are a + b I."""
+        nr = self.nr
+        pre = {"T": T, "dt": dt, "x": x}
+        surf = []
+        for k, e in enumerate(self._electrodes):
+            prop = self.shells.propagator(e.diffusivity(T), e.particle_radius_m, dt)
+            c_old = x[k * nr:(k + 1) * nr]
+            surf.append((float(c_old @ prop.s), prop.s_q * self._flux_per_A[k], prop, c_old))
+        pre["surf"] = surf
+        pre["rate"] = (self._electrodes[0].rate(T), self._electrodes[1].rate(T))
+        return pre
+
+    def _electrolyte_terms(self, pre, I, cs):
+        """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal electrolyte."""
+        c0 = self.params.electrolyte.initial_concentration_mol_m3
+        T = pre["T"]
+        etas = []
+        for k, e in enumerate(self._electrodes):
+            j0 = exchange_current(pre["rate"][k], c0, cs[k], e.max_concentration_mol_m3,
+                                  e.charge_transfer_coefficient)
+            etas.append(float(overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)))
+        return etas[0], etas[1], 0.0, 0.0, 0.0, 0.0
+
+    def _evaluate(self, pre, I, R, full=False):
+        T = pre["T"]
+        cs = []
+        for k, e in enumerate(self._electrodes):
+            a, b = pre["surf"][k][:2]
+            c = a + b * I
+            if not 0.0 < c < e.max_concentration_mol_m3:
+                if full:
+                    raise RodStepError(
+                        f"{self.name}: the {e.name} particle surface would reach stoichiometry "
+                        f"{c / e.max_concentration_mol_m3:.4f} (outside (0, 1)) at {I:.4g} A "
+                        "within this step; reduce the step or the current")
+                return math.nan
+            cs.append(c)
+        terms = self._electrolyte_terms(pre, I, cs)
+        if terms is None:
+            if full:
+                raise RodStepError(f"{self.name}: the electrolyte would be depleted at {I:.4g} A "
+                                   "within this step; reduce the step or the current")
+            return math.nan
+        eta_n, eta_p, dphi_e, solid_drop = terms[:4]
+        n, p = self._electrodes
+        sto_n = cs[0] / n.max_concentration_mol_m3
+        sto_p = cs[1] / p.max_concentration_mol_m3
+        ocv = float(p.potential(sto_p, T) - n.potential(sto_n, T))
+        v_rod = ocv + eta_p - eta_n + dphi_e - solid_drop
+        v_term = v_rod - I * R
+        if not full:
+            return v_term
+        return {"cs": cs, "sto": (sto_n, sto_p), "ocv": ocv, "v_rod": v_rod, "v_term": v_term,
+                "eta": (eta_n, eta_p), "terms": terms}
+
+    def _new_state(self, pre, I):
+        x = np.empty(self.size)
+        nr = self.nr
+        for k in range(2):
+            prop, c_old = pre["surf"][k][2:]
+            x[k * nr:(k + 1) * nr] = c_old @ prop.P.T + (I * self._flux_per_A[k]) * prop.q
+        x[-1] = I
+        return x
+
+    def solve_step(self, state, dt, temperature_K, control, series_resistance_ohm=0.0) -> StepResult:
+        kind, value = check_control(control)
+        dt, T, R = check_step_inputs(dt, temperature_K, series_resistance_ohm)
+        x = self._check_state(state)
+        pre = self._prepare(x, dt, T)
+        if kind == "current":
+            current = value
+        else:
+            guess = x[-1] if kind == "voltage" else 0.0
+            current = solve_current(lambda i: self._evaluate(pre, i, R), kind, value, guess,
+                                    self.current_1C_A)
+        out = self._evaluate(pre, current, R, full=True)
+        new = self._new_state(pre, current)
+        n, p = self._electrodes
+        eta_n, eta_p = out["eta"]
+        sto_n, sto_p = out["sto"]
+        heat = heat_split(
+            irreversible=current * (eta_n - eta_p),
+            reversible=current * T * (float(n.entropic(sto_n)) - float(p.entropic(sto_p))),
+            ohmic_electrolyte=out["terms"][4],
+            ohmic_solid=out["terms"][5],
+        )
+        return StepResult(state=new, current_A=float(current), voltage_V=float(out["v_term"]),
+                          ocv_V=out["ocv"], soc=self.soc(new), heat_W=heat, iterations=1)

@@ -1,0 +1,146 @@
+"""Single particle model with electrolyte (SPMe), asymptotically derived form.
+
+Follows the structure of the asymptotic reduction of the DFN model in
+Marquis, Sulzer, Timms, Please & Chapman, "An asymptotic derivation of a
+single particle model with electrolyte", J. Electrochem. Soc. 166 (2019)
+A3693: the particles see the electrode-averaged reaction (as in the SPM),
+and the electrolyte enters through correction terms:
+
+1. electrolyte concentration: ``eps dc/dt = d/dx(eps^b D_e dc/dx) + (1 - t+) a j / F``
+   across negative | separator | positive with the uniform reaction
+   ``a j = +-I / (A L)`` in each electrode (linear; ``D_e`` at the initial
+   concentration and the step's temperature, as at leading order);
+2. electrolyte potential from the known ionic current ``i_e(x)`` (linear in
+   the electrodes, ``I/A`` in the separator)::
+
+       dphi_e/dx = -i_e / kappa_eff(c_e) + 2 R T (1 - t+) TDF / F  d ln c_e/dx,
+
+   integrated on the finite-volume mesh with the local conductivity, and
+   averaged over each electrode: ``dphi_e = <phi_e>_p - <phi_e>_n`` holds both
+   the electrolyte Ohmic loss and the concentration overpotential;
+3. reaction overpotentials averaged over each electrode, each node using its
+   local ``c_e`` in the exchange current and the particle's surface value;
+4. solid-phase Ohmic loss of the linear solid current, ``I/A (L_n/(3 sigma_n) + L_p/(3 sigma_p))``.
+
+    V_rod = U_p - U_n + <eta>_p - <eta>_n + dphi_e - solid drop.
+
+State layout: ``[c_n shells, c_p shells, c_e cells, I]``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.linalg import solve_banded
+
+from explorer.rod.kinetics import exchange_current, overpotential
+from explorer.rod.mesh import ThroughMesh
+from explorer.rod.params import FARADAY
+from explorer.rod.spm import SPM
+
+__all__ = ["SPMe"]
+
+
+class SPMe(SPM):
+    """SPM with electrolyte; see the module docstring.
+
+    ``mesh`` sets the particle ``shells`` and the cells across ``negative``,
+    ``separator`` and ``positive``.
+    """
+
+    name = "spme"
+    has_electrolyte = True
+
+    def __init__(self, params, mesh=None):
+        super().__init__(params, mesh)
+        self.x_mesh = xm = ThroughMesh(params, self.mesh)
+        A = params.area_m2
+        n, p = params.negative, params.positive
+        el = params.electrolyte
+        self._ce_slice = slice(2 * self.nr, 2 * self.nr + xm.nx)
+        # electrolyte source per ampere: (1 - t+) a j dx / F with a j = +-I / (A L)
+        src = np.zeros(xm.nx)
+        src[xm.neg] = xm.dx[xm.neg] / (A * n.thickness_m)
+        src[xm.pos] = -xm.dx[xm.pos] / (A * p.thickness_m)
+        self._source_per_A = (1.0 - el.transference_number) * src / FARADAY
+        self._storage = xm.porosity * xm.dx
+        self._shape_per_A = xm.reaction_shape / A  # ionic current at the faces per ampere
+        self._solid_drop_per_A = (n.thickness_m / (3.0 * n.solid_conductivity_eff_S_m)
+                                  + p.thickness_m / (3.0 * p.solid_conductivity_eff_S_m)) / A
+        self._e_cache: dict = {}
+
+    def _extra_size(self) -> int:
+        return ThroughMesh(self.params, self.mesh).nx
+
+    def _fill_extra_initial(self, x):
+        x[self._ce_slice] = self.params.electrolyte.initial_concentration_mol_m3
+
+    def _electrolyte_propagator(self, dt, T):
+        key = (dt, T)
+        hit = self._e_cache.get(key)
+        if hit is not None:
+            return hit
+        xm, el = self.x_mesh, self.params.electrolyte
+        d_eff = el.diffusion(el.initial_concentration_mol_m3, T) * xm.transport
+        g = xm.face_harmonic(d_eff)
+        nx = xm.nx
+        w = self._storage / dt
+        ab = np.zeros((3, nx))
+        ab[1] = w
+        ab[1, :-1] += g
+        ab[1, 1:] += g
+        ab[0, 1:] = -g
+        ab[2, :-1] = -g
+        rhs = np.zeros((nx, nx + 1))
+        rhs[np.arange(nx), np.arange(nx)] = w
+        rhs[:, nx] = self._source_per_A
+        sol = solve_banded((1, 1), ab, rhs, check_finite=False)
+        hit = (sol[:, :nx].copy(), sol[:, nx].copy())
+        if len(self._e_cache) > 8:
+            self._e_cache.clear()
+        self._e_cache[key] = hit
+        return hit
+
+    def _prepare(self, x, dt, T):
+        pre = super()._prepare(x, dt, T)
+        P, q = self._electrolyte_propagator(dt, T)
+        pre["ce"] = (P @ x[self._ce_slice], q)
+        el = self.params.electrolyte
+        pre["kappa_factor"] = el.kappa_factor(T) * self.x_mesh.transport
+        pre["nu"] = el.diffusion_potential_V(T)
+        return pre
+
+    def _electrolyte_terms(self, pre, I, cs):
+        a, b = pre["ce"]
+        ce = a + b * I
+        if ce.min() <= 0.0:
+            return None
+        xm, T = self.x_mesh, pre["T"]
+        etas = []
+        for k, (e, sl) in enumerate(zip(self._electrodes, (xm.neg, xm.pos))):
+            j0 = exchange_current(pre["rate"][k], ce[sl], cs[k], e.max_concentration_mol_m3,
+                                  e.charge_transfer_coefficient)
+            eta = overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)
+            etas.append(float(eta.mean()))  # equal cells within an electrode
+        kappa = self.params.electrolyte.conductivity(ce) * pre["kappa_factor"]
+        i_face = I * self._shape_per_A
+        dphi = pre["nu"] * np.diff(np.log(ce)) - i_face / xm.face_harmonic(kappa)
+        # <phi>_p - <phi>_n = sum_f shape_f dphi_f (summation by parts on the mesh)
+        dphi_e = float(xm.reaction_shape @ dphi)
+        solid_drop = I * self._solid_drop_per_A
+        ohmic_e = -self.params.area_m2 * float(i_face @ dphi)
+        return etas[0], etas[1], dphi_e, solid_drop, ohmic_e, I * solid_drop
+
+    def _new_state(self, pre, I):
+        x = super()._new_state(pre, I)
+        a, b = pre["ce"]
+        x[self._ce_slice] = a + b * I
+        return x
+
+    def electrolyte_concentration(self, state) -> np.ndarray:
+        """Electrolyte concentration at the cell centres (mol/m^3)."""
+        return np.asarray(state, dtype=float)[self._ce_slice].copy()
+
+    def electrolyte_lithium_mol(self, state) -> float:
+        """Salt in the electrolyte of the whole cell, mol."""
+        c = np.asarray(state, dtype=float)[self._ce_slice]
+        return float(self._storage @ c * self.params.area_m2)
