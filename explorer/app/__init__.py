@@ -1,0 +1,45 @@
+"""The notebook app: :func:`explore` returns a displayable ipywidgets widget.
+
+* :func:`explore` — build the app (optionally with initial inputs by name).
+* :class:`ExplorerApp` — the widget (``.run()``, ``.dataset``, ``.pin()``, ``.size()`` ...).
+* :mod:`explorer.app.inputs` — the input table, validation and :func:`inputs_to_call`, the pure
+  mapping of the inputs onto the public API.
+
+>>> import explorer                       # doctest: +SKIP
+>>> app = explorer.explore()              # doctest: +SKIP
+>>> app                                   # doctest: +SKIP  (displays in a notebook)
+"""
+
+from explorer.app.inputs import FIELDS, defaults, inputs_to_call, load_inputs, save_inputs, validate
+
+__all__ = [
+    "ExplorerApp",
+    "FIELDS",
+    "defaults",
+    "explore",
+    "inputs_to_call",
+    "load_inputs",
+    "save_inputs",
+    "validate",
+]
+
+
+def explore(**inputs):
+    """Return the notebook app; keyword arguments set inputs by name (see ``FIELDS``).
+
+    Examples
+    --------
+    >>> app = explore(cooling="edge_plate", flow_L_min=1.5)   # doctest: +SKIP
+    >>> ds = app.run()                                       # doctest: +SKIP
+    """
+    from explorer.app.widget import ExplorerApp
+
+    return ExplorerApp(**inputs)
+
+
+def __getattr__(name):
+    if name == "ExplorerApp":
+        from explorer.app.widget import ExplorerApp
+
+        return ExplorerApp
+    raise AttributeError(f"module 'explorer.app' has no attribute {name!r}")

@@ -1,0 +1,107 @@
+"""Live plotly figures for the app: created once, then updated in place.
+
+With ``anywidget`` installed (plotly >= 6 needs it for ``go.FigureWidget``) each figure is a
+``FigureWidget`` whose changes reach the browser as small updates. Without it the same
+``go.Figure`` object is kept and updated in place and re-drawn into an ``ipywidgets.Output``;
+the app behaves the same, only the redraw is heavier.
+"""
+
+from __future__ import annotations
+
+import logging
+
+import ipywidgets as widgets
+import plotly.graph_objects as go
+
+logger = logging.getLogger(__name__)
+
+__all__ = ["LiveFigure", "figure_widgets_available"]
+
+
+def figure_widgets_available() -> bool:
+    """Whether plotly's ``FigureWidget`` can be created here (needs the ``anywidget`` package)."""
+    try:
+        go.FigureWidget()
+    except ImportError:
+        return False
+    return True
+
+
+_HAS_FIGURE_WIDGET: bool | None = None
+
+
+def _has_figure_widget() -> bool:
+    global _HAS_FIGURE_WIDGET
+    if _HAS_FIGURE_WIDGET is None:
+        _HAS_FIGURE_WIDGET = figure_widgets_available()
+        if not _HAS_FIGURE_WIDGET:
+            logger.info("plotly FigureWidget needs the `anywidget` package (pip install anywidget); "
+                        "the app redraws plain figures instead")
+    return _HAS_FIGURE_WIDGET
+
+
+def _in_kernel() -> bool:
+    try:
+        from IPython import get_ipython
+    except ImportError:  # pragma: no cover
+        return False
+    shell = get_ipython()
+    return shell is not None and getattr(shell, "kernel", None) is not None
+
+
+class LiveFigure:
+    """One figure of the app, kept for its lifetime and updated in place.
+
+    Attributes
+    ----------
+    figure : plotly.graph_objects.FigureWidget or Figure
+        The live figure object (the same object for the app's lifetime).
+    widget : ipywidgets.Widget
+        What to place in the layout (the FigureWidget itself, or an Output holding the figure).
+    updates : int
+        How many updates were applied (used by the benchmark and the tests).
+    """
+
+    def __init__(self, placeholder: str = "Run to see results", height: int = 420):
+        base = go.Figure(layout=dict(
+            template="simple_white", height=height,
+            annotations=[dict(text=placeholder, showarrow=False, x=0.5, y=0.5,
+                              xref="paper", yref="paper", font=dict(size=16, color="#777"))],
+            xaxis=dict(visible=False), yaxis=dict(visible=False)))
+        self.native = _has_figure_widget()
+        if self.native:
+            self.figure = go.FigureWidget(base)
+            self.widget = self.figure
+        else:
+            self.figure = base
+            self.widget = widgets.Output(layout=widgets.Layout(min_height=f"{height}px"))
+        self.updates = 0
+        self.empty = True
+
+    def replace(self, source: go.Figure) -> None:
+        """Make the live figure show ``source`` (data and layout), reusing traces where it can."""
+        fig = self.figure
+        same = (len(fig.data) == len(source.data)
+                and all(a.type == b.type for a, b in zip(fig.data, source.data)))
+        if same:
+            with fig.batch_update():
+                for target, new in zip(fig.data, source.data):
+                    target.update(new.to_plotly_json(), overwrite=True)
+                fig.layout = source.layout
+        else:
+            fig.data = ()
+            fig.add_traces(list(source.data))
+            fig.layout = source.layout
+        self.empty = False
+        self.refresh()
+
+    def refresh(self) -> None:
+        """After in-place changes: count them and, without FigureWidget, redraw the figure."""
+        self.updates += 1
+        if self.native or not _in_kernel():
+            return
+        from IPython.display import display
+
+        with self.widget:
+            self.widget.clear_output(wait=True)
+            display(self.figure)

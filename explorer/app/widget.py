@@ -1,0 +1,625 @@
+"""The notebook app: inputs on top, run controls, live figures in tabs, scenarios, files, caution.
+
+:class:`ExplorerApp` is an ``ipywidgets.VBox``; display it in a notebook cell. It calls only the
+public API through :mod:`explorer.app.inputs`. In a notebook the Run button works in a background
+thread; :meth:`ExplorerApp.run` runs the current inputs now and blocks (for scripts and tests).
+"""
+
+from __future__ import annotations
+
+import html
+import logging
+import threading
+import time
+from collections import OrderedDict
+from pathlib import Path
+
+import ipywidgets as widgets
+import numpy as np
+
+from explorer import plots
+from explorer.app import inputs as app_inputs
+from explorer.app.inputs import FIELDS, SIZE_CHOICES, applies, inputs_to_call, validate
+from explorer.app.live import LiveFigure
+
+logger = logging.getLogger(__name__)
+
+__all__ = ["ExplorerApp"]
+
+_GROUPS = ("Cell and duty", "Cooling", "Model", "Limits")
+_ERROR_STYLE = "color:#B2182B;font-size:0.9em"
+_TIME_MARKER = "time marker"
+
+
+def _results():
+    from explorer import results
+
+    return results
+
+
+def _esc(text) -> str:
+    return html.escape(str(text))
+
+
+class _Row:
+    """One input: label, control and the inline error next to it."""
+
+    def __init__(self, name: str, f: app_inputs.Field, demo_cells: list[str]):
+        self.name = name
+        self.field = f
+        unit = f" ({f.unit})" if f.unit else ""
+        self.label = widgets.HTML(f"{_esc(f.label)}{_esc(unit)}",
+                                  layout=widgets.Layout(width="210px"))
+        style = {"description_width": "0px"}
+        lay = widgets.Layout(width="240px")
+        if f.kind == "number":
+            self.control = widgets.Text(value=_fmt(f.default), continuous_update=True,
+                                        layout=lay, style=style)
+        elif f.kind == "choice":
+            self.control = widgets.Dropdown(options=[(lab, val) for val, lab in f.choices],
+                                            value=f.default, layout=lay, style=style)
+        elif f.kind == "flag":
+            self.control = widgets.Checkbox(value=bool(f.default), indent=False,
+                                            layout=widgets.Layout(width="240px"))
+        elif name == "cell":
+            self.control = widgets.Combobox(value=str(f.default), options=demo_cells,
+                                            ensure_option=False, continuous_update=True,
+                                            placeholder="demo name or path to a .toml",
+                                            layout=lay, style=style)
+        else:
+            self.control = widgets.Text(value=str(f.default), continuous_update=True,
+                                        placeholder=f.help, layout=lay, style=style)
+        if f.help:
+            self.control.tooltip = f.help
+        self.error = widgets.HTML("", layout=widgets.Layout(width="auto"))
+        self.box = widgets.HBox([self.label, self.control, self.error],
+                                layout=widgets.Layout(align_items="center"))
+
+    def get(self):
+        value = self.control.value
+        if self.field.kind == "number":
+            try:
+                return float(value)
+            except (TypeError, ValueError):
+                return value  # validation reports it
+        return value
+
+    def set(self, value) -> None:
+        if self.field.kind == "number":
+            self.control.value = _fmt(value)
+        elif self.field.kind == "flag":
+            self.control.value = bool(value)
+        else:
+            self.control.value = value
+
+    def show_error(self, message: str | None) -> None:
+        self.error.value = f"<span style='{_ERROR_STYLE}'>⚠ {_esc(message)}</span>" if message else ""
+
+    def visible(self, on: bool) -> None:
+        self.box.layout.display = None if on else "none"
+
+
+def _fmt(value) -> str:
+    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
+        return f"{value:.1f}"
+    return str(value)
+
+
+class ExplorerApp(widgets.VBox):
+    """The notebook app (see the module docstring).
+
+    Attributes
+    ----------
+    dataset : xarray.Dataset or None
+        The last successful result.
+    errors : dict
+        Field name -> message of the current inputs (empty when the inputs are valid).
+    last_error : str or None
+        Why the last run or sizing failed (None after a success).
+    pinned : OrderedDict
+        Scenario name -> (Dataset, inputs) of the pinned runs.
+    sizing : object or None
+        The last result of :func:`explorer.size_cooling`.
+    """
+
+    def __init__(self, **initial):
+        from explorer.cell import list_demo_cells
+
+        try:
+            demo = sorted(list_demo_cells())
+        except (OSError, ValueError):  # no bundled cells: the user types a path
+            demo = []
+        self.dataset = None
+        self.inputs_used: dict | None = None
+        self.errors: dict[str, str] = {}
+        self.last_error: str | None = None
+        self.pinned: OrderedDict = OrderedDict()
+        self.sizing = None
+        self._limits = None
+        self._thread: threading.Thread | None = None
+        self._suspend = False
+        self._input_errors_shown = False
+        self._time_index = 0
+        self._marker_shape: int | None = None
+
+        self.rows = {name: _Row(name, f, demo) for name, f in FIELDS.items()}
+        if "cell" in self.rows and demo and FIELDS["cell"].default not in demo:
+            self.rows["cell"].set(demo[0])
+
+        # run controls
+        self.run_button = widgets.Button(description="Run", button_style="primary", icon="play",
+                                         tooltip="run the current inputs")
+        self.progress = widgets.FloatProgress(value=0.0, min=0.0, max=1.0,
+                                              layout=widgets.Layout(width="260px"))
+        self.status = widgets.HTML("")
+        self.run_button.on_click(lambda _: self.start())
+
+        # time controls shared by the field figures
+        self.time_slider = widgets.IntSlider(value=0, min=0, max=0, description="time step",
+                                             continuous_update=True,
+                                             layout=widgets.Layout(width="480px"))
+        self.play = widgets.Play(value=0, min=0, max=0, interval=150, step=1)
+        widgets.jslink((self.play, "value"), (self.time_slider, "value"))
+        self.time_label = widgets.HTML("")
+        self.time_slider.observe(lambda ch: self.set_time(ch["new"]), names="value")
+
+        # figures
+        self.fig_temperature = LiveFigure("Run to see the temperature field", height=460)
+        self.fig_soc = LiveFigure("Run to see the SOC field", height=380)
+        self.fig_heat_flux = LiveFigure("Run to see the heat generation field", height=380)
+        self.fig_traces = LiveFigure("Run to see voltage, current and temperatures", height=760)
+        self.fig_heat = LiveFigure("Run to see the heat split", height=440)
+        self.fig_compare = LiveFigure("Pin two or more runs to compare them", height=640)
+        self.fig_sizing = LiveFigure("Size the cooling to see the curve", height=520)
+        self.summary = widgets.HTML("")
+        self.compare_table = widgets.HTML("")
+        self.sizing_text = widgets.HTML("")
+
+        # scenarios and files
+        self.scenario_name = widgets.Text(value="", placeholder="scenario name",
+                                          layout=widgets.Layout(width="220px"))
+        self.pin_button = widgets.Button(description="Pin run", icon="thumb-tack",
+                                         tooltip="keep the last run as a named scenario")
+        self.clear_button = widgets.Button(description="Clear pins", icon="trash")
+        self.pin_button.on_click(lambda _: self._guard(self.pin))
+        self.clear_button.on_click(lambda _: self._guard(self.clear_pins))
+        self.file_path = widgets.Text(value="scenario.toml", layout=widgets.Layout(width="300px"),
+                                      placeholder="file path")
+        buttons = {
+            "Save inputs": lambda: self.save_inputs(self.file_path.value),
+            "Load inputs": lambda: self.load_inputs(self.file_path.value),
+            "Save results (.nc)": lambda: self.save_results(_with_suffix(self.file_path.value, ".nc")),
+            "Export report (.html)": lambda: self.export_report(
+                _with_suffix(self.file_path.value, ".html")),
+        }
+        self.file_buttons = {}
+        for text, action in buttons.items():
+            b = widgets.Button(description=text, layout=widgets.Layout(width="170px"))
+            b.on_click(lambda _, a=action: self._guard(a))
+            self.file_buttons[text] = b
+        self.file_status = widgets.HTML("")
+
+        # sizing controls (their inputs live in the Sizing tab)
+        self.size_button = widgets.Button(description="Size", icon="sliders",
+                                          tooltip="find the design value that meets the limits")
+        self.size_button.on_click(lambda _: self.start_sizing())
+
+        for row in self.rows.values():
+            row.control.observe(self._on_change, names="value")
+
+        super().__init__(children=self._layout(), layout=widgets.Layout(width="100%"))
+        if initial:
+            self.set_inputs(**initial)
+        else:
+            self._on_change()
+
+    # -----------------------------------------------------------------------------------------
+    # layout
+
+    def _layout(self):
+        caution = _esc(_results().CAUTION)
+        header = widgets.HTML("<h3 style='margin:0.2em 0'>Pouch Thermal Explorer</h3>"
+                              "<span style='color:#555'>heat, temperature and SOC over the face of a "
+                              "pouch cell, and cooling sized against your limits</span>")
+        groups = []
+        for group in _GROUPS:
+            rows = [r.box for r in self.rows.values() if r.field.group == group]
+            groups.append(widgets.VBox(rows))
+        self.input_tabs = widgets.Tab(children=groups)
+        for k, group in enumerate(_GROUPS):
+            self.input_tabs.set_title(k, group)
+        run_row = widgets.HBox([self.run_button, self.progress, self.status],
+                               layout=widgets.Layout(align_items="center"))
+        time_row = widgets.HBox([self.play, self.time_slider, self.time_label],
+                                layout=widgets.Layout(align_items="center"))
+        sizing_rows = [r.box for r in self.rows.values() if r.field.group == "Sizing"]
+        panels = {
+            "Summary": self.summary,
+            "Temperature": widgets.VBox([self.fig_temperature.widget]),
+            "SOC and heat": widgets.VBox([self.fig_soc.widget, self.fig_heat_flux.widget]),
+            "Traces": self.fig_traces.widget,
+            "Heat split": self.fig_heat.widget,
+            "Compare": widgets.VBox([self.compare_table, self.fig_compare.widget]),
+            "Sizing": widgets.VBox([*sizing_rows, self.size_button, self.sizing_text,
+                                    self.fig_sizing.widget]),
+        }
+        self.output_tabs = widgets.Tab(children=list(panels.values()))
+        for k, name in enumerate(panels):
+            self.output_tabs.set_title(k, name)
+        self.output_tabs.selected_index = 1
+        scenario_row = widgets.HBox([self.scenario_name, self.pin_button, self.clear_button])
+        file_row = widgets.HBox([self.file_path, *self.file_buttons.values()])
+        footer = widgets.HTML(f"<div style='border-top:1px solid #ccc;margin-top:0.8em;padding-top:"
+                              f"0.4em;color:#333;font-size:0.9em'><b>Caution.</b> {caution}</div>")
+        return [header, self.input_tabs, run_row, time_row, self.output_tabs, scenario_row,
+                file_row, self.file_status, footer]
+
+    # -----------------------------------------------------------------------------------------
+    # inputs
+
+    def inputs(self) -> dict:
+        """The current inputs (numbers as floats where they parse)."""
+        return {name: row.get() for name, row in self.rows.items()}
+
+    def set_inputs(self, **values) -> None:
+        """Set inputs by name (as if typed), then validate once."""
+        unknown = sorted(set(values) - set(self.rows))
+        if unknown:
+            raise ValueError(f"ExplorerApp.set_inputs: unknown input(s) {unknown}; expected names "
+                             f"from {', '.join(self.rows)}")
+        self._suspend = True
+        try:
+            for name, value in values.items():
+                self.rows[name].set(value)
+        finally:
+            self._suspend = False
+        self._on_change()
+
+    def _on_change(self, change=None) -> None:
+        if self._suspend:
+            return
+        values = self.inputs()
+        for name, row in self.rows.items():
+            row.visible(applies(name, values))
+        self._update_size_menu(values)
+        self.errors = validate(self.inputs())
+        for name, row in self.rows.items():
+            row.show_error(self.errors.get(name))
+        busy = self._thread is not None and self._thread.is_alive()
+        self.run_button.disabled = bool(self.errors) or busy
+        self.size_button.disabled = bool(self.errors) or busy or not SIZE_CHOICES[values["cooling"]]
+        if self.errors:
+            self.status.value = (f"<span style='{_ERROR_STYLE}'>{len(self.errors)} input(s) to fix "
+                                 "before a run</span>")
+            self._input_errors_shown = True
+        elif self._input_errors_shown and not busy:
+            self.status.value = ""
+            self._input_errors_shown = False
+
+    def _update_size_menu(self, values) -> None:
+        allowed = SIZE_CHOICES.get(values["cooling"], ())
+        control = self.rows["size_vary"].control
+        options = [(lab, val) for val, lab in FIELDS["size_vary"].choices if val in allowed]
+        if values["cooling"] == "edge_plate" or not options:
+            options = options or [(lab, val) for val, lab in FIELDS["size_vary"].choices]
+        if [o[1] for o in control.options] != [o[1] for o in options]:
+            current = control.value
+            self._suspend = True
+            try:
+                control.options = options
+                control.value = current if current in [o[1] for o in options] else options[0][1]
+            finally:
+                self._suspend = False
+
+    # -----------------------------------------------------------------------------------------
+    # running
+
+    def start(self) -> None:
+        """Run the current inputs in a background thread (the Run button)."""
+        if self._thread is not None and self._thread.is_alive():
+            return
+        self._thread = threading.Thread(target=self.run, name="explorer-app-run", daemon=True)
+        self._thread.start()
+
+    def wait(self, timeout: float | None = None) -> None:
+        """Wait for a background run or sizing to finish."""
+        if self._thread is not None:
+            self._thread.join(timeout)
+
+    def run(self):
+        """Run the current inputs now (blocking); return the Dataset, or None when it did not run.
+
+        Invalid inputs do not run (their errors are shown next to the fields). A run that raises
+        or ends with status "failed" shows its reason and keeps the previous results.
+        """
+        self._on_change()
+        if self.errors:
+            self.last_error = "inputs invalid: " + "; ".join(f"{k}: {v}" for k, v in self.errors.items())
+            return None
+        values = self.inputs()
+        self.run_button.disabled = True
+        self.size_button.disabled = True
+        t0 = time.perf_counter()
+        try:
+            call = inputs_to_call(values)
+            expected = call.expected_duration_s()
+            self.progress.value = 0.0
+            self.progress.bar_style = "info"
+            last = [0.0]
+
+            def progress(t_s, step_index=0):
+                now = time.perf_counter()
+                if now - last[0] < 0.1:
+                    return
+                last[0] = now
+                if expected:
+                    self.progress.value = min(0.99, float(t_s) / expected)
+                self.status.value = (f"running · simulated {float(t_s):.0f} s · elapsed "
+                                     f"{now - t0:.1f} s")
+
+            self.status.value = "running …"
+            ds = call.run(progress=progress)
+        except Exception as exc:  # the app's boundary: show why, keep the previous results
+            logger.debug("run failed", exc_info=True)
+            self._failed(f"{type(exc).__name__}: {exc}" if not isinstance(exc, ValueError) else str(exc))
+            return None
+        finally:
+            self._on_change()
+        elapsed = time.perf_counter() - t0
+        status = str(ds.attrs.get("status", "completed"))
+        if status == "failed":
+            self._failed(str(ds.attrs.get("status_message", "the run failed")))
+            return None
+        self.last_error = None
+        self._limits = call.limits
+        self.inputs_used = values
+        self.show(ds)
+        self.progress.value = 1.0
+        self.progress.bar_style = "success" if status == "completed" else "warning"
+        note = "" if status == "completed" else f" — {status}: {ds.attrs.get('status_message', '')}"
+        self.status.value = f"done in {elapsed:.1f} s{_esc(note)}"
+        return ds
+
+    def _failed(self, reason: str) -> None:
+        self.last_error = reason
+        self.progress.bar_style = "danger"
+        keep = " — showing the previous results" if self.dataset is not None else ""
+        self.status.value = f"<span style='{_ERROR_STYLE}'>run failed: {_esc(reason)}{keep}</span>"
+
+    def _guard(self, action) -> None:
+        """Run a button's action and show its error (never a traceback in the notebook)."""
+        try:
+            message = action()
+        except Exception as exc:  # the app's boundary
+            logger.debug("action failed", exc_info=True)
+            self.file_status.value = f"<span style='{_ERROR_STYLE}'>{_esc(exc)}</span>"
+        else:
+            if isinstance(message, str):
+                self.file_status.value = _esc(message)
+            elif isinstance(message, Path):
+                self.file_status.value = f"wrote {_esc(message)}"
+
+    # -----------------------------------------------------------------------------------------
+    # showing a result
+
+    def show(self, ds) -> None:
+        """Show ``ds`` in every panel (figures updated in place) and make it the current result."""
+        self.dataset = ds
+        n = int(ds.sizes["time"])
+        index = int(np.argmax(ds["temperature_max"].values)) if n else 0
+        self.fig_temperature.replace(plots.field_figure(ds, "temperature", index=index,
+                                                        animate=False))
+        self.fig_soc.replace(plots.field_figure(ds, "soc", index=index, animate=False))
+        self.fig_heat_flux.replace(plots.field_figure(ds, "heat_flux", index=index, animate=False))
+        traces = plots.traces_figure(ds, limits=self._limits)
+        _, _, divisor = plots.time_axis(ds)
+        t0 = float(ds["time"].values[index]) / divisor
+        traces.add_vline(x=t0, line=dict(color="#555", width=1), row="all", col=1,
+                         name=_TIME_MARKER)
+        self._marker_shape = [k for k, s in enumerate(traces.layout.shapes) if s.name == _TIME_MARKER]
+        self.fig_traces.replace(traces)
+        self.fig_heat.replace(plots.heat_split_figure(ds))
+        self.summary.value = self._summary_html(ds)
+        self.play.max = max(0, n - 1)
+        self.time_slider.max = max(0, n - 1)
+        self._time_index = -1
+        if self.time_slider.value == index:
+            self.set_time(index)
+        else:
+            self.time_slider.value = index  # triggers set_time
+
+    def set_time(self, index: int) -> None:
+        """Move every field picture (and the traces' time marker) to time ``index`` in place."""
+        ds = self.dataset
+        if ds is None:
+            return
+        index = int(np.clip(index, 0, ds.sizes["time"] - 1))
+        if index == self._time_index:
+            return
+        self._time_index = index
+        for live, variable in ((self.fig_temperature, "temperature"), (self.fig_soc, "soc"),
+                               (self.fig_heat_flux, "heat_flux")):
+            frame = plots.field_frame(ds, variable, index)
+            fig = live.figure
+            with fig.batch_update():
+                fig.data[0].z = frame["z"]
+                fig.data[1].x = [frame["spot_x_mm"]]
+                fig.data[1].y = [frame["spot_y_mm"]]
+                fig.layout.title.text = frame["title"]
+            live.refresh()
+        _, _, divisor = plots.time_axis(ds)
+        t = float(ds["time"].values[index])
+        fig = self.fig_traces.figure
+        if self._marker_shape:
+            with fig.batch_update():
+                for k in self._marker_shape:
+                    fig.layout.shapes[k].x0 = t / divisor
+                    fig.layout.shapes[k].x1 = t / divisor
+            self.fig_traces.refresh()
+        self.time_label.value = f"t = {t:.0f} s"
+
+    def _summary_html(self, ds) -> str:
+        results = _results()
+        figures = results.key_figures(ds)
+        from explorer.report import _format_figure
+
+        rows = "".join(f"<tr><td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td></tr>"
+                       for label, text in (_format_figure(k, v) for k, v in figures.items()))
+        checks = ""
+        if self._limits is not None:
+            try:
+                check = self._limits.check(ds)
+            except ValueError as exc:
+                checks = f"<p style='{_ERROR_STYLE}'>{_esc(exc)}</p>"
+            else:
+                not_met = "<b style='color:#B2182B'>not met</b>"
+                lines = "".join(
+                    f"<tr><td>{_esc(name)}</td><td style='text-align:right'>{margin:+.2f}</td>"
+                    f"<td>{'met' if margin >= 0 else not_met}</td></tr>"
+                    for name, margin in check["margins"].items())
+                checks = ("<h4>Limits (margin = limit − figure)</h4><table>"
+                          f"<tr><th>limit</th><th>margin</th><th></th></tr>{lines}</table>")
+        status = ds.attrs.get("status", "")
+        return (f"<p><b>{_esc(ds.attrs.get('cell_name', ''))}</b> · "
+                f"{_esc(str(ds.attrs.get('electrochemistry', '')).upper())} · "
+                f"{_esc(ds.attrs.get('layout', ''))} · status {_esc(status)}: "
+                f"{_esc(ds.attrs.get('status_message', ''))}</p>"
+                f"<table>{rows}</table>{checks}")
+
+    # -----------------------------------------------------------------------------------------
+    # scenarios
+
+    def pin(self, name: str | None = None) -> str:
+        """Keep the last run as a named scenario and refresh the comparison."""
+        if self.dataset is None:
+            raise ValueError("Pin run: there is no result yet; run first")
+        name = (name or self.scenario_name.value or "").strip() or f"scenario {len(self.pinned) + 1}"
+        self.pinned[name] = (self.dataset, dict(self.inputs_used or {}))
+        self.scenario_name.value = ""
+        self._refresh_compare()
+        return f"pinned {name!r} ({len(self.pinned)} pinned)"
+
+    def clear_pins(self) -> str:
+        self.pinned.clear()
+        self._refresh_compare()
+        return "pins cleared"
+
+    def _refresh_compare(self) -> None:
+        if not self.pinned:
+            self.compare_table.value = ""
+            return
+        named = {name: ds for name, (ds, _) in self.pinned.items()}
+        self.fig_compare.replace(plots.comparison_figure(named, limits=self._limits))
+        self.compare_table.value = _compare_html(named)
+
+    # -----------------------------------------------------------------------------------------
+    # sizing
+
+    def start_sizing(self) -> None:
+        if self._thread is not None and self._thread.is_alive():
+            return
+        self._thread = threading.Thread(target=self.size, name="explorer-app-size", daemon=True)
+        self._thread.start()
+
+    def size(self):
+        """Size the current design for the chosen parameter (blocking); return the result or None."""
+        self._on_change()
+        if self.errors:
+            self.last_error = "inputs invalid: " + "; ".join(f"{k}: {v}" for k, v in self.errors.items())
+            return None
+        values = self.inputs()
+        t0 = time.perf_counter()
+        self.run_button.disabled = self.size_button.disabled = True
+        self.status.value = f"sizing {values['size_vary']} …"
+        self.progress.bar_style = "info"
+        try:
+            call = inputs_to_call(values)
+            result = call.size(values["size_vary"], (float(values["size_low"]),
+                                                     float(values["size_high"])))
+        except Exception as exc:  # the app's boundary
+            logger.debug("sizing failed", exc_info=True)
+            self.last_error = str(exc)
+            self.sizing_text.value = f"<pre style='{_ERROR_STYLE}'>{_esc(exc)}</pre>"
+            self.status.value = f"<span style='{_ERROR_STYLE}'>sizing failed</span>"
+            return None
+        finally:
+            self._on_change()
+        self.last_error = None
+        self.sizing = result
+        self._limits = call.limits
+        self.fig_sizing.replace(plots.sizing_figure(result, limits=call.limits))
+        table = result.table() if hasattr(result, "table") else str(result)
+        self.sizing_text.value = f"<pre>{_esc(table)}</pre>"
+        self.status.value = f"sized in {time.perf_counter() - t0:.1f} s"
+        if getattr(result, "dataset", None) is not None:
+            self.inputs_used = {**values, values["size_vary"]: float(result.value)}
+            self.show(result.dataset)
+        return result
+
+    # -----------------------------------------------------------------------------------------
+    # files
+
+    def save_inputs(self, path) -> Path:
+        """Write the current inputs to a .json or .toml scenario file."""
+        return app_inputs.save_inputs(self.inputs(), path)
+
+    def load_inputs(self, path) -> str:
+        """Read a scenario file and set the inputs from it."""
+        values = app_inputs.load_inputs(path)
+        self.set_inputs(**values)
+        return f"loaded inputs from {path}"
+
+    def save_results(self, path) -> Path:
+        """Write the last result to netCDF (``explorer.results.save``)."""
+        if self.dataset is None:
+            raise ValueError("Save results: there is no result yet; run first")
+        return _results().save(self.dataset, path)
+
+    def export_report(self, path) -> Path:
+        """Write the HTML report: the pinned scenarios (or the last run), with the sizing if any."""
+        from explorer.report import write_report
+
+        if self.pinned:
+            runs = {name: ds for name, (ds, _) in self.pinned.items()}
+            inputs = [inp for _, inp in self.pinned.values()]
+        elif self.dataset is not None:
+            runs, inputs = self.dataset, self.inputs_used
+        else:
+            raise ValueError("Export report: there is no result yet; run first")
+        return write_report(runs, path, inputs=inputs, limits=self._limits, sizing=self.sizing,
+                            title="Pouch Thermal Explorer — notebook app report")
+
+    def __repr__(self) -> str:
+        state = "no result" if self.dataset is None else \
+            f"last run {self.dataset.attrs.get('cell_name', '')} ({self.dataset.attrs.get('status')})"
+        return f"<ExplorerApp: {state}, {len(self.pinned)} pinned>"
+
+
+def _with_suffix(path: str, suffix: str) -> str:
+    p = Path(path.strip() or "scenario")
+    return str(p.with_suffix(suffix))
+
+
+def _compare_html(named: dict) -> str:
+    from explorer.report import _format_figure
+
+    results = _results()
+    names = list(named)
+    figs = {n: results.key_figures(ds) for n, ds in named.items()}
+    head = "<tr><th>figure</th>" + "".join(
+        f"<th>{_esc(n)}{'' if k == 0 else ' (Δ to first)'}</th>" for k, n in enumerate(names)) + "</tr>"
+    rows = []
+    for key, base in figs[names[0]].items():
+        if key == "status":
+            continue
+        label, text = _format_figure(key, base)
+        cells = [f"<td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td>"]
+        for n in names[1:]:
+            value = figs[n].get(key)
+            _, vtext = _format_figure(key, value)
+            if isinstance(value, float) and isinstance(base, float):
+                _, dtext = _format_figure(key, value - base)
+                vtext = f"{vtext} ({'+' if value >= base else ''}{dtext})"
+            cells.append(f"<td style='text-align:right'>{_esc(vtext)}</td>")
+        rows.append("<tr>" + "".join(cells) + "</tr>")
+    return f"<table>{head}{''.join(rows)}</table>"
