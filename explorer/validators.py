@@ -62,8 +62,9 @@ class Problem:
 
     def __str__(self) -> str:
         where = f"{self.file}: " if self.file else ""
-        got = "missing" if self.value is _MISSING else f"got {self.value!r}"
-        return f"{where}`{self.field}`: expected {self.expected}, {got}"
+        if self.value is _MISSING:
+            return f"{where}`{self.field}`: missing; expected {self.expected}"
+        return f"{where}`{self.field}`: expected {self.expected}, got {self.value!r}"
 
 
 class _Missing:

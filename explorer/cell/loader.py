@@ -60,6 +60,9 @@ def _resolve(path) -> Path:
     if p.suffix == "" and (DEMO_DIR / f"{p.name}.toml").is_file() and len(p.parts) == 1:
         return DEMO_DIR / f"{p.name}.toml"
     names = ", ".join(repr(n) for n in demos) or "none found"
+    close = difflib.get_close_matches(p.stem, list(demos), n=1)
+    if close:
+        names += f"; did you mean {close[0]!r}?"
     raise CellFileNotFoundError(
         [Problem(str(path), "(file)", str(path),
                  f"an existing cell file (.toml) or a demo cell name ({names})")],
@@ -126,8 +129,7 @@ class _Reader:
         if f.kind == "key":
             table = TABLES[f.table]
             if raw not in table:
-                self.add(path, raw, f"a {f.table.lower()} key, one of "
-                                    f"{', '.join(map(repr, table))}")
+                self.add(path, raw, _key_list(f.table))
                 return None
             return raw
         if f.kind == "integer":
@@ -187,7 +189,7 @@ def _describe(f: schema.Field) -> str:
     if f.kind == "quantity":
         return f"a value with a unit, e.g. {f.key} = {f.example!r}"
     if f.kind == "key":
-        return f"a {f.table.lower()} key, one of {', '.join(map(repr, TABLES[f.table]))}"
+        return _key_list(f.table)
     if f.kind == "choice":
         return f"one of {', '.join(map(repr, f.choices))}"
     if f.kind == "integer":
@@ -197,8 +199,9 @@ def _describe(f: schema.Field) -> str:
     return "a number"
 
 
-def _complete(values: dict, fields) -> bool:
-    return all(values.get(f.attr) is not None for f in fields)
+def _key_list(table: str) -> str:
+    return (f"a key of explorer.materials.{table}, one of "
+            f"{', '.join(map(repr, TABLES[table]))}")
 
 
 def load_cell(path) -> Cell:
