@@ -144,7 +144,8 @@ def _parse(name) -> tuple[str, int]:
         if pct != int(pct) or not 1 <= pct <= _MAX_GLYCOL_PERCENT:
             raise InputError(
                 f"`coolant`: glycol content must be a whole mass percent from 1 to "
-                f"{_MAX_GLYCOL_PERCENT} (range of the property data), got {name!r}"
+                f"{_MAX_GLYCOL_PERCENT} (range of the property data); expected one of "
+                f"{COOLANT_NAMES}, got {name!r}"
             )
         return _ALIASES[m.group(1).rstrip("_")], int(pct)
     raise InputError(f"`coolant`: expected one of {COOLANT_NAMES}, got {name!r}")

@@ -285,8 +285,9 @@ class FacePlate(_Design):
         k = _position(position, plate.cells_per_plate)
         n_under, _ = self._coverage(cell)
         share = plate.capacity_rate_W_K() * n_under / plate.channels / self.faces_per_plate
-        # Lumped through the thickness, two faces at equal h over the same coolant profile act
-        # as one face with twice the h and twice the coolant share; Sinks carries one stream.
+        # Sinks carries one coolant stream, so "both" becomes one face with twice the h and twice
+        # the coolant share: exact for the in-plane field apart from the through-plane path, which
+        # the thermal model then takes one-sided (depth L instead of L/2): conservative.
         sink_face = "back" if self.face == "both" else self.face
         n = len(faces)
         stream = CoolantStream(sink=sink_face, direction=self.direction, capacity_rate_W_K=n * share,
@@ -325,14 +326,19 @@ def face_plate(plate, face: str = "back", tim_W_mK: float = DEFAULT_TIM_W_mK,
     flow (``flow_direction``, default ``"+x"``); cell ``k`` receives coolant
     already warmed by ``k`` cells. For ``"both"`` the returned Sinks carries
     one face sink (on ``"back"``) with the two faces' combined coefficient
-    and coolant share -- identical for the in-plane field of a cell lumped
-    through its thickness.
+    and coolant share, because :class:`~explorer.inplane.sinks.Sinks` has a
+    single coolant stream. The in-plane field sees the right coolant
+    profile; the thermal model's mean-to-face conduction is then one-sided
+    (depth L rather than L/2), which overstates the through-plane resistance
+    -- conservative. With a :func:`fixed_sink` plate both faces get their own
+    sink and this does not arise.
     """
     return FacePlate(plate, face, tim_W_mK, tim_mm, faces_per_plate)
 
 
 # ---------------------------------------------------------------------------------------
 _ALONG = {"bottom": ("+x", "-x"), "top": ("+x", "-x"), "left": ("+y", "-y"), "right": ("+y", "-y")}
+_ACROSS = {"bottom": "+y", "top": "-y", "left": "+x", "right": "-x"}  # into the cell, off the edge
 
 
 @dataclass(frozen=True)
@@ -425,10 +431,9 @@ class EdgePlate(_Design):
         k = _position(position, plate.cells_per_plate)
         _, fraction = self._share(cell)
         if self.direction == "across":
-            # The coolant crosses the edge; its small rise under this one cell is spread along the
-            # edge as a stream in the edge's own direction (the mean is right, the local slope is
-            # an approximation, negligible when the whole plate flow passes every cell).
-            direction, upstream = _ALONG[self.edge][0], k
+            # The coolant crosses the edge (runs through the stack): a stream direction across the
+            # edge tells the thermal model to treat the edge as one strip at one coolant temperature.
+            direction, upstream = _ACROSS[self.edge], k
         else:
             direction, upstream = self.direction, 0
         stream = CoolantStream(sink=self.edge, direction=direction,
