@@ -1,0 +1,516 @@
+"""Scenario files (TOML, this tool's own layout) and the ``run``/``size``/``sweep`` commands.
+
+A scenario names a cell, a duty, a cooling design, the model settings, the
+design limits, and what to size or sweep. Tables and keys:
+
+.. code-block:: toml
+
+    [scenario]
+    name = "Van module, edge plate"         # free text
+    cell = "van_nmc_66ah"                   # demo name, or a cell file relative to this file
+
+    [model]                                 # keywords of explorer.simulate
+    electrochemistry = "spme"
+    layout = "averaged"
+    grid = [8, 12]
+    start_soc = 1.0
+    start_temperature_C = 25.0
+
+    [[duty]]                                # one table per step, in order
+    step = "discharge"                      # a function of explorer.duty
+    c_rate = 2.0                            # ... and its keywords
+    [[duty]]
+    step = "rest"
+    seconds = 600
+
+    [cooling]                               # design = a function of explorer.cooling
+    design = "edge_plate"
+    edge = "bottom"
+    fin_mm = 0.5
+    [cooling.plate]                         # the plate of a face/edge design
+    kind = "cold_plate"                     # or "fixed_sink"
+    coolant = "eg50"
+    flow_L_min = 3.0
+    inlet_C = 25.0
+    [[cooling.with]]                        # further designs on the same cell (combined)
+    design = "tab_cooling"
+    busbar_C = 30.0
+
+    [limits]                                # fields of explorer.Limits
+    temperature_max_C = 45.0
+    spread_K = 5.0
+
+    [size]                                  # for `size`
+    vary = "flow_L_min"
+    bounds = [0.5, 12.0]
+
+    [sweep]                                 # for `sweep`
+    cache = "cache"                         # optional, relative to this file
+    [sweep.axes]
+    flow_L_min = [1.0, 2.0, 4.0]
+
+Every problem is reported as an :class:`~explorer.validators.InputError`
+naming the file, the field, the value and what was expected.
+
+The command functions (``cmd_run``, ``cmd_size``, ``cmd_sweep``) return exit
+codes: 0 done (and every limit met), 1 done but a limit is not met, the
+sizing found no feasible value or a case failed, 2 bad input.
+"""
+
+from __future__ import annotations
+
+import inspect
+import json
+import math
+import sys
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from explorer.limits import Limits
+from explorer.validators import InputError
+
+# Step functions of explorer.duty a scenario may use.
+DUTY_STEPS = ("discharge", "charge", "hold_voltage", "rest", "profile_csv", "cc_cv_charge",
+              "repeat")
+DESIGNS = ("convection", "face_plate", "edge_plate", "tab_cooling")
+PLATES = ("cold_plate", "fixed_sink")
+MODEL_KEYS = ("electrochemistry", "layout", "start_soc", "start_temperature_C", "grid",
+              "position", "output_interval_s", "mesh")
+TABLES = ("scenario", "model", "duty", "cooling", "limits", "size", "sweep")
+SIZE_KEYS = ("vary", "bounds", "samples", "rtol", "spacing", "max_evaluations", "positions")
+SWEEP_KEYS = ("axes", "cache", "keep_fields", "trace_interval_s")
+
+
+class ScenarioError(InputError):
+    """A problem in a scenario file (the message names file, field, value, expectation)."""
+
+
+@dataclass
+class Scenario:
+    """A loaded scenario: everything the commands need, validated."""
+
+    path: Path
+    name: str
+    description: str
+    cell: object
+    duty: list
+    cooling: object
+    model: dict = field(default_factory=dict)
+    limits: Limits | None = None
+    size: dict | None = None
+    sweep: dict | None = None
+
+
+# --------------------------------------------------------------------------- loading
+
+
+def load_scenario(path) -> Scenario:
+    """Read and validate a scenario file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+
+    Returns
+    -------
+    Scenario
+
+    Raises
+    ------
+    ScenarioError
+        Naming the file, the field, the value and what was expected.
+    """
+    path = Path(path)
+    where = str(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ScenarioError(f"{where}: no such scenario file") from None
+    except OSError as exc:
+        raise ScenarioError(f"{where}: cannot read the scenario file ({exc.strerror})") from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ScenarioError(f"{where}: not valid TOML ({exc})") from None
+    _unknown(where, "", raw, TABLES)
+    head = _table(where, raw, "scenario", required=True)
+    _unknown(where, "scenario", head, ("name", "description", "cell"))
+    if "cell" not in head:
+        raise ScenarioError(f"{where}: `scenario.cell` is missing; expected a demo cell name or "
+                            "a cell file path")
+    cell = _load_cell(where, path, head["cell"])
+    model = _model(where, _table(where, raw, "model"))
+    duty = _duty(where, path, raw.get("duty"))
+    cooling = _cooling(where, raw["cooling"]) if "cooling" in raw else None
+    limits = _limits(where, raw["limits"]) if "limits" in raw else None
+    size = _size(where, raw["size"]) if "size" in raw else None
+    sweep = _sweep(where, path, raw["sweep"]) if "sweep" in raw else None
+    return Scenario(path=path, name=str(head.get("name", path.stem)),
+                    description=str(head.get("description", "")), cell=cell, duty=duty,
+                    cooling=cooling, model=model, limits=limits, size=size, sweep=sweep)
+
+
+def _table(where, raw, name, required=False) -> dict:
+    value = raw.get(name)
+    if value is None:
+        if required:
+            raise ScenarioError(f"{where}: the table `[{name}]` is missing")
+        return {}
+    if not isinstance(value, dict):
+        raise ScenarioError(f"{where}: `{name}` must be a table `[{name}]`, got {value!r}")
+    return value
+
+
+def _unknown(where, prefix, table, allowed) -> None:
+    for key in table:
+        if key not in allowed:
+            name = f"{prefix}.{key}" if prefix else key
+            raise ScenarioError(f"{where}: unknown field `{name}`; expected one of "
+                                f"{', '.join(allowed)}")
+
+
+def _load_cell(where, path, value):
+    from explorer.cell import load_cell
+
+    if not isinstance(value, str) or not value.strip():
+        raise ScenarioError(f"{where}: `scenario.cell` = {value!r}; expected a demo cell name "
+                            "or a cell file path")
+    candidate = Path(value)
+    if candidate.suffix or "/" in value or "\\" in value:
+        candidate = candidate if candidate.is_absolute() else path.parent / candidate
+        return load_cell(candidate)
+    return load_cell(value)
+
+
+def _model(where, table) -> dict:
+    _unknown(where, "model", table, MODEL_KEYS)
+    model = dict(table)
+    if "grid" in model:
+        grid = model["grid"]
+        if not (isinstance(grid, list) and len(grid) == 2 and all(isinstance(v, int) for v in grid)):
+            raise ScenarioError(f"{where}: `model.grid` = {grid!r}; expected two whole numbers "
+                                "[nx, ny]")
+        model["grid"] = tuple(grid)
+    for key in ("start_soc", "start_temperature_C", "output_interval_s"):
+        if key in model:
+            _number(where, f"model.{key}", model[key])
+    return model
+
+
+def _number(where, name, value) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        raise ScenarioError(f"{where}: `{name}` = {value!r}; expected a finite number")
+    return float(value)
+
+
+def _call(where, name, fn, kwargs, skip=()):
+    """Call a public constructor with the file's keywords, naming the field on failure."""
+    params = [p for p in inspect.signature(fn).parameters if p not in skip]
+    for key in kwargs:
+        if key not in params:
+            raise ScenarioError(f"{where}: unknown field `{name}.{key}`; expected one of "
+                                f"{', '.join(params)}")
+    try:
+        return fn(**kwargs)
+    except InputError as exc:
+        raise ScenarioError(f"{where}: `{name}`: {exc}") from None
+    except TypeError as exc:
+        raise ScenarioError(f"{where}: `{name}`: {exc}") from None
+
+
+def _duty(where, path, steps) -> list:
+    if steps is None:
+        raise ScenarioError(f"{where}: no duty; expected at least one `[[duty]]` table with "
+                            f"`step` = one of {', '.join(DUTY_STEPS)}")
+    if not isinstance(steps, list) or not steps:
+        raise ScenarioError(f"{where}: `duty` must be an array of tables `[[duty]]`, got "
+                            f"{steps!r}")
+    out = []
+    for i, step in enumerate(steps):
+        out.extend(_step(where, path, f"duty[{i}]", step))
+    return out
+
+
+def _step(where, path, name, step) -> list:
+    from explorer import duty as duty_mod
+
+    if not isinstance(step, dict):
+        raise ScenarioError(f"{where}: `{name}` must be a table, got {step!r}")
+    kind = step.get("step")
+    if kind not in DUTY_STEPS:
+        raise ScenarioError(f"{where}: `{name}.step` = {kind!r}; expected one of "
+                            f"{', '.join(DUTY_STEPS)}")
+    kwargs = {k: v for k, v in step.items() if k != "step"}
+    if kind == "repeat":
+        _unknown(where, name, kwargs, ("times", "steps"))
+        inner = kwargs.get("steps")
+        if not isinstance(inner, list) or not inner:
+            raise ScenarioError(f"{where}: `{name}.steps` = {inner!r}; expected a list of step "
+                                "tables")
+        body = [s for j, t in enumerate(inner) for s in _step(where, path, f"{name}.steps[{j}]", t)]
+        return _call(where, name, duty_mod.repeat, {"steps": body, "times": kwargs.get("times")})
+    if kind == "profile_csv" and isinstance(kwargs.get("path"), str):
+        p = Path(kwargs["path"])
+        kwargs["path"] = p if p.is_absolute() else path.parent / p
+    result = _call(where, name, getattr(duty_mod, kind), kwargs)
+    return list(result) if isinstance(result, list) else [result]
+
+
+def _cooling(where, table):
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `cooling` must be a table `[cooling]`, got {table!r}")
+    extra = table.get("with", [])
+    if not isinstance(extra, list):
+        raise ScenarioError(f"{where}: `cooling.with` must be an array of tables "
+                            f"`[[cooling.with]]`, got {extra!r}")
+    main = _design(where, "cooling", {k: v for k, v in table.items() if k != "with"})
+    parts = [_design(where, f"cooling.with[{i}]", t) for i, t in enumerate(extra)]
+    if not parts:
+        return main
+    from explorer import cooling as cooling_mod
+
+    return _call(where, "cooling", lambda: cooling_mod.combine(main, *parts), {})
+
+
+def _design(where, name, table):
+    from explorer import cooling as cooling_mod
+
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `{name}` must be a table, got {table!r}")
+    kind = table.get("design")
+    if kind not in DESIGNS:
+        raise ScenarioError(f"{where}: `{name}.design` = {kind!r}; expected one of "
+                            f"{', '.join(DESIGNS)}")
+    kwargs = {k: v for k, v in table.items() if k != "design"}
+    if kind in ("face_plate", "edge_plate"):
+        if "plate" not in kwargs:
+            raise ScenarioError(f"{where}: `{name}.plate` is missing; a {kind} needs a "
+                                f"`[{name}.plate]` table with `kind` = one of {', '.join(PLATES)}")
+        kwargs["plate"] = _plate(where, f"{name}.plate", kwargs["plate"])
+    return _call(where, name, getattr(cooling_mod, kind), kwargs)
+
+
+def _plate(where, name, table):
+    from explorer import cooling as cooling_mod
+
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `{name}` must be a table, got {table!r}")
+    kind = table.get("kind", "cold_plate")
+    if kind not in PLATES:
+        raise ScenarioError(f"{where}: `{name}.kind` = {kind!r}; expected one of "
+                            f"{', '.join(PLATES)}")
+    kwargs = {k: v for k, v in table.items() if k != "kind"}
+    return _call(where, name, getattr(cooling_mod, kind), kwargs)
+
+
+def _limits(where, table) -> Limits:
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `limits` must be a table `[limits]`, got {table!r}")
+    return _call(where, "limits", Limits, table)
+
+
+def _size(where, table) -> dict:
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `size` must be a table `[size]`, got {table!r}")
+    _unknown(where, "size", table, SIZE_KEYS)
+    if not isinstance(table.get("vary"), str):
+        raise ScenarioError(f"{where}: `size.vary` = {table.get('vary')!r}; expected the name "
+                            "of a cooling design parameter, e.g. \"flow_L_min\"")
+    bounds = table.get("bounds")
+    if not (isinstance(bounds, list) and len(bounds) == 2):
+        raise ScenarioError(f"{where}: `size.bounds` = {bounds!r}; expected [lo, hi]")
+    for k, b in enumerate(bounds):
+        _number(where, f"size.bounds[{k}]", b)
+    if bounds[0] >= bounds[1]:
+        raise ScenarioError(f"{where}: `size.bounds` = {bounds!r}; expected lo < hi")
+    return dict(table)
+
+
+def _sweep(where, path, table) -> dict:
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `sweep` must be a table `[sweep]`, got {table!r}")
+    _unknown(where, "sweep", table, SWEEP_KEYS)
+    axes = table.get("axes")
+    if not isinstance(axes, dict) or not axes:
+        raise ScenarioError(f"{where}: `sweep.axes` = {axes!r}; expected a table "
+                            "`[sweep.axes]` of name = [values]")
+    for name, values in axes.items():
+        if not isinstance(values, list) or not values:
+            raise ScenarioError(f"{where}: `sweep.axes.{name}` = {values!r}; expected a "
+                                "non-empty list of numbers")
+        for k, v in enumerate(values):
+            _number(where, f"sweep.axes.{name}[{k}]", v)
+    out = {"axes": axes, "keep_fields": bool(table.get("keep_fields", False))}
+    if "cache" in table:
+        if not isinstance(table["cache"], str):
+            raise ScenarioError(f"{where}: `sweep.cache` = {table['cache']!r}; expected a "
+                                "folder path")
+        cache = Path(table["cache"])
+        out["cache_dir"] = cache if cache.is_absolute() else path.parent / cache
+    if "trace_interval_s" in table:
+        out["trace_interval_s"] = _number(where, "sweep.trace_interval_s",
+                                          table["trace_interval_s"])
+    return out
+
+
+# --------------------------------------------------------------------------- commands
+
+
+def _out_dir(scenario: Scenario, out) -> Path:
+    return Path(out) if out is not None else scenario.path.parent
+
+
+def _guard(fn):
+    """Turn bad input into exit code 2 with the message on stderr."""
+
+    def wrapper(*args, **kwargs):
+        try:
+            return fn(*args, **kwargs)
+        except InputError as exc:
+            print(f"error: {exc}", file=sys.stderr)
+            return 2
+
+    wrapper.__name__, wrapper.__doc__ = fn.__name__, fn.__doc__
+    return wrapper
+
+
+@_guard
+def cmd_run(scenario, out=None) -> int:
+    """Simulate a scenario and write ``<name>_run.nc`` into ``out`` (default: beside it).
+
+    Prints the key figures, the limits with their margins, the pressure drop
+    and pump power. Returns 0 (completed, limits met), 1 (a limit not met or
+    the run failed) or 2 (bad input).
+    """
+    from explorer.results import key_figures
+    from explorer.simulate import simulate
+    from explorer.sizing import run_hydraulics
+    from explorer.sweep import write_netcdf
+
+    sc = load_scenario(scenario)
+    ds = simulate(sc.cell, sc.duty, sc.cooling, **sc.model)
+    path = write_netcdf(ds, _out_dir(sc, out) / f"{sc.path.stem}_run.nc")
+    fig = key_figures(ds)
+    hyd = run_hydraulics(ds) or {}
+    lines = [f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}",
+             f"status: {ds.attrs.get('status')} {ds.attrs.get('status_message', '')}".rstrip()]
+    for key, unit in (("peak_temperature_C", "degC"), ("max_spread_K", "K"), ("end_soc", "1"),
+                      ("energy_delivered_Wh", "Wh"), ("heat_generated_J", "J"),
+                      ("heat_rejected_J", "J"), ("duration_s", "s")):
+        lines.append(f"{key:<24}{fig[key]:>12.4g}  {unit}")
+    ok = ds.attrs.get("status") != "failed"
+    if sc.limits is not None:
+        check = sc.limits.check(ds, hyd)
+        lines.append(_limits_table(sc.limits, check))
+        ok = ok and check["met"]
+    lines.extend(_hydraulics_lines(hyd))
+    lines.append(f"wrote {path}")
+    _print(lines)
+    return 0 if ok else 1
+
+
+@_guard
+def cmd_size(scenario, out=None) -> int:
+    """Size the scenario's ``[size]`` parameter against its ``[limits]``.
+
+    Writes ``<name>_size.nc`` (the run at the design value) and
+    ``<name>_size_curve.nc`` (the figures against the value). Returns 0 when
+    a feasible value was found, 1 when none in the bounds meets the limits,
+    2 for bad input.
+    """
+    from explorer.sizing import size_cooling
+    from explorer.sweep import write_netcdf
+
+    sc = load_scenario(scenario)
+    where = str(sc.path)
+    if sc.size is None:
+        raise ScenarioError(f"{where}: no `[size]` table; expected `vary` and `bounds`")
+    if sc.limits is None:
+        raise ScenarioError(f"{where}: no `[limits]` table; sizing needs limits to meet")
+    if sc.cooling is None:
+        raise ScenarioError(f"{where}: no `[cooling]` table; sizing varies a cooling design")
+    options = {k: v for k, v in sc.size.items() if k not in ("vary", "bounds")}
+    res = size_cooling(sc.cell, sc.duty, sc.cooling, sc.size["vary"], tuple(sc.size["bounds"]),
+                       sc.limits, **options, **sc.model)
+    folder = _out_dir(sc, out)
+    run_path = write_netcdf(res.dataset, folder / f"{sc.path.stem}_size.nc")
+    curve = res.curve.copy()
+    curve.attrs.update({"design_value": res.value, "feasible": int(res.feasible),
+                        "message": res.message, "cell_name": sc.cell.name,
+                        "cooling": json.dumps(res.design.describe(), default=str)})
+    curve_path = write_netcdf(curve, folder / f"{sc.path.stem}_size_curve.nc")
+    _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", res.table(),
+            f"wrote {run_path}", f"wrote {curve_path}"])
+    return 0 if res.feasible else 1
+
+
+@_guard
+def cmd_sweep(scenario, out=None, scheduler=None) -> int:
+    """Sweep the scenario's ``[sweep.axes]``; writes ``<name>_sweep.nc``.
+
+    ``scheduler``: None for a local Dask cluster, "serial", or the address of
+    a running scheduler. Returns 0 when every case ran, 1 when a case failed,
+    2 for bad input.
+    """
+    from explorer.sweep import sweep, write_netcdf
+
+    sc = load_scenario(scenario)
+    if sc.sweep is None:
+        raise ScenarioError(f"{sc.path}: no `[sweep]` table; expected `[sweep.axes]`")
+    options = {k: v for k, v in sc.sweep.items() if k != "axes"}
+    ds = sweep(sc.cell, sc.duty, sc.cooling, sc.sweep["axes"], scheduler=scheduler,
+               limits=sc.limits, **options, **sc.model)
+    path = write_netcdf(ds, _out_dir(sc, out) / f"{sc.path.stem}_sweep.nc")
+    _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", sweep_table(ds),
+            f"wrote {path}"])
+    return 0 if ds.attrs["cases_failed"] == 0 else 1
+
+
+def sweep_table(ds) -> str:
+    """One line per case: the axis values, peak temperature, spread, hydraulics, status."""
+    axes = list(json.loads(ds.attrs["axes"]))
+    cols = [("peak_temperature_C", "peak degC"), ("max_spread_K", "spread K"),
+            ("end_soc", "end SOC"), ("pressure_drop_kPa", "dp kPa"), ("pump_power_W", "pump W")]
+    head = "".join(f"{a:>14}" for a in axes) + "".join(f"{c[1]:>11}" for c in cols)
+    head += "   meets" if "meets_limits" in ds else ""
+    lines = [head + "   status"]
+    stacked = ds[[c for c, _ in cols] + ["case_status"] +
+                 (["meets_limits"] if "meets_limits" in ds else [])].stack(case=axes)
+    for k in range(stacked.sizes["case"]):
+        row = stacked.isel(case=k)
+        text = "".join(f"{float(row[a]):>14.4g}" for a in axes)
+        text += "".join(f"{float(row[c]):>11.4g}" for c, _ in cols)
+        if "meets_limits" in ds:
+            text += f"{'yes' if int(row['meets_limits']) else 'no':>8}"
+        lines.append(text + f"   {row['case_status'].item()}")
+    return "\n".join(lines)
+
+
+def _limits_table(limits: Limits, check: dict) -> str:
+    from explorer.limits import UNITS
+
+    lines = [f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  unit"]
+    for name, margin in check["margins"].items():
+        lines.append(f"{name:<24}{getattr(limits, name):>12.4g}{check['figures'][name]:>12.4g}"
+                     f"{margin:>12.4g}  {UNITS[name]}")
+    lines.append("limits met" if check["met"] else f"LIMIT NOT MET: {check['worst']}")
+    return "\n".join(lines)
+
+
+def _hydraulics_lines(hyd: dict) -> list[str]:
+    lines = []
+    if hyd.get("pressure_drop_Pa") is not None:
+        lines.append(f"{'pressure drop':<24}{hyd['pressure_drop_Pa'] / 1e3:>12.4g}  kPa")
+    if hyd.get("pump_power_W") is not None:
+        lines.append(f"{'pump power':<24}{hyd['pump_power_W']:>12.4g}  W")
+    lines.extend(f"warning: {w}" for w in hyd.get("warnings", []) or [])
+    return lines
+
+
+def _print(lines) -> None:
+    from explorer.results import CAUTION
+
+    print("\n".join(lines))
+    print(f"note: {CAUTION}")
