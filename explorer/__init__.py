@@ -20,9 +20,16 @@ Results inform design; they do not certify it (see ``explorer.results.CAUTION``)
 
 __version__ = "0.1.0"
 
+from explorer import cell, duty, results, validators  # noqa: E402
+from explorer.cell import load_cell  # noqa: E402
+from explorer.results import open_results  # noqa: E402
+from explorer.simulate import simulate  # noqa: E402
 
 __all__ = [
     "__version__",
+    "cell",
+    "results",
+    "validators",
     "load_cell",
     "duty",
     "cooling",
@@ -36,10 +43,6 @@ __all__ = [
 
 # Heavier or optional parts load on first use (Dask, ipywidgets, CoolProp).
 _LAZY = {
-    "duty": ("explorer.duty", None),
-    "load_cell": ("explorer.cell", "load_cell"),
-    "simulate": ("explorer.simulate", "simulate"),
-    "open_results": ("explorer.results", "open_results"),
     "cooling": ("explorer.cooling", None),
     "Limits": ("explorer.limits", "Limits"),
     "size_cooling": ("explorer.sizing", "size_cooling"),

@@ -1,0 +1,156 @@
+"""End-to-end runs through ``explorer.simulate``: the Dataset contract, conservation, end
+conditions located without overshoot, clean stops."""
+
+import math
+
+import numpy as np
+import pytest
+
+import explorer
+from explorer import duty
+from explorer.inplane.sinks import FaceSink, Sinks
+from explorer.results import key_figures, open_results, save
+
+DEMOS = sorted(explorer.cell.list_demo_cells())
+
+
+@pytest.fixture(scope="module")
+def cell():
+    return explorer.load_cell(DEMOS[0])
+
+
+@pytest.fixture(scope="module")
+def discharge_1c(cell):
+    return explorer.simulate(cell, duty.discharge(c_rate=1.0), layout="single")
+
+
+def _integral(ds, name):
+    t = ds.time.values
+    return float(np.sum(ds[name].values[1:] * np.diff(t)))
+
+
+def test_dataset_contract(discharge_1c, cell):
+    ds = discharge_1c
+    for name, dims, units in [("voltage", ("time",), "V"), ("current", ("time",), "A"),
+                              ("temperature", ("time", "y", "x"), "degC"),
+                              ("soc", ("time", "y", "x"), "1"),
+                              ("heat_flux", ("time", "y", "x"), "W m-2"),
+                              ("heat_total", ("time",), "W"),
+                              ("temperature_max", ("time",), "degC"),
+                              ("temperature_min", ("time",), "degC")]:
+        assert ds[name].dims == dims
+        assert ds[name].attrs["units"] == units and ds[name].attrs["long_name"]
+    assert ds.sizes["x"] == 1 and ds.sizes["y"] == 1  # single layout: 1 x 1 grid
+    for key in ("tool_version", "cell_name", "cell_sha256", "electrochemistry", "layout",
+                "heat_capacity_J_per_K", "status"):
+        assert key in ds.attrs
+    assert ds.attrs["status"] == "completed"
+    assert len(ds.attrs["cell_sha256"]) == 64
+    split = sum(ds[f"heat_{k}"] for k in ("irreversible", "reversible", "ohmic_electrolyte",
+                                          "ohmic_solid", "collector", "tab"))
+    np.testing.assert_allclose(split, ds.heat_total, rtol=1e-12, atol=1e-12)
+    assert float(ds.current[1]) > 0  # positive on discharge
+
+
+def test_end_voltage_located_without_overshoot(discharge_1c, cell):
+    """The lower voltage limit ends the step within 1 mV (issue requirement)."""
+    v_end = float(discharge_1c.voltage[-1])
+    assert abs(v_end - cell.voltage_min_V) <= 1e-3
+
+
+def test_adiabatic_energy_balance(discharge_1c):
+    """First law for a closed adiabatic body: generated heat = C dT (within 0.5 %)."""
+    ds = discharge_1c
+    generated = _integral(ds, "heat_total")
+    stored = ds.attrs["heat_capacity_J_per_K"] * float(ds.temperature_mean[-1] - ds.temperature_mean[0])
+    assert generated == pytest.approx(stored, rel=5e-3)
+
+
+def test_electrical_energy_plus_heat_equals_ocv_energy(discharge_1c, cell):
+    """Energy conservation (Bernardi, Pawlikowski & Newman 1985, eq. for q = I(U - V) - I T dU/dT):
+    electrical work + (heat - reversible heat) = the integral of I * OCV, within 1 %."""
+    ds = discharge_1c
+    electrical = _integral(ds, "power")
+    irreversible = _integral(ds, "heat_total") - _integral(ds, "heat_reversible")
+    ocv_energy = float(np.sum((ds.current * ds.ocv).values[1:] * np.diff(ds.time.values)))
+    assert electrical + irreversible == pytest.approx(ocv_energy, rel=1e-2)
+
+
+def test_charge_passed_equals_soc_change(discharge_1c, cell):
+    """Charge conservation: the charge passed equals the SOC change times the usable capacity."""
+    ds = discharge_1c
+    charge_Ah = _integral(ds, "current") / 3600
+    dsoc = float(ds.soc_mean[0] - ds.soc_mean[-1])
+    assert charge_Ah == pytest.approx(dsoc * cell.derived.theoretical_capacity_Ah, rel=1e-3)
+
+
+def test_lithium_conserved(discharge_1c):
+    """Cyclable lithium in the solid phase is constant: what leaves one electrode enters the other."""
+    li = discharge_1c.lithium.values
+    assert np.max(np.abs(li - li[0])) <= 1e-6 * li[0]
+
+
+def test_slow_discharge_delivers_computed_capacity(cell):
+    """A C/20 discharge delivers the cell's computed capacity within 2 % (Faraday's law on the
+    stoichiometry windows; issue requirement)."""
+    ds = explorer.simulate(cell, duty.discharge(c_rate=0.05), layout="single",
+                           output_interval_s=600.0)
+    assert key_figures(ds)["charge_delivered_Ah"] == pytest.approx(
+        cell.derived.theoretical_capacity_Ah, rel=0.02)
+
+
+def test_cc_cv_charge_ends_at_end_current(cell):
+    ds = explorer.simulate(cell, duty.cc_cv_charge(1.0, end_c_rate=0.05), layout="single",
+                           start_soc=0.3)
+    assert ds.attrs["status"] == "completed"
+    end_current = 0.05 * cell.nominal_capacity_Ah
+    assert abs(float(ds.current[-1])) == pytest.approx(end_current, rel=2e-3)
+    cv = ds.where(ds.step == 1, drop=True)
+    np.testing.assert_allclose(cv.voltage, cell.voltage_max_V, atol=1e-6)
+
+
+def test_lumped_convective_cooling_follows_the_exponential(cell):
+    """Lumped capacitance (Incropera & DeWitt, Fundamentals of Heat and Mass Transfer, §5.2,
+    eq. 5.6): a warm body at rest cools as exp(-h A t / (rho V c)); within 1 %."""
+    h, ambient, T0 = 15.0, 20.0, 45.0
+    sinks = Sinks(faces={f: FaceSink(h, ambient) for f in ("front", "back")})
+    ds = explorer.simulate(cell, duty.rest(1800), sinks, layout="single", start_soc=0.5,
+                           start_temperature_C=T0, output_interval_s=2.0)
+    area = 2 * cell.geometry.width_m * cell.geometry.height_m
+    tau = ds.attrs["heat_capacity_J_per_K"] / (h * area)
+    expected = ambient + (T0 - ambient) * np.exp(-ds.time.values / tau)
+    np.testing.assert_allclose(ds.temperature_mean.values - ambient, expected - ambient, rtol=1e-2)
+
+
+def test_undeliverable_power_stops_cleanly_and_keeps_results(cell):
+    ds = explorer.simulate(cell, duty.discharge(power_W=1e6), layout="single")
+    assert ds.attrs["status"] in ("failed", "stopped")
+    assert "power" in ds.attrs["status_message"]
+    assert ds.sizes["time"] >= 1
+
+
+def test_temperature_end_condition(cell):
+    ds = explorer.simulate(cell, duty.discharge(c_rate=2.0, end_temperature_C=30.0),
+                           layout="single")
+    assert float(ds.temperature_max[-1]) == pytest.approx(30.0, abs=1e-2)
+
+
+def test_save_and_open_round_trip(discharge_1c, tmp_path):
+    path = save(discharge_1c, tmp_path / "run.nc")
+    back = open_results(path)
+    assert back.attrs == discharge_1c.attrs
+    for name in discharge_1c.data_vars:
+        np.testing.assert_array_equal(back[name].values, discharge_1c[name].values)
+        assert back[name].attrs == discharge_1c[name].attrs
+    assert not list(tmp_path.glob("*.part"))
+
+
+@pytest.mark.parametrize("kwargs, match", [
+    ({"electrochemistry": "p3d"}, "electrochemistry"),
+    ({"layout": "grid"}, "layout"),
+    ({"start_soc": 1.5}, "start_soc"),
+    ({"start_temperature_C": math.nan}, "start_temperature_C"),
+])
+def test_bad_settings(cell, kwargs, match):
+    with pytest.raises(explorer.validators.InputError, match=match):
+        explorer.simulate(cell, duty.discharge(c_rate=1), **kwargs)
