@@ -92,7 +92,7 @@ def solve_current(voltage_of, kind, value, guess, scale, tol_V=1e-9, max_iter=60
         d = (gp - gi) / h if math.isfinite(gp) else (gi - g(i - h)) / h
         if not math.isfinite(d) or d == 0.0:
             raise RodStepError(f"{kind} control: the voltage does not respond to the current")
-        if kind == "power" and d * (1.0 if value >= 0 else -1.0) <= 0.0:
+        if kind == "power" and d <= 0.0:  # past the peak of I V(I)
             raise RodStepError(f"power control: {value:g} W is beyond the power the cell can "
                                "deliver at this state")
         step = -gi / d

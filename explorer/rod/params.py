@@ -33,6 +33,7 @@ SOC = 1 keeps the cyclable lithium the same at every SOC.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -264,7 +265,7 @@ class RodParameters:
                              f"got {el.transference_number!r}")
 
     # ---- capacities and SOC ----------------------------------------------------------------
-    @property
+    @cached_property
     def capacity_Ah(self) -> float:
         """Usable capacity: the smaller of the two electrodes' window capacities."""
         return min(self.window_capacity_C(e) for e in (self.negative, self.positive)) / 3600.0
@@ -279,11 +280,13 @@ class RodParameters:
         return (n.stoichiometry_100 - q / n.full_capacity_C(self.area_m2),
                 p.stoichiometry_100 + q / p.full_capacity_C(self.area_m2))
 
+    @cached_property
+    def _soc_per_sto_n(self) -> float:
+        return self.negative.full_capacity_C(self.area_m2) / (self.capacity_Ah * 3600.0)
+
     def soc_from_negative(self, sto_n_bulk: float) -> float:
         """SOC from the negative electrode's bulk-average stoichiometry."""
-        n = self.negative
-        q = (n.stoichiometry_100 - sto_n_bulk) * n.full_capacity_C(self.area_m2)
-        return 1.0 - q / (self.capacity_Ah * 3600.0)
+        return 1.0 - (self.negative.stoichiometry_100 - sto_n_bulk) * self._soc_per_sto_n
 
     @property
     def total_thickness_m(self) -> float:

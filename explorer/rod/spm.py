@@ -27,7 +27,7 @@ from explorer.rod.control import check_control, solve_current
 from explorer.rod.heat import heat_split
 from explorer.rod.kinetics import exchange_current, overpotential
 from explorer.rod.mesh import RodMesh
-from explorer.rod.params import FARADAY, RodParameters
+from explorer.rod.params import FARADAY, REFERENCE_K, RodParameters
 from explorer.rod.particle import SphereShells
 from explorer.validators import InputError
 
@@ -88,6 +88,8 @@ class SPM(RodModel):
         self._solid_m3 = tuple(e.active_fraction * e.thickness_m * A for e in self._electrodes)
         self.current_1C_A = params.capacity_Ah
         self.size = 2 * self.nr + self._extra_size() + 1
+        self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
+        self._ops: dict = {}
 
     # ---- hooks the SPMe extends ------------------------------------------------------------
     def _extra_size(self) -> int:
@@ -137,45 +139,70 @@ class SPM(RodModel):
         return li["negative"] + li["positive"]
 
     # ---- stepping ------------------------------------------------------------------------
-    def _prepare(self, x, dt, T):
-        """Parts of the step that do not depend on the current: surfaces are a + b I."""
-        nr = self.nr
-        pre = {"T": T, "dt": dt, "x": x}
-        surf = []
+    def _blocks(self, dt, T):
+        """Linear step blocks ``(P, q_per_A)`` of the state parts, in state order."""
+        blocks = []
         for k, e in enumerate(self._electrodes):
-            prop = self.shells.propagator(e.diffusivity(T), e.particle_radius_m, dt)
-            c_old = x[k * nr:(k + 1) * nr]
-            surf.append((float(c_old @ prop.s), prop.s_q * self._flux_per_A[k], prop, c_old))
-        pre["surf"] = surf
-        pre["rate"] = (self._electrodes[0].rate(T), self._electrodes[1].rate(T))
-        return pre
+            pr = self.shells.propagator(e.diffusivity(T), e.particle_radius_m, dt)
+            blocks.append((pr.P, pr.q * self._flux_per_A[k]))
+        return blocks
 
-    def _electrolyte_terms(self, pre, I, cs):
+    def _constants(self, T):
+        """Temperature-dependent constants of the voltage terms."""
+        n, p = self._electrodes
+        return {"rate": (n.rate(T), p.rate(T))}
+
+    def _operator(self, dt, T):
+        """The whole step's linear part: ``new = P @ old + q I``, cached per (dt, T)."""
+        key = (dt, T)
+        op = self._ops.get(key)
+        if op is not None:
+            return op
+        blocks = self._blocks(dt, T)
+        m = sum(b[0].shape[0] for b in blocks)
+        P = np.zeros((m, m))
+        q = np.empty(m)
+        i = 0
+        for Pb, qb in blocks:
+            k = Pb.shape[0]
+            P[i:i + k, i:i + k] = Pb
+            q[i:i + k] = qb
+            i += k
+        # surface = value of the outer shell minus the extrapolation to the surface
+        surf_q = np.empty(2)
+        for k, e in enumerate(self._electrodes):
+            extra = e.particle_radius_m * self.shells.surface_distance / e.diffusivity(T)
+            surf_q[k] = q[self._outer[k]] - extra * self._flux_per_A[k]
+        op = {"P": P, "q": q, "surf_q": surf_q, "T": T, **self._constants(T)}
+        if len(self._ops) > 8:
+            self._ops.clear()
+        self._ops[key] = op
+        return op
+
+    def _electrolyte_terms(self, op, base, I, cs):
         """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal electrolyte."""
         c0 = self.params.electrolyte.initial_concentration_mol_m3
-        T = pre["T"]
+        T = op["T"]
         etas = []
         for k, e in enumerate(self._electrodes):
-            j0 = exchange_current(pre["rate"][k], c0, cs[k], e.max_concentration_mol_m3,
+            j0 = exchange_current(op["rate"][k], c0, cs[k], e.max_concentration_mol_m3,
                                   e.charge_transfer_coefficient)
             etas.append(float(overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)))
         return etas[0], etas[1], 0.0, 0.0, 0.0, 0.0
 
-    def _evaluate(self, pre, I, R, full=False):
-        T = pre["T"]
-        cs = []
+    def _evaluate(self, op, base, I, R, full=False):
+        """Terminal voltage at current ``I`` (NaN outside the physical range), or all details."""
+        T = op["T"]
+        cs = (base[self._outer[0]] + I * op["surf_q"][0], base[self._outer[1]] + I * op["surf_q"][1])
         for k, e in enumerate(self._electrodes):
-            a, b = pre["surf"][k][:2]
-            c = a + b * I
-            if not 0.0 < c < e.max_concentration_mol_m3:
+            if not 0.0 < cs[k] < e.max_concentration_mol_m3:
                 if full:
                     raise RodStepError(
                         f"{self.name}: the {e.name} particle surface would reach stoichiometry "
-                        f"{c / e.max_concentration_mol_m3:.4f} (outside (0, 1)) at {I:.4g} A "
+                        f"{cs[k] / e.max_concentration_mol_m3:.4f} (outside (0, 1)) at {I:.4g} A "
                         "within this step; reduce the step or the current")
                 return math.nan
-            cs.append(c)
-        terms = self._electrolyte_terms(pre, I, cs)
+        terms = self._electrolyte_terms(op, base, I, cs)
         if terms is None:
             if full:
                 raise RodStepError(f"{self.name}: the electrolyte would be depleted at {I:.4g} A "
@@ -185,44 +212,41 @@ class SPM(RodModel):
         n, p = self._electrodes
         sto_n = cs[0] / n.max_concentration_mol_m3
         sto_p = cs[1] / p.max_concentration_mol_m3
-        ocv = float(p.potential(sto_p, T) - n.potential(sto_n, T))
+        dT = T - REFERENCE_K
+        ds_n, ds_p = float(n.entropic(sto_n)), float(p.entropic(sto_p))
+        ocv = float(p.ocp.potential(sto_p) - n.ocp.potential(sto_n)) + (ds_p - ds_n) * dT
         v_rod = ocv + eta_p - eta_n + dphi_e - solid_drop
         v_term = v_rod - I * R
         if not full:
             return v_term
-        return {"cs": cs, "sto": (sto_n, sto_p), "ocv": ocv, "v_rod": v_rod, "v_term": v_term,
-                "eta": (eta_n, eta_p), "terms": terms}
-
-    def _new_state(self, pre, I):
-        x = np.empty(self.size)
-        nr = self.nr
-        for k in range(2):
-            prop, c_old = pre["surf"][k][2:]
-            x[k * nr:(k + 1) * nr] = c_old @ prop.P.T + (I * self._flux_per_A[k]) * prop.q
-        x[-1] = I
-        return x
+        return {"sto": (sto_n, sto_p), "ocv": ocv, "v_term": v_term, "eta": (eta_n, eta_p),
+                "dudt": (ds_n, ds_p), "terms": terms}
 
     def solve_step(self, state, dt, temperature_K, control, series_resistance_ohm=0.0) -> StepResult:
         kind, value = check_control(control)
         dt, T, R = check_step_inputs(dt, temperature_K, series_resistance_ohm)
         x = self._check_state(state)
-        pre = self._prepare(x, dt, T)
+        op = self._operator(dt, T)
+        base = op["P"] @ x[:-1]  # the new state at zero current
         if kind == "current":
             current = value
         else:
             guess = x[-1] if kind == "voltage" else 0.0
-            current = solve_current(lambda i: self._evaluate(pre, i, R), kind, value, guess,
+            current = solve_current(lambda i: self._evaluate(op, base, i, R), kind, value, guess,
                                     self.current_1C_A)
-        out = self._evaluate(pre, current, R, full=True)
-        new = self._new_state(pre, current)
-        n, p = self._electrodes
+        out = self._evaluate(op, base, current, R, full=True)
+        new = np.empty(self.size)
+        new[:-1] = base + current * op["q"]
+        new[-1] = current
         eta_n, eta_p = out["eta"]
-        sto_n, sto_p = out["sto"]
+        ds_n, ds_p = out["dudt"]
         heat = heat_split(
             irreversible=current * (eta_n - eta_p),
-            reversible=current * T * (float(n.entropic(sto_n)) - float(p.entropic(sto_p))),
+            reversible=current * T * (ds_n - ds_p),
             ohmic_electrolyte=out["terms"][4],
             ohmic_solid=out["terms"][5],
         )
+        soc = self.params.soc_from_negative(
+            float(self.shells.weights @ new[:self.nr]) / self.params.negative.max_concentration_mol_m3)
         return StepResult(state=new, current_A=float(current), voltage_V=float(out["v_term"]),
-                          ocv_V=out["ocv"], soc=self.soc(new), heat_W=heat, iterations=1)
+                          ocv_V=out["ocv"], soc=float(soc), heat_W=heat, iterations=1)

@@ -66,7 +66,6 @@ class SPMe(SPM):
         self._shape_per_A = xm.reaction_shape / A  # ionic current at the faces per ampere
         self._solid_drop_per_A = (n.thickness_m / (3.0 * n.solid_conductivity_eff_S_m)
                                   + p.thickness_m / (3.0 * p.solid_conductivity_eff_S_m)) / A
-        self._e_cache: dict = {}
 
     def _extra_size(self) -> int:
         return ThroughMesh(self.params, self.mesh).nx
@@ -74,11 +73,8 @@ class SPMe(SPM):
     def _fill_extra_initial(self, x):
         x[self._ce_slice] = self.params.electrolyte.initial_concentration_mol_m3
 
-    def _electrolyte_propagator(self, dt, T):
-        key = (dt, T)
-        hit = self._e_cache.get(key)
-        if hit is not None:
-            return hit
+    def _blocks(self, dt, T):
+        blocks = super()._blocks(dt, T)
         xm, el = self.x_mesh, self.params.electrolyte
         d_eff = el.diffusion(el.initial_concentration_mol_m3, T) * xm.transport
         g = xm.face_harmonic(d_eff)
@@ -94,47 +90,36 @@ class SPMe(SPM):
         rhs[np.arange(nx), np.arange(nx)] = w
         rhs[:, nx] = self._source_per_A
         sol = solve_banded((1, 1), ab, rhs, check_finite=False)
-        hit = (sol[:, :nx].copy(), sol[:, nx].copy())
-        if len(self._e_cache) > 8:
-            self._e_cache.clear()
-        self._e_cache[key] = hit
-        return hit
+        blocks.append((sol[:, :nx], sol[:, nx]))
+        return blocks
 
-    def _prepare(self, x, dt, T):
-        pre = super()._prepare(x, dt, T)
-        P, q = self._electrolyte_propagator(dt, T)
-        pre["ce"] = (P @ x[self._ce_slice], q)
+    def _constants(self, T):
+        const = super()._constants(T)
         el = self.params.electrolyte
-        pre["kappa_factor"] = el.kappa_factor(T) * self.x_mesh.transport
-        pre["nu"] = el.diffusion_potential_V(T)
-        return pre
+        const["kappa_factor"] = el.kappa_factor(T) * self.x_mesh.transport
+        const["nu"] = el.diffusion_potential_V(T)
+        return const
 
-    def _electrolyte_terms(self, pre, I, cs):
-        a, b = pre["ce"]
-        ce = a + b * I
+    def _electrolyte_terms(self, op, base, I, cs):
+        sl = self._ce_slice
+        ce = base[sl] + I * op["q"][sl]
         if ce.min() <= 0.0:
             return None
-        xm, T = self.x_mesh, pre["T"]
+        xm, T = self.x_mesh, op["T"]
         etas = []
-        for k, (e, sl) in enumerate(zip(self._electrodes, (xm.neg, xm.pos))):
-            j0 = exchange_current(pre["rate"][k], ce[sl], cs[k], e.max_concentration_mol_m3,
+        for k, (e, cells) in enumerate(zip(self._electrodes, (xm.neg, xm.pos))):
+            j0 = exchange_current(op["rate"][k], ce[cells], cs[k], e.max_concentration_mol_m3,
                                   e.charge_transfer_coefficient)
             eta = overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)
-            etas.append(float(eta.mean()))  # equal cells within an electrode
-        kappa = self.params.electrolyte.conductivity(ce) * pre["kappa_factor"]
+            etas.append(float(eta.sum()) / eta.size)  # equal cells within an electrode
+        kappa = self.params.electrolyte.conductivity(ce) * op["kappa_factor"]
         i_face = I * self._shape_per_A
-        dphi = pre["nu"] * np.diff(np.log(ce)) - i_face / xm.face_harmonic(kappa)
+        dphi = op["nu"] * np.diff(np.log(ce)) - i_face / xm.face_harmonic(kappa)
         # <phi>_p - <phi>_n = sum_f shape_f dphi_f (summation by parts on the mesh)
         dphi_e = float(xm.reaction_shape @ dphi)
         solid_drop = I * self._solid_drop_per_A
         ohmic_e = -self.params.area_m2 * float(i_face @ dphi)
         return etas[0], etas[1], dphi_e, solid_drop, ohmic_e, I * solid_drop
-
-    def _new_state(self, pre, I):
-        x = super()._new_state(pre, I)
-        a, b = pre["ce"]
-        x[self._ce_slice] = a + b * I
-        return x
 
     def electrolyte_concentration(self, state) -> np.ndarray:
         """Electrolyte concentration at the cell centres (mol/m^3)."""
