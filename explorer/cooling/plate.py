@@ -70,7 +70,7 @@ class FixedSink:
     Attributes
     ----------
     temperature_C : float
-        Sink (plate or coolant) temperature, degC.
+        Sink (plate or coolant) temperature, degC (-60 to 150).
     h_W_m2K : float
         Heat transfer coefficient from the plate surface the cell (or its TIM)
         touches to the sink temperature, per unit contact area.
@@ -86,6 +86,13 @@ class FixedSink:
 
     def parameters(self) -> dict[str, float]:
         return {"temperature_C": self.temperature_C, "h_W_m2K": self.h_W_m2K}
+
+    def replace(self, **changes) -> FixedSink:
+        """A copy with ``temperature_C`` and/or ``h_W_m2K`` changed."""
+        for k in changes:
+            if k not in ("temperature_C", "h_W_m2K"):
+                raise InputError(f"`{k}`: not a fixed-sink parameter; valid: temperature_C, h_W_m2K")
+        return FixedSink(**{**self.parameters(), **changes})
 
     def describe(self) -> dict:
         return {"kind": "fixed_sink", **self.parameters()}
