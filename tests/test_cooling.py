@@ -355,3 +355,25 @@ def test_coolant_energy_balance_in_the_thermal_model(cell, grid):
         assert model.coolant_inlet_C(state) == pytest.approx(25.0 + k * q / C, rel=1e-9)
         peaks.append(model.temperature_C(state).max())
     assert np.all(np.diff(peaks) > 0)
+
+
+def test_hydraulics_of_designs_scale_with_cells_and_check_fit(cell):
+    """The plate takes one cell's heat times the cells on its coolant (energy balance,
+    Incropera & DeWitt eq. 8.34); with the cell given, plates that do not fit are named."""
+    plate = cooling.cold_plate("water", 4.0, 25.0, cells_per_plate=6, channels=8,
+                               flow_direction="+y", length_mm=300.0)
+    face = cooling.face_plate(plate)
+    h = face.hydraulics(heat_W=20.0)
+    assert h["cell_heat_W"] == 20.0 and h["plate_heat_W"] == pytest.approx(120.0)
+    assert h["temperature_rise_K"] == pytest.approx(120.0 / plate.capacity_rate_W_K(
+        h["bulk_temperature_C"]), rel=1e-9)
+    shared = cooling.face_plate(plate, faces_per_plate=2).hydraulics(heat_W=20.0)
+    assert shared["plate_heat_W"] == pytest.approx(240.0)
+    assert cooling.face_plate(plate, face="both").hydraulics(heat_W=20.0)["plate_heat_W"] == \
+        pytest.approx(120.0)
+    warned = face.hydraulics(heat_W=20.0, cell=cell)["warnings"]
+    # 8 x 12 mm of the 240 mm width; 6 cells x 160 mm = 960 mm of path in a 300 mm channel
+    assert any("cover only 40%" in w for w in warned)
+    assert any("shorter than cells along the flow (960 mm)" in w for w in warned)
+    fits = cooling.edge_plate(cooling.cold_plate("water", 4.0, 25.0, cells_per_plate=6))
+    assert fits.hydraulics(heat_W=20.0, cell=cell)["warnings"] == []

@@ -10,9 +10,11 @@ Every design is a frozen dataclass with the same members:
    flat name (``"flow_L_min"``, ``"tim_W_mK"``, ...), and
    ``replace(**{name: value})`` -- a new design with values changed.
 4. ``describe() -> dict`` -- JSON-ready kind and inputs.
-5. ``hydraulics(heat_W=None) -> dict`` -- flow figures of a cold plate
-   ({} without one); ``heat_W`` is the heat ONE cell rejects, the plate's
-   load is that times the cells sharing its coolant.
+5. ``hydraulics(heat_W=None, cell=None) -> dict`` -- flow figures of a cold
+   plate ({} without one); ``heat_W`` is the heat ONE cell rejects into the
+   plate, the plate's load (``plate_heat_W``) is that times the cells sharing
+   its coolant; with ``cell`` the warnings also say when the plate does not
+   fit the cells (channel coverage, channel length).
 
 Designs add up: ``edge_plate(...) + tab_cooling(...)`` (or :func:`combine`).
 
@@ -117,7 +119,7 @@ class _Design:
                 out[f.name] = value
         return out
 
-    def hydraulics(self, heat_W: float | None = None) -> dict:
+    def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
         return {}
 
     def positions_to_check(self) -> list[int]:
@@ -294,13 +296,20 @@ class FacePlate(_Design):
                                inlet_C=plate.inlet_C, upstream_cells=k)
         return Sinks(faces={sink_face: FaceSink(n * h, plate.inlet_C)}, coolant=stream)
 
-    def hydraulics(self, heat_W: float | None = None) -> dict:
+    def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
+        """Plate hydraulics; ``heat_W`` is one cell's heat, ``cell`` adds geometry warnings."""
         if not isinstance(self.plate, ColdPlate):
             return {}
         faces = 2 if self.face == "both" else 1
         # each plate serves faces_per_plate faces at each of cells_per_plate positions
         cells = self.plate.cells_per_plate * self.faces_per_plate / faces
-        return _plate_hydraulics(self.plate, heat_W, cells)
+        out = _plate_hydraulics(self.plate, heat_W, cells)
+        if cell is not None:
+            g = cell.geometry
+            along = g.width_m if self.direction in ("+x", "-x") else g.height_m
+            out["warnings"] += _fit_warnings(self.plate, self._coverage(cell)[1],
+                                             self.plate.cells_per_plate * along, "cells along the flow")
+        return out
 
 
 def face_plate(plate, face: str = "back", tim_W_mK: float = DEFAULT_TIM_W_mK,
@@ -442,10 +451,17 @@ class EdgePlate(_Design):
         return Sinks(edges={self.edge: EdgeSink(g, plate.inlet_C, layer)}, fin=self.fin(),
                      coolant=stream)
 
-    def hydraulics(self, heat_W: float | None = None) -> dict:
+    def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
+        """Plate hydraulics; ``heat_W`` is one cell's heat, ``cell`` adds geometry warnings."""
         if not isinstance(self.plate, ColdPlate):
             return {}
-        return _plate_hydraulics(self.plate, heat_W, self.plate.cells_per_plate)
+        out = _plate_hydraulics(self.plate, heat_W, self.plate.cells_per_plate)
+        if cell is not None:
+            edge_len, _, pitch = self._lengths(cell)
+            needed = (self.plate.cells_per_plate * pitch if self.direction == "across" else edge_len)
+            out["warnings"] += _fit_warnings(self.plate, self._share(cell)[0], needed,
+                                             "the path under the cells")
+        return out
 
 
 def edge_plate(plate, edge: str = "bottom", fin_mm: float | None = None,
@@ -488,7 +504,24 @@ def edge_plate(plate, edge: str = "bottom", fin_mm: float | None = None,
 def _plate_hydraulics(plate: ColdPlate, heat_W, cells: float) -> dict:
     total = None if heat_W is None else check_finite("heat_W", heat_W, "W") * cells
     out = plate.hydraulics(total)
+    out["cell_heat_W"] = None if heat_W is None else float(heat_W)
     out["cells_on_coolant"] = float(cells)
+    return out
+
+
+# Below this channel coverage the assumed lateral spreading in the top wall is doubtful.
+_COVERAGE_WARN = 0.8
+
+
+def _fit_warnings(plate: ColdPlate, coverage: float, needed_m: float, what: str) -> list[str]:
+    """Plain-words warnings when the plate does not fit the cells it serves."""
+    out = []
+    if coverage < _COVERAGE_WARN:
+        out.append(f"the channels cover only {coverage:.0%} of the cooled width; the plate wall "
+                   "is taken to spread the heat over the rest, which flatters the result")
+    if plate.length_mm * 1e-3 < 0.99 * needed_m:
+        out.append(f"channel length {plate.length_mm:g} mm is shorter than {what} "
+                   f"({needed_m * 1e3:.0f} mm): the pressure drop is understated")
     return out
 
 
@@ -560,9 +593,9 @@ class Combined(_Design):
     def positions_to_check(self) -> list[int]:
         return sorted({k for p in self.parts for k in p.positions_to_check()})
 
-    def hydraulics(self, heat_W: float | None = None) -> dict:
+    def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
         for p in self.parts:
-            h = p.hydraulics(heat_W)
+            h = p.hydraulics(heat_W, cell)
             if h:
                 return h
         return {}

@@ -272,7 +272,7 @@ class ColdPlate:
             "pressure_drop_Pa": dp,
             "pump_efficiency": self.pump_efficiency,
             "pump_power_W": dp * self.flow_m3_s / self.pump_efficiency,
-            "heat_W": None if heat_W is None else float(heat_W),
+            "plate_heat_W": None if heat_W is None else float(heat_W),
             "temperature_rise_K": rise,
             "outlet_C": outlet,
             "warnings": warnings,
