@@ -11,6 +11,7 @@ from __future__ import annotations
 import logging
 
 import ipywidgets as widgets
+import numpy as np
 import plotly.graph_objects as go
 
 logger = logging.getLogger(__name__)
@@ -79,15 +80,22 @@ class LiveFigure:
         self.empty = True
 
     def replace(self, source: go.Figure) -> None:
-        """Make the live figure show ``source`` (data and layout), reusing traces where it can."""
+        """Make the live figure show ``source`` (data and layout), reusing traces where it can.
+
+        When the traces line up (same count and types) only the properties that changed are
+        assigned, which keeps both the Python-side validation and the messages to the browser
+        small; otherwise the traces are swapped.
+        """
         fig = self.figure
         same = (len(fig.data) == len(source.data)
                 and all(a.type == b.type for a, b in zip(fig.data, source.data)))
+        new_layout = source.layout.to_plotly_json()
+        old_layout = fig.layout.to_plotly_json()
         if same:
             with fig.batch_update():
                 for target, new in zip(fig.data, source.data):
-                    target.update(new.to_plotly_json(), overwrite=True)
-                fig.layout = source.layout
+                    _assign_changed(target, target.to_plotly_json(), new.to_plotly_json())
+                _assign_changed(fig.layout, old_layout, new_layout)
         else:
             fig.data = ()
             fig.add_traces(list(source.data))
@@ -105,3 +113,31 @@ class LiveFigure:
         with self.widget:
             self.widget.clear_output(wait=True)
             display(self.figure)
+
+
+def _differs(a, b) -> bool:
+    if a is b:
+        return False
+    if isinstance(a, np.ndarray | list | tuple) or isinstance(b, np.ndarray | list | tuple):
+        try:
+            x, y = np.asarray(a), np.asarray(b)
+            if x.dtype.kind in "biuf" and y.dtype.kind in "biuf":
+                return x.shape != y.shape or not np.array_equal(x, y, equal_nan=True)
+        except (ValueError, TypeError):
+            pass
+    try:
+        return bool(a != b)
+    except (ValueError, TypeError):
+        return True
+
+
+def _assign_changed(obj, old: dict, new: dict) -> None:
+    """Assign to ``obj`` the top-level properties of ``new`` that differ from ``old``; reset the rest."""
+    for key, value in new.items():
+        if key == "type":
+            continue
+        if key not in old or _differs(old[key], value):
+            obj[key] = value
+    for key in old:
+        if key not in new and key != "type":
+            obj[key] = None

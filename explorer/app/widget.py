@@ -38,7 +38,7 @@ def _results():
 
 
 def _esc(text) -> str:
-    return html.escape(str(text))
+    return html.escape(str(text), quote=False)
 
 
 class _Row:
@@ -139,6 +139,7 @@ class ExplorerApp(widgets.VBox):
         self._thread: threading.Thread | None = None
         self._suspend = False
         self._input_errors_shown = False
+        self._busy = False
         self._time_index = 0
         self._marker_shape: int | None = None
 
@@ -285,7 +286,7 @@ class ExplorerApp(widgets.VBox):
         self.errors = validate(self.inputs())
         for name, row in self.rows.items():
             row.show_error(self.errors.get(name))
-        busy = self._thread is not None and self._thread.is_alive()
+        busy = self._busy
         self.run_button.disabled = bool(self.errors) or busy
         self.size_button.disabled = bool(self.errors) or busy or not SIZE_CHOICES[values["cooling"]]
         if self.errors:
@@ -316,8 +317,9 @@ class ExplorerApp(widgets.VBox):
 
     def start(self) -> None:
         """Run the current inputs in a background thread (the Run button)."""
-        if self._thread is not None and self._thread.is_alive():
+        if self._busy:
             return
+        self._busy = True  # set before the thread starts so a second click is ignored
         self._thread = threading.Thread(target=self.run, name="explorer-app-run", daemon=True)
         self._thread.start()
 
@@ -335,8 +337,11 @@ class ExplorerApp(widgets.VBox):
         self._on_change()
         if self.errors:
             self.last_error = "inputs invalid: " + "; ".join(f"{k}: {v}" for k, v in self.errors.items())
+            self._busy = False
+            self._on_change()
             return None
         values = self.inputs()
+        self._busy = True
         self.run_button.disabled = True
         self.size_button.disabled = True
         t0 = time.perf_counter()
@@ -364,6 +369,7 @@ class ExplorerApp(widgets.VBox):
             self._failed(f"{type(exc).__name__}: {exc}" if not isinstance(exc, ValueError) else str(exc))
             return None
         finally:
+            self._busy = False
             self._on_change()
         elapsed = time.perf_counter() - t0
         status = str(ds.attrs.get("status", "completed"))
@@ -516,8 +522,9 @@ class ExplorerApp(widgets.VBox):
     # sizing
 
     def start_sizing(self) -> None:
-        if self._thread is not None and self._thread.is_alive():
+        if self._busy:
             return
+        self._busy = True
         self._thread = threading.Thread(target=self.size, name="explorer-app-size", daemon=True)
         self._thread.start()
 
@@ -526,9 +533,12 @@ class ExplorerApp(widgets.VBox):
         self._on_change()
         if self.errors:
             self.last_error = "inputs invalid: " + "; ".join(f"{k}: {v}" for k, v in self.errors.items())
+            self._busy = False
+            self._on_change()
             return None
         values = self.inputs()
         t0 = time.perf_counter()
+        self._busy = True
         self.run_button.disabled = self.size_button.disabled = True
         self.status.value = f"sizing {values['size_vary']} …"
         self.progress.bar_style = "info"
@@ -543,6 +553,7 @@ class ExplorerApp(widgets.VBox):
             self.status.value = f"<span style='{_ERROR_STYLE}'>sizing failed</span>"
             return None
         finally:
+            self._busy = False
             self._on_change()
         self.last_error = None
         self.sizing = result

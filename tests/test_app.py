@@ -1,0 +1,293 @@
+"""The notebook app without a browser: inputs, validation, runs, in-place figure updates, files.
+
+The mapping checks use the real public API (cell loader, duty, cooling, Limits). Widget logic that
+only needs *a* result uses the invented synthetic Dataset of tests/synthetic.py through a stand-in
+for ``explorer.simulate``; one test runs the real simulation end to end.
+"""
+
+from __future__ import annotations
+
+import html
+import json
+
+import numpy as np
+import pytest
+from synthetic import SyntheticSizing, synthetic_dataset
+
+import explorer
+from explorer.app import inputs as app_inputs
+from explorer.app.inputs import InputsFileError, defaults, inputs_to_call, validate
+
+
+@pytest.fixture
+def fake_simulate(monkeypatch):
+    """Replace explorer.simulate by a counter returning synthetic results (rise grows per call)."""
+    calls = []
+
+    def simulate(cell, duty, cooling=None, progress=None, **kwargs):
+        calls.append({"cell": cell, "duty": duty, "cooling": cooling, **kwargs})
+        if progress is not None:
+            progress(10.0, 0)
+        return synthetic_dataset(rise_K=10.0 + 5.0 * len(calls))
+
+    monkeypatch.setattr(explorer, "simulate", simulate, raising=False)
+    return calls
+
+
+# ---------------------------------------------------------------------------------------------
+# the pure mapping
+
+
+def test_defaults_map_onto_the_public_api():
+    call = inputs_to_call(defaults())
+    assert call.cell.name and call.cell.nominal_capacity_Ah > 0
+    assert call.duty.kind == "current" and call.duty.c_rate == pytest.approx(1.0)
+    params = call.cooling.parameters()
+    assert params["flow_L_min"] == 2.0 and params["inlet_C"] == 25.0 and params["fin_mm"] == 0.5
+    assert params["tim_W_mK"] == 3.0 and params["tim_mm"] == 0.5
+    assert call.simulate_kwargs == {"electrochemistry": "spme", "layout": "averaged",
+                                    "start_soc": 1.0, "start_temperature_C": 25.0}
+    assert call.limits.temperature_max_C == 45.0 and call.limits.spread_K == 5.0
+    # one hour at 1C from full (definition of the C-rate)
+    assert call.expected_duration_s() == pytest.approx(3600.0)
+
+
+def test_other_duties_and_coolings():
+    v = {**defaults(), "duty": "fast_charge", "charge_c_rate": 2.0, "charge_end_c_rate": 0.1,
+         "start_soc_pct": 10.0, "cooling": "convection", "h_W_m2K": 15.0, "ambient_C": 30.0}
+    call = inputs_to_call(v)
+    cc, cv = call.duty
+    assert cc.kind == "current" and cc.c_rate == pytest.approx(-2.0)  # negative = charge
+    assert cv.kind == "voltage" and cv.end_c_rate == pytest.approx(0.1)
+    assert call.cooling.parameters()["h_W_m2K"] == 15.0
+    assert call.simulate_kwargs["start_soc"] == pytest.approx(0.1)
+    face = inputs_to_call({**defaults(), "cooling": "face_plate", "plate_face": "both",
+                           "coolant": "eg50", "tab_cooling": True, "busbar_C": 28.0})
+    p = face.cooling.parameters()
+    assert p["busbar_C"] == 28.0 and p["flow_L_min"] == 2.0 and "fin_mm" not in p
+    nofin = inputs_to_call({**defaults(), "fin_mm": 0.0})
+    assert "fin_mm" not in nofin.cooling.parameters()
+    assert inputs_to_call({**defaults(), "cooling": "adiabatic"}).cooling is None
+
+
+def test_profile_duty(tmp_path):
+    csv = tmp_path / "drive.csv"
+    csv.write_text("time [s],current [A]\n0,66\n600,-20\n900,0\n")  # invented profile
+    call = inputs_to_call({**defaults(), "duty": "profile", "profile_path": str(csv)})
+    assert call.duty.kind == "profile"
+    assert call.expected_duration_s() is None
+
+
+def test_validation_messages_name_field_value_and_expectation(tmp_path):
+    errors = validate({**defaults(), "flow_L_min": -1.0, "inlet_C": "warm", "size_high": 0.1})
+    assert "flow_L_min" in errors and "> 0" in errors["flow_L_min"] and "-1" in errors["flow_L_min"]
+    assert "inlet_C" in errors and "'warm'" in errors["inlet_C"]
+    # inputs that do not apply are not checked (convection h while an edge plate is chosen)
+    assert "h_W_m2K" not in validate({**defaults(), "h_W_m2K": -5.0})
+    assert "h_W_m2K" in validate({**defaults(), "cooling": "convection", "h_W_m2K": -5.0})
+    e = validate({**defaults(), "size_low": 3.0, "size_high": 1.0})
+    assert "size_high" in e
+    # a limit at or below the coolant inlet can never be met (heat flows from hot to cold)
+    e = validate({**defaults(), "limit_temperature_C": 20.0, "inlet_C": 25.0})
+    assert "limit_temperature_C" in e and "25" in e["limit_temperature_C"]
+    e = validate({**defaults(), "cell": str(tmp_path / "nope.toml")})
+    assert "cell" in e and "nope.toml" in e["cell"]
+    e = validate({**defaults(), "duty": "profile", "profile_path": str(tmp_path / "x.csv")})
+    assert "profile_path" in e and "x.csv" in e["profile_path"]
+    e = validate({**defaults(), "layout": "distributed"})
+    assert "layout" in e
+    with pytest.raises(app_inputs.InputsError) as info:
+        inputs_to_call({**defaults(), "flow_L_min": 0.0})
+    assert "flow_L_min" in str(info.value) and "Coolant flow" in str(info.value)
+
+
+@pytest.mark.parametrize("suffix", [".json", ".toml"])
+def test_inputs_file_round_trip(tmp_path, suffix):
+    values = {**defaults(), "cooling": "face_plate", "flow_L_min": 3.5, "tab_cooling": True,
+              "cell": "van_nmc_66ah", "electrochemistry": "spm"}
+    path = app_inputs.save_inputs(values, tmp_path / f"s{suffix}")
+    assert app_inputs.load_inputs(path) == values
+    assert sorted(p.name for p in tmp_path.iterdir()) == [f"s{suffix}"]  # atomic, no leftovers
+
+
+def test_inputs_file_errors(tmp_path):
+    p = tmp_path / "bad.json"
+    p.write_text(json.dumps({"format": app_inputs.FILE_FORMAT, "version": 1,
+                             "inputs": {"flow_lmin": 2.0, "flow_L_min": -3.0}}))
+    with pytest.raises(InputsFileError) as info:
+        app_inputs.load_inputs(p)
+    text = str(info.value)
+    assert "bad.json" in text and "inputs.flow_lmin" in text and "inputs.flow_L_min" in text
+    assert "-3" in text
+    p.write_text('{"format": "something else"}')
+    with pytest.raises(InputsFileError, match="`format`"):
+        app_inputs.load_inputs(p)
+    t = tmp_path / "broken.toml"
+    t.write_text('format = "x\n')
+    with pytest.raises(InputsFileError, match="broken.toml: cannot parse"):
+        app_inputs.load_inputs(t)
+    with pytest.raises(InputsFileError, match="not found"):
+        app_inputs.load_inputs(tmp_path / "none.toml")
+    with pytest.raises(InputsFileError, match=".json or .toml"):
+        app_inputs.save_inputs(defaults(), tmp_path / "s.yaml")
+
+
+# ---------------------------------------------------------------------------------------------
+# the widget
+
+
+def test_explore_is_a_displayable_widget():
+    import ipywidgets
+
+    app = explorer.explore()
+    assert isinstance(app, ipywidgets.VBox)
+    assert app.dataset is None and app.errors == {}
+    assert not app.run_button.disabled
+    footer = app.children[-1].value
+    assert explorer.results.CAUTION in footer
+    # widgets' JSON state is what a notebook front end receives
+    assert app.get_state()["children"]
+
+
+def test_bad_input_shows_inline_error_and_does_not_run(fake_simulate):
+    app = explorer.explore()
+    app.set_inputs(flow_L_min="-2")
+    assert "flow_L_min" in app.errors
+    assert "> 0" in html.unescape(app.rows["flow_L_min"].error.value)
+    assert app.run_button.disabled
+    assert app.run() is None and fake_simulate == []
+    assert "flow_L_min" in app.last_error
+    # typing a good value clears the error and enables the button
+    app.rows["flow_L_min"].control.value = "1.5"
+    assert app.errors == {} and app.rows["flow_L_min"].error.value == ""
+    assert not app.run_button.disabled
+    # a field that does not apply is hidden
+    assert app.rows["h_W_m2K"].box.layout.display == "none"
+    app.set_inputs(cooling="convection")
+    assert app.rows["h_W_m2K"].box.layout.display is None
+    assert app.rows["flow_L_min"].box.layout.display == "none"
+
+
+def test_run_updates_figures_in_place_and_matches_the_dataset(fake_simulate):
+    app = explorer.explore(flow_L_min=1.5)
+    fig = app.fig_temperature.figure
+    ds = app.run()
+    assert ds is not None and app.dataset is ds and len(fake_simulate) == 1
+    assert fake_simulate[0]["cooling"].parameters()["flow_L_min"] == 1.5
+    k = app.time_slider.value
+    assert k == int(np.argmax(ds["temperature_max"].values))
+    np.testing.assert_allclose(np.asarray(fig.data[0].z), ds["temperature"].isel(time=k).values)
+    traces = {tr.name: tr for tr in app.fig_traces.figure.data}
+    np.testing.assert_allclose(traces["hottest point"].y, ds["temperature_max"].values)
+    heatmap = fig.data[0]
+    # slider move: same figure, same trace object, new data
+    app.time_slider.value = 3
+    assert app.fig_temperature.figure is fig and fig.data[0] is heatmap
+    np.testing.assert_allclose(np.asarray(fig.data[0].z), ds["temperature"].isel(time=3).values)
+    np.testing.assert_allclose(np.asarray(app.fig_soc.figure.data[0].z),
+                               100.0 * ds["soc"].isel(time=3).values)
+    marker = [s for s in app.fig_traces.figure.layout.shapes if s.name == "time marker"]
+    assert marker and marker[0].x0 == pytest.approx(float(ds["time"].values[3]) / 60.0)
+    # a second run changes the data of the same figure objects
+    ds2 = app.run()
+    assert app.fig_temperature.figure is fig
+    assert float(ds2["temperature"].max()) > float(ds["temperature"].max())
+    np.testing.assert_allclose(np.asarray(fig.data[0].z),
+                               ds2["temperature"].isel(time=app.time_slider.value).values)
+    assert "Peak temperature" in app.summary.value and "margin" in app.summary.value
+    assert app.progress.value == 1.0 and "done" in app.status.value
+
+
+def test_failed_run_shows_reason_and_keeps_previous(monkeypatch, fake_simulate):
+    app = explorer.explore()
+    first = app.run()
+
+    def failing(*args, **kwargs):
+        raise explorer.validators.InputError("simulate: the rod step failed at t = 12 s (invented)")
+
+    monkeypatch.setattr(explorer, "simulate", failing)
+    assert app.run() is None
+    assert app.dataset is first and "rod step failed" in app.last_error
+    assert "previous results" in app.status.value
+
+    def failed_status(*args, **kwargs):
+        ds = synthetic_dataset(status="failed")
+        ds.attrs["status_message"] = "solver did not converge (invented)"
+        return ds
+
+    monkeypatch.setattr(explorer, "simulate", failed_status)
+    assert app.run() is None and app.dataset is first
+    assert "did not converge" in app.last_error
+
+
+def test_background_run(fake_simulate):
+    app = explorer.explore()
+    app.start()
+    app.wait(30)
+    assert app.dataset is not None and len(fake_simulate) == 1
+    assert not app.run_button.disabled
+
+
+def test_pin_and_compare(fake_simulate):
+    app = explorer.explore()
+    with pytest.raises(ValueError, match="run first"):
+        app.pin("nothing")
+    app.run()
+    app.pin("baseline")
+    app.set_inputs(flow_L_min=4.0)
+    app.run()
+    app.scenario_name.value = "more flow"
+    app.pin()
+    assert list(app.pinned) == ["baseline", "more flow"]
+    names = {tr.name for tr in app.fig_compare.figure.data}
+    assert names == {"baseline", "more flow"}
+    assert "more flow (Δ to first)" in app.compare_table.value
+    assert app.pinned["more flow"][1]["flow_L_min"] == 4.0
+    app.clear_pins()
+    assert not app.pinned
+
+
+def test_files_from_the_app(tmp_path, fake_simulate):
+    app = explorer.explore(flow_L_min=3.0, cooling="edge_plate")
+    path = app.save_inputs(tmp_path / "s.toml")
+    other = explorer.explore()
+    other.load_inputs(path)
+    assert other.inputs()["flow_L_min"] == 3.0
+    with pytest.raises(ValueError, match="run first"):
+        app.export_report(tmp_path / "r.html")
+    app.run()
+    report = app.export_report(tmp_path / "r.html")
+    text = html.unescape(report.read_text(encoding="utf-8"))
+    assert explorer.results.CAUTION in text and "flow_L_min" in text
+    # the file buttons report errors inline, never as a traceback
+    app.file_path.value = str(tmp_path / "missing_dir" / "x.toml")
+    app.file_buttons["Load inputs"].click()
+    assert "not found" in app.file_status.value
+
+
+def test_save_results_netcdf(tmp_path, fake_simulate):
+    pytest.importorskip("h5py", reason="h5py missing: explorer.results.save cannot write netCDF")
+    app = explorer.explore()
+    app.run()
+    nc = app.save_results(tmp_path / "run.nc")
+    back = explorer.open_results(nc)
+    np.testing.assert_allclose(back["temperature"].values, app.dataset["temperature"].values)
+
+
+def test_sizing_tab(monkeypatch, fake_simulate):
+    seen = {}
+
+    def size_cooling(cell, duty, cooling, vary, bounds, limits, **kwargs):
+        seen.update(vary=vary, bounds=bounds, limits=limits, kwargs=kwargs)
+        return SyntheticSizing()
+
+    monkeypatch.setattr(explorer, "size_cooling", size_cooling, raising=False)
+    app = explorer.explore(size_vary="flow_L_min", size_low=0.5, size_high=4.0)
+    result = app.size()
+    assert result is app.sizing and seen["vary"] == "flow_L_min" and seen["bounds"] == (0.5, 4.0)
+    assert seen["limits"].temperature_max_C == 45.0
+    design = [tr for tr in app.fig_sizing.figure.data if tr.name == "design point"]
+    assert design[0].x[0] == pytest.approx(result.value)
+    assert app.dataset is result.dataset
+    app.set_inputs(cooling="adiabatic")
+    assert app.size_button.disabled
