@@ -9,7 +9,7 @@ import pytest
 
 from explorer.cell import list_demo_cells, load_cell, ocv
 from explorer.cell.derived import foil_counts, layers_thickness_m
-from explorer.materials import FARADAY, OCP, SOLIDS
+from explorer.materials import OCP, SOLIDS
 
 DEMOS = sorted(list_demo_cells())
 
@@ -251,4 +251,17 @@ def test_electrode_functions_resolve(cells):
     for c in cells.values():
         for e in (c.negative, c.positive):
             assert e.ocp in OCP
-        assert FARADAY > 0
+
+
+def test_cell_from_text_and_dict_match_file():
+    import tomllib
+
+    from explorer.cell import cell_from_dict, cell_from_text
+
+    path = list_demo_cells()["bus_power_12ah"]
+    text = path.read_text(encoding="utf-8")
+    a, b = load_cell(path), cell_from_text(text, source="pasted")
+    assert a.derived == b.derived and a.geometry == b.geometry
+    assert b.sha256 == a.sha256 and b.source_path == "pasted"
+    c = cell_from_dict(tomllib.loads(text))
+    assert c.derived == a.derived and len(c.sha256) == 64

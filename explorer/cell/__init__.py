@@ -1,6 +1,7 @@
 """Cell definition: the file format, the loader and the derived properties.
 
 * :func:`load_cell` — read and validate a cell TOML file (or a demo cell by name).
+* :func:`cell_from_text`, :func:`cell_from_dict` — the same from TOML text or a mapping.
 * :func:`list_demo_cells` — names of the bundled demo cells and their paths.
 * :mod:`explorer.cell.model` — the :class:`Cell` dataclasses (SI units).
 * :mod:`explorer.cell.schema` — the file format's tables and keys.
@@ -8,7 +9,13 @@
 """
 
 from explorer.cell.derived import ocv
-from explorer.cell.loader import CellFileNotFoundError, list_demo_cells, load_cell
+from explorer.cell.loader import (
+    CellFileNotFoundError,
+    cell_from_dict,
+    cell_from_text,
+    list_demo_cells,
+    load_cell,
+)
 from explorer.cell.model import (
     Cell,
     Collector,
@@ -24,6 +31,8 @@ from explorer.cell.model import (
 __all__ = [
     "load_cell",
     "list_demo_cells",
+    "cell_from_text",
+    "cell_from_dict",
     "ocv",
     "CellFileNotFoundError",
     "Cell",

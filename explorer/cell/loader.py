@@ -31,7 +31,7 @@ from explorer.materials import TABLES
 from explorer.units import UnitError, parse
 from explorer.validators import MISSING, CellFileError, Problem
 
-__all__ = ["load_cell", "list_demo_cells", "DEMO_DIR", "CellFileNotFoundError",
+__all__ = ["load_cell", "cell_from_text", "cell_from_dict", "list_demo_cells", "DEMO_DIR", "CellFileNotFoundError",
            "WINDOW_MISMATCH_TOLERANCE"]
 
 log = logging.getLogger(__name__)
@@ -233,8 +233,40 @@ def load_cell(path) -> Cell:
     67
     """
     file = _resolve(path)
-    fname = str(file)
     raw_bytes = file.read_bytes()
+    return _from_bytes(raw_bytes, str(file), str(file.resolve()))
+
+
+def cell_from_text(text: str, source: str = "<text>") -> Cell:
+    """Build a cell from the text of a cell TOML file (same checks as :func:`load_cell`).
+
+    ``source`` names the text in error messages and becomes ``Cell.source_path``;
+    ``Cell.sha256`` is the hash of the UTF-8 encoded text.
+
+    Examples
+    --------
+    >>> text = list_demo_cells()["rack_lfp_26ah"].read_text(encoding="utf-8")
+    >>> cell_from_text(text.replace('unit_layers = 30', 'unit_layers = 28')).geometry.unit_layers
+    28
+    """
+    return _from_bytes(text.encode("utf-8"), source, source)
+
+
+def cell_from_dict(data: dict, source: str = "<dict>") -> Cell:
+    """Build a cell from an already parsed TOML mapping (same checks as :func:`load_cell`).
+
+    ``Cell.sha256`` is the hash of the mapping's canonical JSON form.
+    """
+    import json
+
+    if not isinstance(data, dict):
+        raise CellFileError([Problem(source, "(file)", type(data).__name__,
+                                     "a mapping of tables")], source)
+    sha = hashlib.sha256(json.dumps(data, sort_keys=True, default=str).encode()).hexdigest()
+    return _build(data, source, source, sha)
+
+
+def _from_bytes(raw_bytes: bytes, fname: str, source_path: str) -> Cell:
     sha = hashlib.sha256(raw_bytes).hexdigest()
     try:
         data = tomllib.loads(raw_bytes.decode("utf-8"))
@@ -243,7 +275,10 @@ def load_cell(path) -> Cell:
                             fname) from None
     except tomllib.TOMLDecodeError as exc:
         raise CellFileError([Problem(fname, "(syntax)", str(exc), "valid TOML")], fname) from None
+    return _build(data, fname, source_path, sha)
 
+
+def _build(data: dict, fname: str, source_path: str, sha: str) -> Cell:
     r = _Reader(fname)
     known = list(schema.SECTIONS) + ["tabs"]
     r.unknown_keys(data, known, "")
@@ -292,7 +327,7 @@ def load_cell(path) -> Cell:
         electrolyte=electrolyte,
         thermal=thermal,
         derived=derived,
-        source_path=str(file.resolve()),
+        source_path=source_path,
         sha256=sha,
         extra={"data_note": cellv["data_note"],
                "layers_thickness_m": layers_thickness_m(geometry, neg_cc, pos_cc, negative,
