@@ -320,6 +320,7 @@ class ResolvedStep:
     kind: str
     value: float  # A, W or V; 0 for rest; unused for profiles
     ends: list[End] = field(default_factory=list)
+    expected_duration_s: float = 3600.0  # a rough guess, for choosing the output spacing
 
     def load_at(self, t_in_step: float) -> float:
         """Profile value at a time within the step (piecewise constant)."""
@@ -356,4 +357,18 @@ def resolve(step: Step, cell) -> ResolvedStep:
                 ends.append(End("voltage", cell.voltage_min_V, "below"))
             else:
                 ends.append(End("voltage", cell.voltage_max_V, "above"))
-    return ResolvedStep(step, kind, 0.0 if value is None else float(value), ends)
+    value = 0.0 if value is None else float(value)
+    return ResolvedStep(step, kind, value, ends, _expected_duration(kind, value, step, cell))
+
+
+def _expected_duration(kind, value, step, cell) -> float:
+    """Full-window time at this load, or the step's own length; only sets the output spacing."""
+    limit = step.max_duration_s()
+    if kind == "current" and value:
+        guess = cell.nominal_capacity_Ah * 3600.0 / abs(value)
+    elif kind == "power" and value:
+        mid = 0.5 * (cell.voltage_min_V + cell.voltage_max_V)
+        guess = cell.nominal_capacity_Ah * mid * 3600.0 / abs(value)
+    else:
+        guess = 3600.0
+    return min(guess, limit)

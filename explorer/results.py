@@ -79,7 +79,7 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "heat_rejected": _var("time", record.heat_rejected, "W", "heat into all sinks"),
         "heat_stored": _var("time", record.stored_J, "J",
                             "heat stored in the cell (and fin) relative to 0 degC"),
-        "lithium": _var("time", record.lithium_mol, "mol", "cyclable lithium in the electrodes"),
+        "lithium": _var("time", record.lithium_mol, "mol", "cyclable lithium in the electrodes (at the ends of duty steps)"),
         "step": xr.Variable("time", np.asarray(record.step, dtype=np.int32),
                             {"units": "1", "long_name": "index of the duty step"}),
     }
@@ -158,12 +158,23 @@ def save(ds: xr.Dataset, path) -> Path:
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     os.close(fd)
     try:
-        ds.to_netcdf(tmp, engine="h5netcdf")
+        out = ds.copy()
+        out.attrs = {k: _attr(v) for k, v in ds.attrs.items()}
+        out.to_netcdf(tmp, engine="netcdf4")
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
     return path
+
+
+def _attr(v):
+    """netCDF attributes hold numbers, strings and arrays: booleans become 0/1, the rest JSON."""
+    if isinstance(v, bool | np.bool_):
+        return int(v)
+    if isinstance(v, str | int | float | np.number):
+        return v
+    return json.dumps(v, default=str)
 
 
 def open_results(path) -> xr.Dataset:
@@ -172,7 +183,7 @@ def open_results(path) -> xr.Dataset:
     if not path.is_file():
         raise InputError(f"{path}: no such results file")
     try:
-        with xr.open_dataset(path, engine="h5netcdf") as ds:
+        with xr.open_dataset(path, engine="netcdf4") as ds:
             return ds.load()
     except (OSError, ValueError) as exc:
         raise InputError(f"{path}: not a results file this tool can read ({exc})") from None

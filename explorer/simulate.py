@@ -24,7 +24,7 @@ CELLS_ON_GRID = 1536  # default in-plane grid size (32 x 48 on a 2:3 face)
 
 def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: str = "averaged",
              start_soc: float = 1.0, start_temperature_C: float = 25.0, *, grid=None,
-             position=None, output_interval_s: float = 10.0, mesh: dict | None = None,
+             position=None, output_interval_s: float | None = None, mesh: dict | None = None,
              progress=None):
     """Run ``duty`` on ``cell`` with ``cooling`` and return the results Dataset.
 
@@ -48,8 +48,10 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     position : int, optional
         Which cell along a shared cold plate to simulate (0 = first the
         coolant meets); default the last, which sees the warmest coolant.
-    output_interval_s : float
-        Spacing of the recorded time base (steps also end exactly at events).
+    output_interval_s : float, optional
+        Spacing of the recorded time base and the longest time step (steps
+        also end exactly at events); default about 200 records per duty step,
+        0.5 to 30 s apart.
     mesh : dict, optional
         Rod mesh sizes, passed to the electrochemical model.
     progress : callable(t_s, step_index), optional
@@ -72,7 +74,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     layout = _choice("layout", layout, LAYOUTS)
     start_soc = _number("start_soc", start_soc, 0.0, 1.0)
     start_temperature_C = _number("start_temperature_C", start_temperature_C, -40.0, 80.0)
-    if not output_interval_s > 0:
+    if output_interval_s is not None and not output_interval_s > 0:
         raise InputError(f"simulate: `output_interval_s` must be > 0, got {output_interval_s!r}")
     if layout == "distributed":
         raise InputError("simulate: `layout='distributed'` is not available in this version; "
@@ -103,7 +105,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         r_collector = network.resistance_ohm
     record = run(rod, thermal, steps, start_soc=start_soc,
                  start_temperature_C=start_temperature_C, coupling=coupling,
-                 settings=Settings(output_interval_s=float(output_interval_s)), progress=progress)
+                 settings=Settings(output_interval_s=output_interval_s), progress=progress)
     mean_rejected = float(np.mean(record.heat_rejected)) if record.heat_rejected else 0.0
     attrs = {
         "electrochemistry": electrochemistry,
@@ -112,7 +114,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         "start_temperature_C": start_temperature_C,
         "heat_capacity_J_per_K": thermal.heat_capacity_J_per_K,
         "collector_resistance_ohm": r_collector,
-        "output_interval_s": float(output_interval_s),
+        "output_interval_s": output_interval_s or "auto",
         "duty": [s.step.describe() for s in steps],
         "cooling": _describe(cooling),
         "hydraulics": _hydraulics(cooling, mean_rejected),

@@ -87,6 +87,8 @@ def test_charge_passed_equals_soc_change(discharge_1c, cell):
 def test_lithium_conserved(discharge_1c):
     """Cyclable lithium in the solid phase is constant: what leaves one electrode enters the other."""
     li = discharge_1c.lithium.values
+    li = li[np.isfinite(li)]
+    assert len(li) >= 2
     assert np.max(np.abs(li - li[0])) <= 1e-6 * li[0]
 
 
@@ -119,7 +121,10 @@ def test_lumped_convective_cooling_follows_the_exponential(cell):
     area = 2 * cell.geometry.width_m * cell.geometry.height_m
     tau = ds.attrs["heat_capacity_J_per_K"] / (h * area)
     expected = ambient + (T0 - ambient) * np.exp(-ds.time.values / tau)
-    np.testing.assert_allclose(ds.temperature_mean.values - ambient, expected - ambient, rtol=1e-2)
+    # within 1 % of the initial excess temperature, over six time constants
+    assert ds.time.values[-1] > 5 * tau
+    np.testing.assert_allclose(ds.temperature_mean.values, expected, rtol=0,
+                               atol=1e-2 * (T0 - ambient))
 
 
 def test_undeliverable_power_stops_cleanly_and_keeps_results(cell):

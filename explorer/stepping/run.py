@@ -35,11 +35,13 @@ log = logging.getLogger(__name__)
 END_TOLERANCE = {"voltage": 1e-3, "soc": 1e-4, "temperature": 1e-2}
 CURRENT_RELATIVE_TOLERANCE = 1e-3  # of the end current
 HEAT_KEYS = ("irreversible", "reversible", "ohmic_electrolyte", "ohmic_solid")
+POINTS_PER_STEP = 200
+AUTO_INTERVAL_S = (0.5, 30.0)  # bounds of the automatic output spacing
 
 
 @dataclass
 class Settings:
-    output_interval_s: float = 10.0
+    output_interval_s: float | None = None  # None: about POINTS_PER_STEP records per duty step
     dt_min_s: float = 1e-3
     dt_first_s: float = 1.0  # first step after a load change
     voltage_change_V: float = 0.02  # largest voltage change accepted in one step
@@ -136,9 +138,9 @@ class _Stepper:
         res = self.rod.solve_step(self.rod_state, 1e-6, temperature_C + 273.15,
                                   Control("current", 0.0), self.R)
         zero = np.zeros(self.thermal.grid.shape)
-        self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {})
+        self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, boundary=True)
 
-    def _record(self, index, res, heat_map, tab_heat, heat, rejected):
+    def _record(self, index, res, heat_map, tab_heat, heat, rejected, boundary=False):
         r = self.rec
         T = self.thermal.temperature_C(self.T_state)
         r.time.append(self.t)
@@ -165,33 +167,36 @@ class _Stepper:
         outlet = getattr(self.thermal, "coolant_outlet_C", None)
         r.coolant_outlet.append(outlet(rejected) if outlet and rejected else math.nan)
         r.stored_J.append(self.thermal.stored_J(self.T_state))
-        r.lithium_mol.append(self.rod.lithium_mol(res.state))
+        # cyclable lithium is a conservation check, not a trace: taken where duty steps end
+        r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
 
     # -- one duty step ------------------------------------------------------------------------
     def run_step(self, index, step: ResolvedStep):
         s = self.s
         t0 = self.t
-        dt = min(s.dt_first_s, s.output_interval_s)
-        t_end = t0 + (step.step.max_duration_s() if step.kind != "rest" or step.ends else math.inf)
+        interval = s.output_interval_s or min(max(step.expected_duration_s / POINTS_PER_STEP,
+                                                  AUTO_INTERVAL_S[0]), AUTO_INTERVAL_S[1])
+        wanted = min(s.dt_first_s, interval)  # the step size the error control asks for
+        t_end = t0 + step.step.max_duration_s()
         prev_voltage = self.rec.voltage[-1]
         while True:
+            if self.t >= t_end - 1e-9:
+                return
             t_in = self.t - t0
             # land on output times, step ends and profile breakpoints
-            next_out = (math.floor(self.t / s.output_interval_s + 1e-9) + 1) * s.output_interval_s
+            next_out = t0 + (math.floor(t_in / interval + 1e-9) + 1) * interval
             limit = min(next_out, t_end)
             if step.kind == "profile":
                 limit = min(limit, t0 + step.next_breakpoint(t_in))
-            dt = max(min(dt, limit - self.t), 0.0)
-            if dt <= 1e-9:
-                if self.t >= t_end - 1e-9:
-                    return
-                dt = min(s.dt_first_s, limit - self.t)
+            dt = min(wanted, limit - self.t)
+            if dt <= 1e-9:  # an output time within round-off: skip to the next one
+                dt = min(wanted, limit - self.t + interval)
             control = self._control(step, t_in)
             trial = self._try(control, dt, index)
             if trial is None:
                 self.rec.steps_rejected += 1
-                dt /= 4.0
-                if dt < s.dt_min_s:
+                wanted = dt / 4.0
+                if wanted < s.dt_min_s:
                     raise _Stop("failed", self._failure_message(step, control))
                 continue
             dV = abs(trial.rod.voltage_V - prev_voltage)
@@ -201,19 +206,17 @@ class _Stepper:
                                                  and abs(self.current) > 0)
             if too_big and dt > 4 * s.dt_min_s:
                 self.rec.steps_rejected += 1
-                dt /= 2.0
+                wanted = dt / 2.0
                 continue
             end = self._crossed(step, trial, t0)
             if end is not None:
                 trial = self._locate(step, end, control, trial, t0, index)
-                self._accept(trial, index)
+                self._accept(trial, index, boundary=True)
                 return
-            self._accept(trial, index)
+            self._accept(trial, index, boundary=self.t + trial.dt >= t_end - 1e-9)
             prev_voltage = trial.rod.voltage_V
-            if self.t >= t_end - 1e-9:
-                return
-            dt = min(trial.dt * (1.5 if dV < 0.5 * s.voltage_change_V else 1.0),
-                     s.output_interval_s)
+            if dV < 0.5 * s.voltage_change_V:
+                wanted = min(max(wanted, dt) * 1.5, interval)
 
     def _control(self, step: ResolvedStep, t_in: float) -> Control:
         if step.kind == "rest":
@@ -318,13 +321,13 @@ class _Stepper:
             return end.distance(float(np.max(r.temperature[-1])))
         return None
 
-    def _accept(self, tr: _Trial, index):
+    def _accept(self, tr: _Trial, index, boundary=False):
         self.t += tr.dt
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
         self.current = tr.rod.current_A
         self.rec.steps_taken += 1
-        self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected)
+        self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected, boundary)
         if self.progress is not None:
             self.progress(self.t, index)
 
