@@ -377,3 +377,34 @@ def test_hydraulics_of_designs_scale_with_cells_and_check_fit(cell):
     assert any("shorter than cells along the flow (960 mm)" in w for w in warned)
     fits = cooling.edge_plate(cooling.cold_plate("water", 4.0, 25.0, cells_per_plate=6))
     assert fits.hydraulics(heat_W=20.0, cell=cell)["warnings"] == []
+
+
+def test_fixed_sink_by_edge_conductance(cell):
+    """An edge plate given by its conductance per metre of edge: the TIM over the contact
+    width L adds in series, G' = 1/(t/(k L) + 1/G'_sink) (resistances in series)."""
+    L = cell.geometry.stack_thickness_m
+    design = cooling.edge_plate(cooling.fixed_sink(22.0, conductance_W_mK=15.0), edge="left",
+                                tim_W_mK=2.0, tim_mm=0.3)
+    s = design.sinks(cell, None)
+    assert s.edges["left"].conductance_W_mK == pytest.approx(1 / (0.3e-3 / (2.0 * L) + 1 / 15.0))
+    assert s.edges["left"].temperature_C == 22.0
+    assert set(design.parameters()) >= {"temperature_C", "conductance_W_mK"}
+    assert design.replace(conductance_W_mK=30.0).plate.conductance_W_mK == 30.0
+    with pytest.raises(InputError, match="exactly one"):
+        cooling.fixed_sink(22.0)
+    with pytest.raises(InputError, match="exactly one"):
+        cooling.fixed_sink(22.0, h_W_m2K=100.0, conductance_W_mK=5.0)
+    with pytest.raises(InputError, match="edge plates"):
+        cooling.face_plate(cooling.fixed_sink(22.0, conductance_W_mK=5.0))
+
+
+def test_entry_lengths_reported():
+    """Laminar entry lengths x_h = 0.05 Re D_h and x_t = 0.05 Re Pr D_h (Incropera & DeWitt
+    eqs. 8.3, 8.23); glycol at low Re is thermally developing over a 500 mm channel."""
+    h = cooling.cold_plate("eg50", flow_L_min=4.0, inlet_C=25.0).hydraulics()
+    dh = h["hydraulic_diameter_mm"]
+    assert h["entry_length_hydraulic_mm"] == pytest.approx(0.05 * h["reynolds"] * dh)
+    assert h["entry_length_thermal_mm"] == pytest.approx(0.05 * h["reynolds"] * h["prandtl"] * dh)
+    assert any("conservative" in n for n in h["notes"])
+    turbulent = cooling.cold_plate("water", flow_L_min=80.0, inlet_C=25.0).hydraulics()
+    assert turbulent["regime"] == "turbulent" and turbulent["entry_length_thermal_mm"] is None

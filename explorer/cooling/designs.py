@@ -251,6 +251,9 @@ class FacePlate(_Design):
         n = self.faces_per_plate
         n = (2 if self.face == "both" else 1) if n is None else check_integer("faces_per_plate", n, 1, 2)
         object.__setattr__(self, "faces_per_plate", n)
+        if isinstance(self.plate, FixedSink) and self.plate.h_W_m2K is None:
+            raise InputError("`plate`: under a face a fixed_sink needs `h_W_m2K` (per unit area); "
+                             "`conductance_W_mK` is for edge plates")
         if isinstance(self.plate, ColdPlate) and self.plate.flow_direction == "across":
             raise InputError("`flow_direction`: 'across' is for edge plates; under a face use one of "
                              "'+x', '-x', '+y', '-y'")
@@ -417,7 +420,8 @@ class EdgePlate(_Design):
         _, foot, pitch = self._lengths(cell)
         r_tim = self.tim_mm * 1e-3 / (self.tim_W_mK * foot)
         if isinstance(self.plate, FixedSink):
-            return _series(r_tim, self.plate.h_W_m2K * foot)
+            g = self.plate.conductance_W_mK
+            return _series(r_tim, self.plate.h_W_m2K * foot if g is None else g)
         coverage, _ = self._share(cell)
         return _series(r_tim, self.plate.surface_h_W_m2K() * coverage * pitch)
 

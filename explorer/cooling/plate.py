@@ -65,49 +65,72 @@ def solid(name: str, field_name: str):
 
 @dataclass(frozen=True)
 class FixedSink:
-    """A plate given directly by its surface-to-sink coefficient and sink temperature.
+    """A plate given directly by a sink temperature and a coefficient (no hydraulics).
+
+    Give exactly one of ``h_W_m2K`` and ``conductance_W_mK``.
 
     Attributes
     ----------
     temperature_C : float
         Sink (plate or coolant) temperature, degC (-60 to 150).
-    h_W_m2K : float
+    h_W_m2K : float or None
         Heat transfer coefficient from the plate surface the cell (or its TIM)
         touches to the sink temperature, per unit contact area.
+    conductance_W_mK : float or None
+        Edge plates only: conductance from the plate surface under the edge
+        (or fin foot) to the sink, per metre of edge length.
     """
 
     temperature_C: float
-    h_W_m2K: float
+    h_W_m2K: float | None = None
+    conductance_W_mK: float | None = None
 
     def __post_init__(self):
-        object.__setattr__(self, "temperature_C",
-                           check_range("temperature_C", self.temperature_C, -60.0, 150.0, "degC"))
-        object.__setattr__(self, "h_W_m2K", check_positive("h_W_m2K", self.h_W_m2K, "W/(m2 K)"))
+        set_ = object.__setattr__
+        set_(self, "temperature_C", check_range("temperature_C", self.temperature_C, -60.0, 150.0, "degC"))
+        if (self.h_W_m2K is None) == (self.conductance_W_mK is None):
+            raise InputError("`fixed_sink`: expected exactly one of `h_W_m2K` (per unit contact area) "
+                             f"and `conductance_W_mK` (per metre of edge), got h_W_m2K={self.h_W_m2K!r}, "
+                             f"conductance_W_mK={self.conductance_W_mK!r}")
+        if self.h_W_m2K is not None:
+            set_(self, "h_W_m2K", check_positive("h_W_m2K", self.h_W_m2K, "W/(m2 K)"))
+        else:
+            set_(self, "conductance_W_mK",
+                 check_positive("conductance_W_mK", self.conductance_W_mK, "W/(m K)"))
 
     def parameters(self) -> dict[str, float]:
-        return {"temperature_C": self.temperature_C, "h_W_m2K": self.h_W_m2K}
+        out = {"temperature_C": self.temperature_C}
+        if self.h_W_m2K is not None:
+            out["h_W_m2K"] = self.h_W_m2K
+        else:
+            out["conductance_W_mK"] = self.conductance_W_mK
+        return out
 
     def replace(self, **changes) -> FixedSink:
-        """A copy with ``temperature_C`` and/or ``h_W_m2K`` changed."""
+        """A copy with ``temperature_C`` or the coefficient changed."""
+        valid = tuple(self.parameters())
         for k in changes:
-            if k not in ("temperature_C", "h_W_m2K"):
-                raise InputError(f"`{k}`: not a fixed-sink parameter; valid: temperature_C, h_W_m2K")
+            if k not in valid:
+                raise InputError(f"`{k}`: not a parameter of this fixed sink; valid: {', '.join(valid)}")
         return FixedSink(**{**self.parameters(), **changes})
 
     def describe(self) -> dict:
         return {"kind": "fixed_sink", **self.parameters()}
 
 
-def fixed_sink(temperature_C: float, h_W_m2K: float) -> FixedSink:
-    """A sink of fixed temperature behind a known surface coefficient (no hydraulics).
+def fixed_sink(temperature_C: float, h_W_m2K: float | None = None,
+               conductance_W_mK: float | None = None) -> FixedSink:
+    """A sink of fixed temperature behind a known coefficient (no hydraulics).
 
     Use it in place of a :class:`ColdPlate` in :func:`~explorer.cooling.face_plate`
-    or :func:`~explorer.cooling.edge_plate`.
+    (with ``h_W_m2K``) or :func:`~explorer.cooling.edge_plate` (with either
+    ``h_W_m2K`` per unit contact area or ``conductance_W_mK`` per metre of
+    edge). The design's TIM is added in series.
 
     >>> fixed_sink(temperature_C=25.0, h_W_m2K=500.0).h_W_m2K
     500.0
     """
-    return FixedSink(temperature_C, h_W_m2K)
+    return FixedSink(temperature_C, h_W_m2K, conductance_W_mK)
 
 
 # Integer-valued plate fields (validated as whole numbers, reported as floats).
@@ -243,6 +266,14 @@ class ColdPlate:
                                 f"{self.coolant} ({self.fluid.max_C:.1f} degC): flow too small for the heat")
         dp = ch.pressure_drop_Pa
         mass = self.flow_m3_s * props.density_kg_m3
+        # Laminar entry lengths, Incropera & DeWitt eqs. 8.3 and 8.23: x = 0.05 Re D (x Pr).
+        entry_h = 0.05 * ch.reynolds * ch.hydraulic_diameter_m if ch.regime == "laminar" else None
+        entry_t = None if entry_h is None else entry_h * ch.prandtl
+        notes = []
+        if entry_t is not None and entry_t > 0.5 * self.length_mm * 1e-3:
+            notes.append(f"thermally developing over much of the channel (entry length about "
+                         f"{entry_t * 1e3:.0f} mm): the fully developed Nusselt number used is "
+                         "conservative")
         h_surface = self.surface_h_W_m2K(t_bulk)
         return {
             "coolant": self.coolant,
@@ -275,6 +306,9 @@ class ColdPlate:
             "plate_heat_W": None if heat_W is None else float(heat_W),
             "temperature_rise_K": rise,
             "outlet_C": outlet,
+            "entry_length_hydraulic_mm": None if entry_h is None else entry_h * 1e3,
+            "entry_length_thermal_mm": None if entry_t is None else entry_t * 1e3,
+            "notes": notes,
             "warnings": warnings,
         }
 
