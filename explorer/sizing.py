@@ -290,6 +290,8 @@ class SizingResult:
             lines.append(f"{'pump power':<24}{pump:>36.4g}  W")
         for warning in self.hydraulics.get("warnings", []) or []:
             lines.append(f"warning: {warning}")
+        where = "" if self.position is None else f"; worst cell position {self.position}"
+        lines.append(f"{self.evaluations} runs{where}")
         lines.append(self.message)
         return "\n".join(lines)
 
