@@ -80,10 +80,11 @@ def run_demo(cell_name: str, out: Path, c_rate: float = 2.0) -> int:
     print(f"done in {wall:.2f} s\n")
     print(format_figures(fig, ds))
     out = Path(out)
-    nc = save(ds, out / f"{cell.name}_{c_rate:g}C.nc")
+    stem = f"{Path(cell.source_path).stem or 'cell'}_{c_rate:g}C"
+    nc = save(ds, out / f"{stem}.nc")
     from explorer.report import write_report
 
-    html = write_report(ds, out / f"{cell.name}_{c_rate:g}C_report.html",
+    html = write_report(ds, out / f"{stem}_report.html",
                         title=f"{cell.name}: {c_rate:g}C discharge on an edge cold plate")
     print(f"\nwrote {nc}\nwrote {html}\n")
     print(f"Caution: {CAUTION}")

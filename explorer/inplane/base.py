@@ -16,5 +16,7 @@ The time stepper drives any thermal model through these members:
 5. ``temperature_C(state)`` -> array ``grid.shape`` (the cell sheet only);
    ``mean_temperature_C(state)``; ``stored_J(state)`` relative to 0 degC
    (fin included) for energy checks; ``core_surface_difference_K(heat_W)``
-   -- the through-plane core-to-surface estimate per grid cell.
+   -- the through-plane core-to-surface estimate per grid cell;
+   ``coolant_outlet_C(state)`` -- coolant leaving this cell, None without a
+   coolant stream.
 """

@@ -79,10 +79,13 @@ class LumpedThermal:
     def stored_J(self, state) -> float:
         return self.heat_capacity_J_per_K * float(state[0])
 
-    def coolant_outlet_C(self, rejected_W: dict) -> float | None:
-        if self._stream is None:
+    def coolant_outlet_C(self, state) -> float | None:
+        """Coolant leaving this cell: inlet plus what this and the upstream cells put in."""
+        if self._stream is None or self._stream.sink not in self._names:
             return None
-        return self._stream.inlet_C + self._outlet_rise_per_W * rejected_W.get(self._stream.sink, 0.0)
+        i = self._names.index(self._stream.sink)
+        into_stream = self._G[i] * (float(state[0]) - self._Ts[i])
+        return self._stream.inlet_C + self._outlet_rise_per_W * into_stream
 
     def core_surface_difference_K(self, heat_W) -> np.ndarray:
         """Plane wall with uniform generation (Incropera & DeWitt §3.5): q L^2/(8k) cooled on

@@ -164,8 +164,8 @@ class _Stepper:
                 lst.append(0.0)
         dT = self.thermal.core_surface_difference_K(heat_map)
         r.core_difference.append(float(np.max(T + dT) - np.max(T)) if np.size(dT) else 0.0)
-        outlet = getattr(self.thermal, "coolant_outlet_C", None)
-        r.coolant_outlet.append(outlet(rejected) if outlet and rejected else math.nan)
+        outlet = self.thermal.coolant_outlet_C(self.T_state)
+        r.coolant_outlet.append(math.nan if outlet is None else outlet)
         r.stored_J.append(self.thermal.stored_J(self.T_state))
         # cyclable lithium is a conservation check, not a trace: taken where duty steps end
         r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
