@@ -209,3 +209,28 @@ def test_validators_messages(call, fragments):
     assert isinstance(e.value, ValueError)
     for frag in fragments:
         assert frag in str(e.value), (frag, str(e.value))
+
+
+def test_random_corruptions_only_raise_cell_file_error():
+    # Project contract (no traceback from inside a library): a seeded random edit of a
+    # valid file either loads or raises CellFileError, nothing else.
+    import random
+
+    from explorer.cell import cell_from_text
+
+    rng = random.Random(7)
+    tokens = ["0", "-1", "1e400", "nan", '"x"', '"5 kg"', '"5"', "true", "[1, 2]", "{a = 1}",
+              '"-3 mm"', '"0 um"', '"3 um/"', '"1 degC"', '""']
+    lines = SRC.splitlines()
+    for _ in range(200):
+        edited = list(lines)
+        for _ in range(rng.randint(1, 3)):
+            i = rng.randrange(len(edited))
+            if "=" in edited[i] and rng.random() < 0.8:
+                edited[i] = f"{edited[i].split('=')[0]}= {rng.choice(tokens)}"
+            else:
+                del edited[i]
+        try:
+            cell_from_text("\n".join(edited), "corrupted")
+        except CellFileError as e:
+            assert str(e).startswith("cell file corrupted has")

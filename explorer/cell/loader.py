@@ -122,13 +122,13 @@ class _Reader:
                 return None
             return raw
         if f.kind == "choice":
-            if raw not in f.choices:
+            if not isinstance(raw, str) or raw not in f.choices:
                 self.add(path, raw, f"one of {', '.join(map(repr, f.choices))}")
                 return None
             return raw
         if f.kind == "key":
             table = TABLES[f.table]
-            if raw not in table:
+            if not isinstance(raw, str) or raw not in table:
                 self.add(path, raw, _key_list(f.table))
                 return None
             return raw
