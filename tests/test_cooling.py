@@ -408,3 +408,11 @@ def test_entry_lengths_reported():
     assert any("conservative" in n for n in h["notes"])
     turbulent = cooling.cold_plate("water", flow_L_min=80.0, inlet_C=25.0).hydraulics()
     assert turbulent["regime"] == "turbulent" and turbulent["entry_length_thermal_mm"] is None
+
+
+def test_combined_replace_of_non_numeric_inputs(cell):
+    combo = cooling.edge_plate(cooling.cold_plate("water", 4.0, 25.0)) + cooling.tab_cooling()
+    assert combo.replace(coolant="eg50").parts[0].plate.coolant == "eg50"
+    assert combo.replace(edge="top").sinks(cell, None).edges.keys() == {"top"}
+    with pytest.raises(InputError, match="not a parameter"):
+        combo.replace(colour="red")

@@ -92,6 +92,12 @@ class _Design:
                 out[name] = float(value)
         return out
 
+    def accepts(self) -> set[str]:
+        """Every name :meth:`replace` takes: numeric parameters and the other inputs."""
+        plate = self._plate()
+        own = {f.name for f in fields(self) if f.name != "plate"}
+        return own | ({f.name for f in fields(plate)} if plate is not None else set())
+
     def replace(self, **changes):
         plate = self._plate()
         plate_fields = [f.name for f in fields(plate)] if plate is not None else []
@@ -584,9 +590,13 @@ class Combined(_Design):
         names = self._names()
         parts = list(self.parts)
         for name, value in changes.items():
-            if name not in names:
-                valid = ", ".join(sorted(self._names(aliases=False)))
-                raise InputError(f"`{name}`: not a parameter of this combined design; valid: {valid}")
+            if name not in names:  # a non-numeric input (e.g. "coolant") only one part has
+                owners = [i for i, p in enumerate(parts) if name in p.accepts()]
+                if len(owners) != 1:
+                    valid = ", ".join(sorted(self._names(aliases=False)))
+                    raise InputError(f"`{name}`: not a parameter of this combined design"
+                                     f"{' (several parts have it)' if owners else ''}; valid: {valid}")
+                names[name] = (owners[0], name)
             i, n = names[name]
             parts[i] = parts[i].replace(**{n: value})
         return Combined(tuple(parts))
