@@ -265,3 +265,21 @@ def test_cell_from_text_and_dict_match_file():
     assert b.sha256 == a.sha256 and b.source_path == "pasted"
     c = cell_from_dict(tomllib.loads(text))
     assert c.derived == a.derived and len(c.sha256) == 64
+
+
+def test_summary_rows(cells, tmp_path):
+    from explorer.cell import summary, summary_text
+
+    c = cells["van_nmc_66ah"]
+    rows = {r["key"]: r for r in summary(c)}
+    assert rows["mass"]["value"] == pytest.approx(c.derived.mass_kg * 1e3)
+    assert rows["mass"]["unit"] == "g"
+    assert "computed_heat capacity" not in rows  # no override, no extra row
+    assert "Van module NMC 66 Ah" in summary_text(c)
+    src = list_demo_cells()["van_nmc_66ah"].read_text(encoding="utf-8")
+    f = tmp_path / "o.toml"
+    f.write_text(src + '\n[thermal]\nheat_capacity = "800 J/K"\n', encoding="utf-8")
+    rows = {r["key"]: r for r in summary(load_cell(f))}
+    assert rows["heat_capacity"]["value"] == 800.0
+    assert rows["computed_heat capacity"]["value"] == pytest.approx(
+        c.derived.computed_heat_capacity_J_K)

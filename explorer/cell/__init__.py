@@ -5,6 +5,7 @@
 * :func:`list_demo_cells` — names of the bundled demo cells and their paths.
 * :mod:`explorer.cell.model` — the :class:`Cell` dataclasses (SI units).
 * :mod:`explorer.cell.schema` — the file format's tables and keys.
+* :func:`summary`, :func:`summary_text` — key figures with units for reports.
 * :mod:`explorer.cell.derived` — capacities, foils, mass, stack properties.
 """
 
@@ -27,6 +28,7 @@ from explorer.cell.model import (
     Tab,
     ThermalOverrides,
 )
+from explorer.cell.summary import summary, summary_text
 
 __all__ = [
     "load_cell",
@@ -34,6 +36,8 @@ __all__ = [
     "cell_from_text",
     "cell_from_dict",
     "ocv",
+    "summary",
+    "summary_text",
     "CellFileNotFoundError",
     "Cell",
     "Collector",
