@@ -320,3 +320,71 @@ def test_stand_in_energy_balance():
     lhs = plate.capacity_rate_W_K() * (ds["coolant_outlet"] - plate.inlet_C)
     np.testing.assert_allclose(lhs, ds["heat_rejected"], rtol=1e-12)
     assert math.isfinite(float(ds["temperature_max"].max()))
+
+# --------------------------------------------------------------------------- real runs
+
+
+@pytest.fixture(scope="module")
+def van():
+    from explorer.cell import load_cell
+
+    return load_cell("van_nmc_66ah")
+
+
+# Cheap real settings: averaged layout, SPM, coarse grid, a 25-minute 2C discharge.
+REAL = {"electrochemistry": "spm", "layout": "averaged", "grid": (6, 4),
+        "output_interval_s": 30.0}
+REAL_DUTY = duty.discharge(c_rate=2.0, end_time_s=1500.0)
+
+
+def _plate_design(**plate):
+    from explorer import cooling
+
+    return cooling.edge_plate(cooling.cold_plate("eg50", **{"flow_L_min": 2.0, "inlet_C": 25.0,
+                                                            "cells_per_plate": 1, **plate}),
+                              edge="bottom", fin_mm=1.0)
+
+
+def _real_met(van, design, lim):
+    from explorer.simulate import simulate
+
+    return lim.check(simulate(van, REAL_DUTY, design, **REAL))["met"]
+
+
+def test_real_fin_sizing_is_self_consistent(van):
+    """Re-run at the value meets the limits; a 5 % thinner fin does not (common practice)."""
+    lim = Limits(temperature_max_C=40.0)
+    design = _plate_design()
+    res = size_cooling(van, REAL_DUTY, design, "fin_mm", (0.2, 3.0), lim, **REAL)
+    assert res.feasible and res.kind == "boundary", res.message
+    assert _real_met(van, design.replace(fin_mm=res.value), lim)
+    assert not _real_met(van, design.replace(fin_mm=0.95 * res.value), lim)
+    # the hydraulic figures of the found design are reported
+    assert res.hydraulics["pressure_drop_Pa"] > 0 and res.hydraulics["pump_power_W"] > 0
+    assert res.dataset.attrs["status"] == "completed"
+
+
+def test_real_inlet_sizing_is_self_consistent(van):
+    """Re-run at the value meets the limits; a 5 % warmer inlet does not (common practice)."""
+    lim = Limits(temperature_max_C=45.0)
+    design = _plate_design()
+    res = size_cooling(van, REAL_DUTY, design, "inlet_C", (10.0, 40.0), lim, **REAL)
+    assert res.feasible and res.kind == "boundary", res.message
+    assert _real_met(van, design.replace(inlet_C=res.value), lim)
+    assert not _real_met(van, design.replace(inlet_C=1.05 * res.value), lim)
+
+
+def test_real_coolant_energy_balance_at_the_design(van):
+    """Flow x cp x (outlet - inlet) equals the heat the cell rejects into the coolant within 1 %
+    (first law for the coolant stream, Incropera & DeWitt, Fundamentals of Heat and Mass
+    Transfer, 6th ed. 2007, eq. 8.34: q = m_dot c_p (T_m,o - T_m,i))."""
+    lim = Limits(temperature_max_C=40.0)
+    design = _plate_design()
+    res = size_cooling(van, REAL_DUTY, design, "fin_mm", (0.2, 3.0), lim, rtol=0.02, **REAL)
+    ds = res.dataset
+    hyd = res.hydraulics
+    rate = hyd["mass_flow_kg_s"] * hyd["specific_heat_J_kgK"]  # one cell on the plate
+    into_coolant = ds["heat_to_bottom"][1:]  # the edge sink is the only one, on the coolant
+    lhs = rate * (ds["coolant_outlet"][1:] - 25.0)
+    np.testing.assert_allclose(lhs, into_coolant, rtol=0.01)
+    assert float(into_coolant[-1]) > 1.0  # a real heat flow, not a trivial zero
