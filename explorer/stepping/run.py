@@ -126,7 +126,7 @@ class _Stepper:
         self.joule = (coupling.joule_map_W_per_A2 if coupling.joule_map_W_per_A2 is not None
                       else np.zeros(shape))
         self.R = coupling.series_resistance_ohm
-        self.R_tab = float(sum(coupling.tab_joule_W_per_A2.values()))
+        self.needs_field = False
 
     # -- state ------------------------------------------------------------------------------
     def start(self, soc, temperature_C):
@@ -174,6 +174,7 @@ class _Stepper:
     def run_step(self, index, step: ResolvedStep):
         s = self.s
         t0 = self.t
+        self.needs_field = any(e.quantity == "temperature" for e in step.ends)
         interval = s.output_interval_s or min(max(step.expected_duration_s / POINTS_PER_STEP,
                                                   AUTO_INTERVAL_S[0]), AUTO_INTERVAL_S[1])
         wanted = min(s.dt_first_s, interval)  # the step size the error control asks for
@@ -236,16 +237,22 @@ class _Stepper:
         if not np.isfinite(res.voltage_V):
             self._last_error = "the rod returned a non-finite voltage"
             return None
-        I = res.current_A
-        q_rod = sum(res.heat_W.get(k, 0.0) for k in HEAT_KEYS)
-        heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells) + I * I * self.joule
-        tab_heat = {k: I * I * v for k, v in self.c.tab_joule_W_per_A2.items()}
-        T_new, rejected = self.thermal.step(self.T_state, heat_map, dt, tab_heat or None)
         tr = _Trial()
-        tr.dt, tr.rod, tr.thermal, tr.rejected = dt, res, T_new, rejected
-        tr.heat_map, tr.tab_heat, tr.heat = heat_map, tab_heat, res.heat_W
-        tr.t_max = float(np.max(self.thermal.temperature_C(T_new)))
+        tr.dt, tr.rod, tr.heat, tr.thermal = dt, res, res.heat_W, None
+        if self.needs_field:
+            self._thermal_step(tr)
         return tr
+
+    def _thermal_step(self, tr: _Trial) -> None:
+        """The thermal step for a trial; deferred until a trial is accepted unless an end
+        condition on temperature has to be watched (saves factorisations for trial dts)."""
+        I = tr.rod.current_A
+        q_rod = sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS)
+        tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells) + I * I * self.joule
+        tr.tab_heat = {k: I * I * v for k, v in self.c.tab_joule_W_per_A2.items()}
+        tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
+                                                    tr.tab_heat or None)
+        tr.t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
 
     def _value(self, end: End, tr: _Trial, t0: float) -> float:
         q = end.quantity
@@ -322,6 +329,8 @@ class _Stepper:
         return None
 
     def _accept(self, tr: _Trial, index, boundary=False):
+        if tr.thermal is None:
+            self._thermal_step(tr)
         self.t += tr.dt
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
