@@ -31,8 +31,10 @@ the step's temperature), it is precomputed as a propagator
 
     c_new = P c_old + q N,   c_surf_new = s . c_old + s_q N,
 
-with ``P = (W/dt + D K / R^2)^-1 W / dt``; ``P`` and ``q`` are cached per
-``(D, R, dt)`` so a step costs a small dense mat-vec.
+with ``P = (W/dt + D K / R^2)^-1 W / dt``, built from the generalised
+eigen-decomposition of the stencil (:class:`ModalEuler`, once per mesh), so a
+new ``dt`` or temperature costs one small matrix product; ``P`` and ``q`` are
+also cached per ``(D, R, dt)``.
 """
 
 from __future__ import annotations
@@ -40,9 +42,50 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg import solve_banded
+from scipy.linalg import eigh
 
-__all__ = ["SphereShells", "Propagator"]
+__all__ = ["SphereShells", "Propagator", "ModalEuler", "tridiagonal_stiffness"]
+
+
+def tridiagonal_stiffness(g):
+    """Symmetric stiffness matrix of a chain of cells joined by face conductances ``g``."""
+    n = len(g) + 1
+    K = np.zeros((n, n))
+    i = np.arange(n - 1)
+    K[i, i] += g
+    K[i + 1, i + 1] += g
+    K[i, i + 1] = -g
+    K[i + 1, i] = -g
+    return K
+
+
+class ModalEuler:
+    """Backward Euler for ``W dc/dt = -s K c + b u`` by the generalised eigenproblem of (K, W).
+
+    ``W`` is diagonal and positive (cell volumes), ``K`` symmetric positive
+    semi-definite (the diffusion stencil), ``s`` a positive scalar (the
+    diffusivity's size, which is the only thing temperature changes). With
+    ``K V = W V diag(lam)`` and ``V' W V = I``, one step is
+
+        c_new = V diag(1 / (1 + dt s lam)) V' W c_old + V diag(dt / (1 + dt s lam)) V' b u,
+
+    so a new ``dt`` or temperature costs one small matrix product instead of a
+    factorisation. The zero eigenvalue (the constant mode) passes through
+    unchanged, which keeps the scheme conservative.
+    """
+
+    def __init__(self, K, w):
+        lam, V = eigh(K, np.diag(w))
+        self.lam = np.clip(lam, 0.0, None)  # round-off can make the zero mode slightly negative
+        self.V = V
+        self._VtW = V.T * w
+
+    def operator(self, s: float, dt: float, b):
+        """``(P, q)`` with ``c_new = P @ c_old + q * u`` for forcing vector ``b``."""
+        d = 1.0 / (1.0 + dt * s * self.lam)
+        P = (self.V * d) @ self._VtW
+        q = self.V @ (dt * d * (self.V.T @ b))
+        return P, q
 
 
 @dataclass(frozen=True)
@@ -86,6 +129,7 @@ class SphereShells:
         outer = edges[-2]
         centroid = 0.75 * (1.0 - outer ** 4) / (1.0 - outer ** 3)
         self.surface_distance = 1.0 - centroid  # (R - r_c) / R
+        self._modal = ModalEuler(tridiagonal_stiffness(self._g), self.weights)
         self._cache: dict = {}
 
     def mean(self, c):
@@ -99,22 +143,11 @@ class SphereShells:
         if hit is not None:
             return hit
         n = self.n
-        w = self.weights / dt
-        g = self._g * diffusivity / radius ** 2
-        ab = np.zeros((3, n))
-        ab[1] = w
-        ab[1, :-1] += g
-        ab[1, 1:] += g
-        ab[0, 1:] = -g
-        ab[2, :-1] = -g
-        rhs = np.zeros((n, n + 1))
-        rhs[np.arange(n), np.arange(n)] = w
-        rhs[n - 1, n] = -3.0 / radius  # outer-face flux term (4 pi R^2) / (4/3 pi R^3)
-        sol = solve_banded((1, 1), ab, rhs, check_finite=False)
-        P, q = sol[:, :n], sol[:, n]
-        s = P[n - 1].copy()
+        force = np.zeros(n)
+        force[n - 1] = -3.0 / radius  # outer-face flux term (4 pi R^2) / (4/3 pi R^3)
+        P, q = self._modal.operator(diffusivity / radius ** 2, dt, force)
         s_q = q[n - 1] - radius * self.surface_distance / diffusivity
-        prop = Propagator(P, q, s, float(s_q))
+        prop = Propagator(P, q, P[n - 1].copy(), float(s_q))
         if len(self._cache) > 8:
             self._cache.clear()
         self._cache[key] = prop

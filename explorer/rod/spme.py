@@ -30,11 +30,11 @@ State layout: ``[c_n shells, c_p shells, c_e cells, I]``.
 from __future__ import annotations
 
 import numpy as np
-from scipy.linalg import solve_banded
 
 from explorer.rod.kinetics import exchange_current, overpotential
 from explorer.rod.mesh import ThroughMesh
 from explorer.rod.params import FARADAY
+from explorer.rod.particle import ModalEuler, tridiagonal_stiffness
 from explorer.rod.spm import SPM
 
 __all__ = ["SPMe"]
@@ -63,6 +63,10 @@ class SPMe(SPM):
         src[xm.pos] = -xm.dx[xm.pos] / (A * p.thickness_m)
         self._source_per_A = (1.0 - el.transference_number) * src / FARADAY
         self._storage = xm.porosity * xm.dx
+        # salt diffusion stencil per unit bulk diffusivity (D_e at c0 scales it with T)
+        self._de0 = float(el.diffusivity(el.initial_concentration_mol_m3))  # at 298.15 K
+        self._e_modal = ModalEuler(tridiagonal_stiffness(xm.face_harmonic(xm.transport)),
+                                   self._storage)
         self._shape_per_A = xm.reaction_shape / A  # ionic current at the faces per ampere
         self._solid_drop_per_A = (n.thickness_m / (3.0 * n.solid_conductivity_eff_S_m)
                                   + p.thickness_m / (3.0 * p.solid_conductivity_eff_S_m)) / A
@@ -75,22 +79,9 @@ class SPMe(SPM):
 
     def _blocks(self, dt, T):
         blocks = super()._blocks(dt, T)
-        xm, el = self.x_mesh, self.params.electrolyte
-        d_eff = el.diffusion(el.initial_concentration_mol_m3, T) * xm.transport
-        g = xm.face_harmonic(d_eff)
-        nx = xm.nx
-        w = self._storage / dt
-        ab = np.zeros((3, nx))
-        ab[1] = w
-        ab[1, :-1] += g
-        ab[1, 1:] += g
-        ab[0, 1:] = -g
-        ab[2, :-1] = -g
-        rhs = np.zeros((nx, nx + 1))
-        rhs[np.arange(nx), np.arange(nx)] = w
-        rhs[:, nx] = self._source_per_A
-        sol = solve_banded((1, 1), ab, rhs, check_finite=False)
-        blocks.append((sol[:, :nx], sol[:, nx]))
+        el = self.params.electrolyte
+        P, q = self._e_modal.operator(self._de0 * el.diffusion_factor(T), dt, self._source_per_A)
+        blocks.append((P, q))
         return blocks
 
     def _constants(self, T):
