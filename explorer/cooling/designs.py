@@ -138,6 +138,12 @@ class _Design:
     def __add__(self, other):
         return combine(self, other)
 
+    def _summary(self) -> str:
+        return ""
+
+    def __repr__(self) -> str:
+        return f"{type(self).__name__}({self._summary()})"
+
 
 def _positions(n: int) -> list[int]:
     return sorted({0, (n - 1) // 2, n - 1})
@@ -155,7 +161,7 @@ def _series(r_tim: float, conductance: float) -> float:
 
 
 # ---------------------------------------------------------------------------------------
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class Convection(_Design):
     """Both faces exchange heat with an ambient at a fixed coefficient."""
 
@@ -168,6 +174,9 @@ class Convection(_Design):
         object.__setattr__(self, "h_W_m2K", check_positive("h_W_m2K", self.h_W_m2K, "W/(m2 K)"))
         object.__setattr__(self, "ambient_C",
                            check_range("ambient_C", self.ambient_C, -60.0, 150.0, "degC"))
+
+    def _summary(self) -> str:
+        return f"both faces, h {self.h_W_m2K:g} W/(m2 K) to {self.ambient_C:g} degC"
 
     def sinks(self, cell, grid, position=None) -> Sinks:
         return Sinks(faces={f: FaceSink(self.h_W_m2K, self.ambient_C) for f in ("front", "back")})
@@ -183,7 +192,7 @@ def convection(h_W_m2K: float, ambient_C: float) -> Convection:
 
 
 # ---------------------------------------------------------------------------------------
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class TabCooling(_Design):
     """Each tab conducts to a busbar held at ``busbar_C`` through ``conductance_W_K``."""
 
@@ -203,6 +212,10 @@ class TabCooling(_Design):
             if not tabs or not all(isinstance(t, str) for t in tabs):
                 raise InputError(f"`tabs`: expected tab names, got {self.tabs!r}")
             object.__setattr__(self, "tabs", tabs)
+
+    def _summary(self) -> str:
+        which = "every tab" if self.tabs is None else ", ".join(self.tabs)
+        return f"{which}, {self.conductance_W_K:g} W/K each to {self.busbar_C:g} degC"
 
     def sinks(self, cell, grid, position=None) -> Sinks:
         names = [t.name for t in cell.geometry.tabs]
@@ -238,7 +251,7 @@ def _check_tim(obj):
     object.__setattr__(obj, "tim_mm", check_nonnegative("tim_mm", obj.tim_mm, "mm"))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class FacePlate(_Design):
     """A plate (cold plate or fixed sink) under one or both faces, through a TIM."""
 
@@ -263,6 +276,10 @@ class FacePlate(_Design):
         if isinstance(self.plate, ColdPlate) and self.plate.flow_direction == "across":
             raise InputError("`flow_direction`: 'across' is for edge plates; under a face use one of "
                              "'+x', '-x', '+y', '-y'")
+
+    def _summary(self) -> str:
+        return (f"{self.face}, TIM {self.tim_W_mK:g} W/(m K) x {self.tim_mm:g} mm, "
+                f"{self.faces_per_plate} face(s) per plate, {self.plate!r}")
 
     @property
     def direction(self) -> str:
@@ -359,7 +376,7 @@ _ALONG = {"bottom": ("+x", "-x"), "top": ("+x", "-x"), "left": ("+y", "-y"), "ri
 _ACROSS = {"bottom": "+y", "top": "-y", "left": "+x", "right": "-x"}  # into the cell, off the edge
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class EdgePlate(_Design):
     """A plate at one edge, touched by the cell's own edge or by a fin bent onto it."""
 
@@ -392,6 +409,11 @@ class EdgePlate(_Design):
             if self.plate.flow_direction not in allowed:
                 raise InputError(f"`flow_direction`: at the {self.edge} edge expected one of "
                                  f"{', '.join(map(repr, allowed))}, got {self.plate.flow_direction!r}")
+
+    def _summary(self) -> str:
+        fin = "no fin" if self.fin_mm is None else f"fin {self.fin_mm:g} mm {self.fin_material}"
+        return (f"{self.edge}, {fin}, TIM {self.tim_W_mK:g} W/(m K) x {self.tim_mm:g} mm, "
+                f"{self.plate!r}")
 
     @property
     def direction(self) -> str:
@@ -536,7 +558,7 @@ def _fit_warnings(plate: ColdPlate, coverage: float, needed_m: float, what: str)
 
 
 # ---------------------------------------------------------------------------------------
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class Combined(_Design):
     """Several designs acting on one cell (e.g. an edge plate plus tab cooling)."""
 
@@ -556,6 +578,9 @@ class Combined(_Design):
         if len(flat) < 1:
             raise InputError("`cooling`: combine() needs at least one design")
         object.__setattr__(self, "parts", tuple(flat))
+
+    def _summary(self) -> str:
+        return " + ".join(repr(p) for p in self.parts)
 
     def _labels(self) -> list[str]:
         kinds = [p.kind for p in self.parts]

@@ -63,7 +63,7 @@ def solid(name: str, field_name: str):
     return SOLIDS[name]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class FixedSink:
     """A plate given directly by a sink temperature and a coefficient (no hydraulics).
 
@@ -117,6 +117,11 @@ class FixedSink:
     def describe(self) -> dict:
         return {"kind": "fixed_sink", **self.parameters()}
 
+    def __repr__(self) -> str:
+        coef = (f"h {self.h_W_m2K:g} W/(m2 K)" if self.h_W_m2K is not None
+                else f"{self.conductance_W_mK:g} W/(m K) per metre of edge")
+        return f"FixedSink({self.temperature_C:g} degC, {coef})"
+
 
 def fixed_sink(temperature_C: float, h_W_m2K: float | None = None,
                conductance_W_mK: float | None = None) -> FixedSink:
@@ -137,7 +142,7 @@ def fixed_sink(temperature_C: float, h_W_m2K: float | None = None,
 _INTEGERS = {"channels": 1, "cells_per_plate": 1, "bends": 0}
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class ColdPlate:
     """A liquid cold plate with parallel straight rectangular channels (see the module notes).
 
@@ -330,6 +335,12 @@ class ColdPlate:
 
     def describe(self) -> dict:
         return {"kind": "cold_plate", **asdict(self)}
+
+    def __repr__(self) -> str:
+        flow = f", flow {self.flow_direction}" if self.flow_direction else ""
+        return (f"ColdPlate({self.coolant}, {self.flow_L_min:g} L/min at {self.inlet_C:g} degC, "
+                f"{self.channels} channels {self.channel_width_mm:g} x {self.channel_height_mm:g} mm "
+                f"x {self.length_mm:g} mm, {self.material}, {self.cells_per_plate} cell(s){flow})")
 
 
 def _clip(fluid: Coolant, t: float) -> float:
