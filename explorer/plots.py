@@ -39,6 +39,7 @@ __all__ = [
     "heat_split_figure",
     "limit_values",
     "sizing_figure",
+    "spot_annotation",
     "time_axis",
     "traces_figure",
 ]
@@ -137,13 +138,17 @@ def _scale(variable: str) -> tuple[str, str, float, str]:
     return FIELDS[variable]
 
 
-def field_frame(ds, variable: str, index: int) -> dict:
+def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None) -> dict:
     """The data of one field picture: ``z`` (ny, nx) in display units, the extreme point, a title.
 
     Used by :func:`field_figure` and by the app, which updates a live figure in place from it.
+    ``values`` may pass the whole field already in display units (time, y, x) to skip the lookup.
     """
     label, unit, factor, _ = _scale(variable)
-    z = np.asarray(ds[variable].isel(time=index).values, dtype=float) * factor
+    if values is None:
+        z = np.asarray(ds[variable].isel(time=index).values, dtype=float) * factor
+    else:
+        z = values[index]
     k = int(np.nanargmax(z)) if variable != "soc" else int(np.nanargmin(z))
     j, i = np.unravel_index(k, z.shape)
     t = float(ds["time"].values[index])
@@ -156,6 +161,15 @@ def field_frame(ds, variable: str, index: int) -> dict:
         "spot_word": word,
         "title": f"{label} at t = {t:.0f} s — {word} {z[j, i]:.3g} {unit}",
     }
+
+
+def spot_annotation(frame: dict, unit: str) -> dict:
+    """The marker of a field's extreme point: an arrow and its value (a layout annotation)."""
+    return dict(x=frame["spot_x_mm"], y=frame["spot_y_mm"], xref="x", yref="y",
+                text=f"{frame['spot_word']} {frame['spot_value']:.3g} {unit}", showarrow=True,
+                arrowhead=2, arrowwidth=1.5, arrowcolor="#000000", ax=30, ay=-30,
+                font=dict(color="#000000", size=12), bgcolor="rgba(255,255,255,0.85)",
+                bordercolor="#000000", borderwidth=1)
 
 
 def _color_range(ds, variable: str) -> tuple[float, float]:
@@ -193,7 +207,9 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
     Returns
     -------
     plotly.graph_objects.Figure
-        Trace 0 is the heat map, trace 1 the marker of the extreme point.
+        One trace (the heat map); the extreme point is ``layout.annotations[0]`` (an annotation,
+        not a trace, because plotly.js animates frames that mix a heat map and a scatter trace
+        badly) and ``layout.meta`` holds the variable and the time index shown.
     """
     label, unit, _, colorscale = _scale(variable)
     _require(ds, [variable, "time", "x", "y"], "field_figure")
@@ -221,17 +237,12 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
                 hovertemplate="x %{x:.1f} mm<br>y %{y:.1f} mm<br>%{z:.4g} " + unit + "<extra></extra>",
                 name=label,
             ),
-            go.Scatter(
-                x=[first["spot_x_mm"]], y=[first["spot_y_mm"]], mode="markers",
-                marker=dict(symbol="x-thin", size=16, line=dict(width=3, color="#FFFFFF")),
-                name=first["spot_word"], hovertemplate=f"{first['spot_word']} point<extra></extra>",
-                showlegend=False,
-            ),
         ]
     )
     width_mm = float(x_mm[-1] - x_mm[0]) if x_mm.size > 1 else 1.0
     fig.update_layout(**_LAYOUT)
-    fig.update_layout(title=dict(text=first["title"]), hovermode="closest")
+    fig.update_layout(title=dict(text=first["title"]), hovermode="closest",
+                      annotations=[spot_annotation(first, unit)])
     fig.update_xaxes(title_text="x across the width (mm)", constrain="domain", showgrid=False)
     fig.update_yaxes(title_text="y along the height (mm)", scaleanchor="x", scaleratio=1,
                      constrain="domain", showgrid=False)
@@ -239,17 +250,18 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
 
     if animate and n_time > 1:
         idx = frame_indices(n_time, max_frames)
+        values = np.asarray(ds[variable].values, dtype=float) * FIELDS[variable][2]
         frames, steps = [], []
         for k in idx:
-            fr = field_frame(ds, variable, int(k))
+            fr = field_frame(ds, variable, int(k), values=values)
             name = str(int(k))
-            frames.append(go.Frame(
+            # plain dicts (validated once on assignment below); only z changes per frame: extra
+            # x/y or a second trace in the frames leaves plotly.js's animated heat map blank
+            frames.append(dict(
                 name=name,
-                # full heat-map data in each frame: a z-only frame can leave the map blank
-                data=[go.Heatmap(x=x_mm, y=y_mm, z=fr["z"], zmin=zmin, zmax=zmax, colorscale=colorscale),
-                      go.Scatter(x=[fr["spot_x_mm"]], y=[fr["spot_y_mm"]])],
-                traces=[0, 1],
-                layout=go.Layout(title=dict(text=fr["title"])),
+                data=[dict(type="heatmap", z=fr["z"])],
+                traces=[0],
+                layout=dict(title=dict(text=fr["title"]), annotations=[spot_annotation(fr, unit)]),
             ))
             steps.append(dict(
                 method="animate", label=f"{float(ds['time'].values[k]):.0f}",

@@ -27,7 +27,7 @@ def _hlines(fig) -> list[float]:
 
 def test_field_matches_dataset_in_mm_with_equal_aspect(ds):
     fig = plots.field_figure(ds, "temperature", index=7)
-    heat, spot = fig.data[0], fig.data[1]
+    heat, spot = fig.data[0], fig.layout.annotations[0]
     np.testing.assert_allclose(np.asarray(heat.z), ds["temperature"].isel(time=7).values)
     # m -> mm by the SI prefix (BIPM, The International System of Units, 9th ed. 2019, Table 7)
     np.testing.assert_allclose(heat.x, ds["x"].values * 1e3)
@@ -37,8 +37,9 @@ def test_field_matches_dataset_in_mm_with_equal_aspect(ds):
     assert "°C" in heat.colorbar.title.text
     field = ds["temperature"].isel(time=7)
     j, i = np.unravel_index(int(np.argmax(field.values)), field.shape)
-    assert spot.x[0] == pytest.approx(ds["x"].values[i] * 1e3)
-    assert spot.y[0] == pytest.approx(ds["y"].values[j] * 1e3)
+    assert spot.x == pytest.approx(ds["x"].values[i] * 1e3)
+    assert spot.y == pytest.approx(ds["y"].values[j] * 1e3)
+    assert spot.text.startswith("hottest") and "°C" in spot.text
     # one colour range for every frame, so colours compare across time
     assert heat.zmin == pytest.approx(float(ds["temperature"].min()))
     assert heat.zmax == pytest.approx(float(ds["temperature"].max()))

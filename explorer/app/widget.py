@@ -447,10 +447,10 @@ class ExplorerApp(widgets.VBox):
                                (self.fig_heat_flux, "heat_flux")):
             frame = plots.field_frame(ds, variable, index)
             fig = live.figure
+            spot = plots.spot_annotation(frame, plots.FIELDS[variable][1])
             with fig.batch_update():
                 fig.data[0].z = frame["z"]
-                fig.data[1].x = [frame["spot_x_mm"]]
-                fig.data[1].y = [frame["spot_y_mm"]]
+                fig.layout.annotations[0].update(x=spot["x"], y=spot["y"], text=spot["text"])
                 fig.layout.title.text = frame["title"]
             live.refresh()
         _, _, divisor = plots.time_axis(ds)
