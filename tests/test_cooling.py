@@ -335,21 +335,25 @@ def test_design_bad_inputs():
 
 
 # -- with the in-plane thermal model ---------------------------------------------------
-def test_coolant_energy_balance_in_the_thermal_model(cell, grid):
+@pytest.mark.parametrize("kind", ["edge", "face"])
+def test_coolant_energy_balance_in_the_thermal_model(cell, grid, kind):
     """Steady state with the real thermal model: the coolant leaving the cell is warmer than
     the coolant reaching it by (heat into the sink) / (m cp) (Incropera & DeWitt eq. 8.34),
     upstream cells add their heat, and the last cell on the plate runs hottest."""
     from explorer.inplane.thermal import PlaneThermal
 
     plate = cooling.cold_plate("eg50", flow_L_min=2.0, inlet_C=25.0, cells_per_plate=8)
-    design = cooling.edge_plate(plate, fin_mm=1.0) + cooling.tab_cooling(busbar_C=30.0)
+    if kind == "edge":
+        design, sink = cooling.edge_plate(plate, fin_mm=1.0) + cooling.tab_cooling(busbar_C=30.0), "bottom"
+    else:
+        design, sink = cooling.face_plate(plate.replace(flow_direction="-y"), face="both"), "back"
     heat = np.full(grid.shape, 25.0 / grid.nx / grid.ny)
     peaks = []
     for k in design.positions_to_check():
         sinks = design.sinks(cell, grid, position=k)
         model = PlaneThermal(cell, grid, sinks)
         state = model.steady_state(heat)
-        q = model.heat_flows_W(state)["bottom"]
+        q = model.heat_flows_W(state)[sink]
         C = sinks.coolant.capacity_rate_W_K
         assert model.coolant_outlet_C(state) - model.coolant_inlet_C(state) == pytest.approx(q / C, rel=1e-9)
         assert model.coolant_inlet_C(state) == pytest.approx(25.0 + k * q / C, rel=1e-9)

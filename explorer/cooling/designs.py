@@ -30,6 +30,11 @@ edge length for edges):
   with ``foot`` the contact width (the cell's stack thickness, or the fin's
   foot) and ``pitch`` the plate length per cell along the stack (stack
   thickness plus fin): the plate under one cell's pitch serves that cell.
+
+Coolant properties for the channel coefficient and the capacity rate are
+taken at the plate inlet; the coolant temperature itself varies along the
+flow through the :class:`~explorer.inplane.sinks.CoolantStream`, which the
+thermal model solves.
 """
 
 from __future__ import annotations
