@@ -374,7 +374,7 @@ def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
         for case in todo:
             done(case, run_case(cell, duty, case.design, case.settings, keep_fields))
         return
-    client, cluster = _connect(scheduler)
+    client, cluster, owned = _connect(scheduler)
     futures = {}
     try:
         from distributed import as_completed
@@ -394,13 +394,14 @@ def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
     finally:
         for fut in futures:
             fut.cancel()
-        if cluster is not None:
+        if owned:
             client.close()
+        if cluster is not None:
             cluster.close()
 
 
 def _connect(scheduler):
-    """A Dask client, and the cluster when this call started one (to stop it after)."""
+    """(client, cluster started here or None, whether the client is ours to close)."""
     try:
         from distributed import Client, LocalCluster
     except ImportError:  # pragma: no cover - dask[distributed] is a dependency
@@ -410,12 +411,12 @@ def _connect(scheduler):
         cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                host="127.0.0.1", dashboard_address=None,
                                silence_logs=logging.ERROR)
-        return Client(cluster), cluster
+        return Client(cluster), cluster, True
     if isinstance(scheduler, Client):
-        return scheduler, None
+        return scheduler, None, False
     if isinstance(scheduler, str):
         try:
-            return Client(scheduler, timeout="10s"), None
+            return Client(scheduler, timeout="10s"), None, True
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"sweep: cannot reach the Dask scheduler at {scheduler!r} ({exc}); "
                              "expected the address of a running scheduler such as "

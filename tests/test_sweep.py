@@ -139,3 +139,55 @@ def test_bad_axes(standin):
     with pytest.raises(InputError, match="scheduler"):
         sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": [1.0]}, scheduler=42, progress=False)
     assert standin.calls == 0
+
+
+# --------------------------------------------------------------------------- real runs
+
+REAL = {"electrochemistry": "spm", "layout": "averaged", "grid": (6, 4),
+        "output_interval_s": 30.0}
+REAL_AXES = {"fin_mm": [0.5, 2.0], "tim_W_mK": [1.0, 4.0]}
+
+
+@pytest.fixture(scope="module")
+def real_case():
+    from explorer import cooling, duty
+    from explorer.cell import load_cell
+
+    cell = load_cell("van_nmc_66ah")
+    design = cooling.edge_plate(cooling.fixed_sink(temperature_C=25.0, h_W_m2K=2000.0),
+                                edge="bottom", fin_mm=1.0)
+    return cell, duty.discharge(c_rate=2.0, end_time_s=600.0), design
+
+
+def test_local_dask_cluster_equals_serial(real_case, tmp_path):
+    """The same sweep on a loopback Dask cluster (started and stopped here) equals the serial one."""
+    from distributed import Client, LocalCluster
+
+    cell, d, design = real_case
+    serial = sweep(cell, d, design, REAL_AXES, scheduler="serial", progress=False, **REAL)
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address=None) as cluster:
+        parallel = sweep(cell, d, design, REAL_AXES, scheduler=cluster.scheduler_address,
+                         progress=False, cache_dir=tmp_path, **REAL)
+        with Client(cluster) as client:  # a Client object is accepted as well, and not closed
+            again = sweep(cell, d, design, REAL_AXES, scheduler=client, progress=False, **REAL)
+            assert client.status == "running"
+    assert (serial["case_status"] == "completed").all()
+    data = [v for v in serial.data_vars if v not in ("case_status", "case_message")]
+    xr.testing.assert_allclose(parallel[data], serial[data], rtol=1e-12)
+    xr.testing.assert_allclose(again[data], serial[data], rtol=1e-12)
+    assert len(list(tmp_path.glob("*.nc"))) == 4
+    # a thicker fin cools better (physics of the edge path)
+    assert (serial["peak_temperature_C"].diff("fin_mm") < 0).all()
+
+
+def test_keep_fields_on_real_runs(real_case):
+    cell, d, design = real_case
+    ds = sweep(cell, d, design, {"fin_mm": [0.5, 2.0]}, scheduler="serial", progress=False,
+               keep_fields=True, **REAL)
+    assert ds["temperature"].dims == ("fin_mm", "time", "y", "x")
+    assert ds.sizes["x"] == 6 and ds.sizes["y"] == 4
+    peak = ds["temperature"].max(dim=("x", "y"))
+    np.testing.assert_allclose(peak, ds["temperature_max"], rtol=1e-9)
+    none = sweep(cell, d, design, {"fin_mm": [0.5]}, scheduler="serial", progress=False, **REAL)
+    assert "temperature" not in none
