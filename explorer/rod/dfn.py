@@ -47,7 +47,7 @@ from scipy.linalg import solve_banded
 from explorer.rod.base import RodModel, RodStepError, StepResult
 from explorer.rod.control import check_control
 from explorer.rod.heat import heat_split
-from explorer.rod.kinetics import butler_volmer
+from explorer.rod.kinetics import butler_volmer, overpotential
 from explorer.rod.mesh import RodMesh, ThroughMesh
 from explorer.rod.params import FARADAY, GAS_CONSTANT, RodParameters
 from explorer.rod.particle import SphereShells
@@ -306,9 +306,7 @@ class DFN(RodModel):
                     / (2 * _H_STO)
         ce = c[en]
         j0 = np.empty(self.ne)
-        g = np.empty(self.ne)
-        gp = np.empty(self.ne)
-        eta = s - phi[en] - U
+        eta = np.empty(self.ne)
         aa = np.empty(self.ne)
         for k, e in enumerate(self._electrodes):
             sl = self._eslices[k]
@@ -316,8 +314,10 @@ class DFN(RodModel):
             aa[sl] = alpha
             j0[sl] = pre["jf0"][sl] * (ce[sl] * (self._cmax[sl] - cs[sl])) ** alpha \
                 * cs[sl] ** (1.0 - alpha)
-            g[sl], gp[sl] = butler_volmer(eta[sl], alpha, T)
-        r_j = j - j0 * g
+            eta[sl] = overpotential(j[sl], j0[sl], alpha, T)
+        # Butler-Volmer in its inverse form (a potential balance, in volts): far better
+        # conditioned for Newton than j - j0 g(eta), whose exponentials overshoot
+        r_j = s - phi[en] - U - eta
         r = np.empty(self.n_unknowns)
         r[self._ic] = r_c
         r[self._ip] = r_p
@@ -342,7 +342,13 @@ class DFN(RodModel):
         di_cR = dKR * B + K * pre["nu"] / cR
         Bs = pre["B_surf"]
         dj0_dcs = j0 * (-aa / (self._cmax - cs) + (1.0 - aa) / cs)
-        deta_dj = -dU * Bs / self._cmax
+        g = np.empty(self.ne)
+        gp = np.empty(self.ne)
+        for k, e in enumerate(self._electrodes):
+            sl = self._eslices[k]
+            g[sl], gp[sl] = butler_volmer(eta[sl], e.charge_transfer_coefficient, T)
+        deta_dj = 1.0 / (j0 * gp)  # from j = j0 g(eta): d eta = (dj - g dj0) / (j0 g')
+        deta_dj0 = -g * deta_dj
         S = self._S
         vals = np.concatenate([
             self._storage / pre["dt"],
@@ -353,15 +359,26 @@ class DFN(RodModel):
             -self._adx,
             S, -S, -S, S,
             self._adx,
-            1.0 - (dj0_dcs * Bs * g + j0 * gp * deta_dj),
-            -j0 * gp,
-            j0 * gp,
-            -(aa * j0 / ce) * g,
+            -dU * Bs / self._cmax - deta_dj - deta_dj0 * dj0_dcs * Bs,
+            np.ones(self.ne),
+            -np.ones(self.ne),
+            -deta_dj0 * aa * j0 / ce,
             [1.0],
         ])
         ab = np.bincount(self._flat, weights=vals * self._keep, minlength=self._band_size)
         out["ab"] = ab.reshape(self._lower + self._upper + 1, self.n_unknowns)
         return out
+
+    def _room(self, u, du, pre):
+        """Largest step fraction keeping surfaces in (0, c_max) and the salt positive."""
+        cs = pre["A_surf"] + pre["B_surf"] * u[self._ij]
+        dcs = pre["B_surf"] * du[self._ij]
+        c, dc = u[self._ic], du[self._ic]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            room = np.concatenate([np.where(dcs > 0, (self._cmax - cs) / dcs, np.inf),
+                                   np.where(dcs < 0, -cs / dcs, np.inf),
+                                   np.where(dc < 0, -c / dc, np.inf)])
+        return float(room.min())
 
     def _terminal(self, u, current, R):
         s = u[self._is]
@@ -436,8 +453,9 @@ class DFN(RodModel):
                 dI = 0.0
             if not np.all(np.isfinite(du)) or not math.isfinite(dI):
                 raise RodStepError("dfn: Newton update is not finite")
-            # damped update: halve until the trial point is inside the physical range
-            lam = 1.0
+            # damped update: stay a fraction inside the physical range (particle surfaces
+            # in (0, c_max), salt > 0), then halve until the trial point is admissible
+            lam = min(1.0, 0.9 * self._room(u, du, pre))
             for _ in range(30):
                 u_new = u + lam * du
                 I_new = current + lam * dI
