@@ -275,3 +275,16 @@ def test_bad_state_and_soc(van, model):
         rod.solve_step(np.zeros(3), 1.0, T25, Control("current", 1.0))
     with pytest.raises(ValueError, match="soc"):
         rod.initial_state(1.5, T25)
+
+
+@pytest.mark.parametrize("model", list(MODELS))
+@pytest.mark.parametrize("soc,limit,dt", [(0.5, "max", 120.0), (0.9, "min", 10.0), (0.02, "max", 1e-3)])
+def test_voltage_control_from_rest_far_from_ocv(demo, model, soc, limit, dt):
+    # CV started at rest far from the OCV: a large inrush current, solved without a guess.
+    for name in CELLS:
+        params = demo[name][1]
+        rod = make_rod(model, params, MESH)
+        v = params.voltage_max_V if limit == "max" else params.voltage_min_V
+        r = rod.solve_step(rod.initial_state(soc, T25), dt, T25, Control("voltage", v), 1e-3)
+        assert r.voltage_V == pytest.approx(v, abs=1e-7)
+        assert (r.current_A < 0) == (limit == "max")
