@@ -1,0 +1,85 @@
+"""Cost of a design sweep: ``bench_sweep() -> list[dict]`` (called by ``explorer.bench``).
+
+A 48-case sweep (6 fin thicknesses x 4 interface conductivities x 2 sink
+temperatures of an edge plate on the van demo cell; 2C discharge to the lower
+voltage limit, SPMe, averaged layout) is run serially in this process and on
+a local Dask cluster on loopback (2 worker processes, 1 thread each), in the
+same call, without the cache. The cluster's start-up is timed apart from the
+sweep itself; the speed-up is serial time over cluster time.
+
+Run it directly: ``python -m explorer.sweep_bench``.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+
+__all__ = ["bench_sweep", "AXES"]
+
+AXES = {
+    "fin_mm": [0.3, 0.5, 1.0, 1.5, 2.0, 3.0],
+    "tim_W_mK": [1.0, 2.0, 3.0, 5.0],
+    "temperature_C": [20.0, 30.0],
+}
+SETTINGS = {"electrochemistry": "spme", "layout": "averaged", "grid": (12, 8),
+            "output_interval_s": 30.0}
+
+
+def bench_sweep(cell: str = "van_nmc_66ah", n_workers: int = 2) -> list[dict]:
+    """Serial against local-cluster wall time of the same 48-case sweep.
+
+    Returns rows with ``section`` "sweep": the serial run, the cluster run
+    (and its start-up), and the speed-up with a check that both gave the same
+    figures.
+    """
+    import numpy as np
+    from distributed import Client, LocalCluster
+
+    from explorer import cooling, duty
+    from explorer.cell import load_cell
+    from explorer.sweep import sweep
+
+    the_cell = load_cell(cell)
+    design = cooling.edge_plate(cooling.fixed_sink(temperature_C=25.0, h_W_m2K=2000.0),
+                                edge="bottom", fin_mm=1.0)
+    the_duty = duty.discharge(c_rate=2.0)
+    cases = int(np.prod([len(v) for v in AXES.values()]))
+
+    t0 = time.perf_counter()
+    serial = sweep(the_cell, the_duty, design, AXES, scheduler="serial", progress=False,
+                   **SETTINGS)
+    serial_s = time.perf_counter() - t0
+
+    t0 = time.perf_counter()
+    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
+                           host="127.0.0.1", dashboard_address=None)
+    client = Client(cluster)
+    start_s = time.perf_counter() - t0
+    try:
+        t0 = time.perf_counter()
+        parallel = sweep(the_cell, the_duty, design, AXES, scheduler=client, progress=False,
+                         **SETTINGS)
+        dask_s = time.perf_counter() - t0
+    finally:
+        client.close()
+        cluster.close()
+    same = bool(np.allclose(serial["peak_temperature_C"], parallel["peak_temperature_C"],
+                            rtol=1e-12, equal_nan=True))
+    failed = int(serial.attrs["cases_failed"]) + int(parallel.attrs["cases_failed"])
+    # Other work on the machine shows up here; a loaded machine hides the parallel gain.
+    common = {"section": "sweep", "cases": cases, "model": "spme", "grid": "12x8",
+              "load_average_1min": os.getloadavg()[0]}
+    return [
+        {**common, "run": "serial", "wall_s": serial_s, "per_case_s": serial_s / cases},
+        {**common, "run": f"dask {n_workers}x1", "wall_s": dask_s, "per_case_s": dask_s / cases,
+         "cluster_start_s": start_s},
+        {**common, "run": "serial/dask", "ratio": serial_s / dask_s,
+         "ratio_with_start": serial_s / (dask_s + start_s), "same_figures": same,
+         "failed_cases": failed},
+    ]
+
+
+if __name__ == "__main__":
+    for row in bench_sweep():
+        print(row)
