@@ -45,8 +45,14 @@ def test_defaults_map_onto_the_public_api():
     params = call.cooling.parameters()
     assert params["flow_L_min"] == 2.0 and params["inlet_C"] == 25.0 and params["fin_mm"] == 0.5
     assert params["tim_W_mK"] == 3.0 and params["tim_mm"] == 0.5
+    nx, ny = call.simulate_kwargs.pop("grid")
     assert call.simulate_kwargs == {"electrochemistry": "spme", "layout": "averaged",
                                     "start_soc": 1.0, "start_temperature_C": 25.0}
+    # coarse grid: about 200 near-square cells over the face
+    g = call.cell.geometry
+    assert 150 <= nx * ny <= 250
+    assert (g.width_m / nx) / (g.height_m / ny) == pytest.approx(1.0, abs=0.3)
+    assert "grid" not in inputs_to_call({**defaults(), "grid": "standard"}).simulate_kwargs
     assert call.limits.temperature_max_C == 45.0 and call.limits.spread_K == 5.0
     # one hour at 1C from full (definition of the C-rate)
     assert call.expected_duration_s() == pytest.approx(3600.0)
@@ -94,8 +100,6 @@ def test_validation_messages_name_field_value_and_expectation(tmp_path):
     assert "cell" in e and "nope.toml" in e["cell"]
     e = validate({**defaults(), "duty": "profile", "profile_path": str(tmp_path / "x.csv")})
     assert "profile_path" in e and "x.csv" in e["profile_path"]
-    e = validate({**defaults(), "layout": "distributed"})
-    assert "layout" in e
     with pytest.raises(app_inputs.InputsError) as info:
         inputs_to_call({**defaults(), "flow_L_min": 0.0})
     assert "flow_L_min" in str(info.value) and "Coolant flow" in str(info.value)

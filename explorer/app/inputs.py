@@ -122,6 +122,9 @@ FIELDS: dict[str, Field] = {
     "layout": Field("Layout", "choice", "averaged", group="Model", choices=(
         ("single", "single rod, one temperature"), ("averaged", "averaged rod + 2-D fields"),
         ("distributed", "grid of rods"))),
+    "grid": Field("In-plane grid", "choice", "coarse", group="Model", choices=(
+        ("coarse", "coarse, ~200 cells (fast)"), ("standard", "standard (the simulator's default)"),
+        ("fine", "fine, ~6,000 cells"))),
     "start_soc_pct": Field("Start SOC", "number", 100.0, "%", 0.0, 100.0, group="Model"),
     "start_temperature_C": Field("Start temperature", "number", 25.0, "°C", -40.0, 80.0,
                                  group="Model"),
@@ -238,9 +241,6 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
     if errors:
         return errors
     # the cross-field rules (each names the field the user should change)
-    if values["layout"] == "distributed":
-        errors["layout"] = ("the distributed layout (grid of rods) is not available in this version; "
-                            "choose 'averaged' or 'single'")
     if values["duty"] == "discharge" and float(values["start_soc_pct"]) <= 0.0:
         errors["start_soc_pct"] = "a discharge needs a start SOC above 0 %"
     if values["duty"] == "fast_charge" and float(values["start_soc_pct"]) >= 100.0:
@@ -389,6 +389,7 @@ def inputs_to_call(values: dict, check_files: bool = True) -> Call:
         simulate_kwargs={
             "electrochemistry": values["electrochemistry"],
             "layout": values["layout"],
+            **_grid(values["grid"], cell),
             "start_soc": float(values["start_soc_pct"]) / 100.0,
             "start_temperature_C": float(values["start_temperature_C"]),
         },
@@ -396,6 +397,20 @@ def inputs_to_call(values: dict, check_files: bool = True) -> Call:
                       spread_K=float(values["limit_spread_K"])),
         inputs=values,
     )
+
+
+GRID_CELLS = {"coarse": 200, "fine": 6000}  # target control volumes; "standard" = simulate's own
+
+
+def _grid(choice: str, cell) -> dict:
+    """``grid=(nx, ny)`` of near-square control volumes for the chosen resolution ({} = default)."""
+    if choice not in GRID_CELLS:
+        return {}
+    g = cell.geometry
+    n = GRID_CELLS[choice]
+    nx = max(2, round(math.sqrt(n * g.width_m / g.height_m)))
+    ny = max(2, round(n / nx))
+    return {"grid": (nx, ny)}
 
 
 def _make_duty(v: dict):
