@@ -22,6 +22,7 @@ import math
 
 import numpy as np
 
+from explorer.materials import arrhenius
 from explorer.rod.base import RodModel, RodStepError, StepResult
 from explorer.rod.control import check_control, solve_current
 from explorer.rod.heat import heat_split
@@ -90,6 +91,7 @@ class SPM(RodModel):
         self.size = 2 * self.nr + self._extra_size() + 1
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
         self._ops: dict = {}
+        self._ea = np.array(self._activation_energies())
 
     # ---- hooks the SPMe extends ------------------------------------------------------------
     def _extra_size(self) -> int:
@@ -139,18 +141,27 @@ class SPM(RodModel):
         return li["negative"] + li["positive"]
 
     # ---- stepping ------------------------------------------------------------------------
-    def _blocks(self, dt, T):
-        """Linear step blocks ``(P, q_per_A)`` of the state parts, in state order."""
+    def _activation_energies(self) -> list[float]:
+        """Activation energies of every temperature-dependent property the model uses."""
+        n, p = self._electrodes
+        return [n.diffusivity_activation_J_mol, p.diffusivity_activation_J_mol,
+                n.rate_activation_J_mol, p.rate_activation_J_mol]
+
+    def _blocks(self, dt, T, f):
+        """Linear step blocks ``(P, q_per_A)`` of the state parts, in state order.
+
+        ``f`` holds the Arrhenius factors in the order of :meth:`_activation_energies`.
+        """
         blocks = []
         for k, e in enumerate(self._electrodes):
-            pr = self.shells.propagator(e.diffusivity(T), e.particle_radius_m, dt)
+            pr = self.shells.propagator(e.diffusivity_m2_s * f[k], e.particle_radius_m, dt)
             blocks.append((pr.P, pr.q * self._flux_per_A[k]))
         return blocks
 
-    def _constants(self, T):
+    def _constants(self, T, f):
         """Temperature-dependent constants of the voltage terms."""
         n, p = self._electrodes
-        return {"rate": (n.rate(T), p.rate(T))}
+        return {"rate": (n.rate_constant * f[2], p.rate_constant * f[3])}
 
     def _operator(self, dt, T):
         """The whole step's linear part: ``new = P @ old + q I``, cached per (dt, T)."""
@@ -158,7 +169,8 @@ class SPM(RodModel):
         op = self._ops.get(key)
         if op is not None:
             return op
-        blocks = self._blocks(dt, T)
+        f = arrhenius(self._ea, T, REFERENCE_K)  # all properties' factors in one call
+        blocks = self._blocks(dt, T, f)
         m = sum(b[0].shape[0] for b in blocks)
         P = np.zeros((m, m))
         q = np.empty(m)
@@ -171,9 +183,9 @@ class SPM(RodModel):
         # surface = value of the outer shell minus the extrapolation to the surface
         surf_q = np.empty(2)
         for k, e in enumerate(self._electrodes):
-            extra = e.particle_radius_m * self.shells.surface_distance / e.diffusivity(T)
+            extra = e.particle_radius_m * self.shells.surface_distance / (e.diffusivity_m2_s * f[k])
             surf_q[k] = q[self._outer[k]] - extra * self._flux_per_A[k]
-        op = {"P": P, "q": q, "surf_q": surf_q, "T": T, **self._constants(T)}
+        op = {"P": P, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
         if len(self._ops) > 8:
             self._ops.clear()
         self._ops[key] = op

@@ -77,18 +77,21 @@ class SPMe(SPM):
     def _fill_extra_initial(self, x):
         x[self._ce_slice] = self.params.electrolyte.initial_concentration_mol_m3
 
-    def _blocks(self, dt, T):
-        blocks = super()._blocks(dt, T)
+    def _activation_energies(self) -> list[float]:
         el = self.params.electrolyte
-        P, q = self._e_modal.operator(self._de0 * el.diffusion_factor(T), dt, self._source_per_A)
+        return super()._activation_energies() + [el.conductivity_activation_J_mol,
+                                                 el.diffusivity_activation_J_mol]
+
+    def _blocks(self, dt, T, f):
+        blocks = super()._blocks(dt, T, f)
+        P, q = self._e_modal.operator(self._de0 * f[5], dt, self._source_per_A)
         blocks.append((P, q))
         return blocks
 
-    def _constants(self, T):
-        const = super()._constants(T)
-        el = self.params.electrolyte
-        const["kappa_factor"] = el.kappa_factor(T) * self.x_mesh.transport
-        const["nu"] = el.diffusion_potential_V(T)
+    def _constants(self, T, f):
+        const = super()._constants(T, f)
+        const["kappa_factor"] = f[4] * self.x_mesh.transport
+        const["nu"] = self.params.electrolyte.diffusion_potential_V(T)
         return const
 
     def _electrolyte_terms(self, op, base, I, cs):
