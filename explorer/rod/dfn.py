@@ -23,7 +23,11 @@ Solution: within a step the particles are linear in ``j`` (``D_s`` is held at
 the step's temperature), so each particle's surface concentration is exactly
 ``c_surf = a_k + b j_k`` with ``a_k, b`` from the particle propagator. That
 eliminates the particle unknowns without approximation and leaves, per cell,
-``(c_e, phi_e)`` and in the electrodes ``(phi_s, j)``. Unknowns are interleaved
+``(c_e, phi_e)`` and in the electrodes ``(phi_s, j)``. The Butler-Volmer
+equation enters in its inverse form ``phi_s - phi_e - U = eta(j, j0)``, a
+potential balance that is close to linear in ``j`` and keeps Newton from the
+overshoots of the exponential form; each update is also held a fraction
+inside the physical range (surfaces in (0, c_max), salt > 0). Unknowns are interleaved
 cell by cell, so the analytic Jacobian is banded; it is assembled from a
 fixed sparsity pattern into LAPACK band storage (one ``bincount``) and solved
 by a banded LU. For power and voltage control the cell current is one more
