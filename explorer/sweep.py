@@ -81,6 +81,10 @@ SUMMARY = {
     "pump_power_W": ("W", "pump power"),
 }
 CACHE_FORMAT = 1  # bump when the cached case layout changes
+# The default local cluster: loopback only, two single-threaded worker processes, no
+# dashboard; the scheduler's small HTTP server (health, metrics) takes a free port.
+LOCAL_CLUSTER = {"n_workers": 2, "threads_per_worker": 1, "processes": True, "host": "127.0.0.1",
+                 "dashboard_address": "127.0.0.1:0", "scheduler_kwargs": {"dashboard": False}}
 
 
 @dataclasses.dataclass
@@ -408,9 +412,7 @@ def _connect(scheduler):
         raise InputError("sweep: Dask distributed is needed for parallel sweeps "
                          "(pip install 'dask[distributed]'); or use scheduler='serial'") from None
     if scheduler is None:
-        cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                               host="127.0.0.1", dashboard_address=None,
-                               silence_logs=logging.ERROR)
+        cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.ERROR)
         return Client(cluster), cluster, True
     if isinstance(scheduler, Client):
         return scheduler, None, False

@@ -38,7 +38,7 @@ def bench_sweep(cell: str = "van_nmc_66ah", n_workers: int = 2) -> list[dict]:
 
     from explorer import cooling, duty
     from explorer.cell import load_cell
-    from explorer.sweep import sweep
+    from explorer.sweep import LOCAL_CLUSTER, sweep
 
     the_cell = load_cell(cell)
     design = cooling.edge_plate(cooling.fixed_sink(temperature_C=25.0, h_W_m2K=2000.0),
@@ -52,8 +52,7 @@ def bench_sweep(cell: str = "van_nmc_66ah", n_workers: int = 2) -> list[dict]:
     serial_s = time.perf_counter() - t0
 
     t0 = time.perf_counter()
-    cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
-                           host="127.0.0.1", dashboard_address=None)
+    cluster = LocalCluster(**{**LOCAL_CLUSTER, "n_workers": n_workers})
     client = Client(cluster)
     start_s = time.perf_counter() - t0
     try:

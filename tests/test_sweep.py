@@ -17,7 +17,7 @@ from test_sizing import DUTY, STANDIN_CELL, Counter, StandInPlate, standin_simul
 import explorer.sweep as sweep_mod
 from explorer.limits import Limits
 from explorer.results import key_figures
-from explorer.sweep import _resample, sweep
+from explorer.sweep import LOCAL_CLUSTER, _resample, sweep
 from explorer.validators import InputError
 
 AXES = {"flow_L_min": [1.0, 2.0, 4.0], "inlet_C": [20.0, 30.0]}
@@ -165,15 +165,17 @@ def test_local_dask_cluster_equals_serial(real_case, tmp_path):
 
     cell, d, design = real_case
     serial = sweep(cell, d, design, REAL_AXES, scheduler="serial", progress=False, **REAL)
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                      dashboard_address=None) as cluster:
+    # the default: the sweep starts its own loopback cluster and stops it
+    default = sweep(cell, d, design, REAL_AXES, progress=False, cache_dir=tmp_path, **REAL)
+    with LocalCluster(**LOCAL_CLUSTER) as cluster:
         parallel = sweep(cell, d, design, REAL_AXES, scheduler=cluster.scheduler_address,
-                         progress=False, cache_dir=tmp_path, **REAL)
+                         progress=False, **REAL)
         with Client(cluster) as client:  # a Client object is accepted as well, and not closed
             again = sweep(cell, d, design, REAL_AXES, scheduler=client, progress=False, **REAL)
             assert client.status == "running"
     assert (serial["case_status"] == "completed").all()
     data = [v for v in serial.data_vars if v not in ("case_status", "case_message")]
+    xr.testing.assert_allclose(default[data], serial[data], rtol=1e-12)
     xr.testing.assert_allclose(parallel[data], serial[data], rtol=1e-12)
     xr.testing.assert_allclose(again[data], serial[data], rtol=1e-12)
     assert len(list(tmp_path.glob("*.nc"))) == 4
