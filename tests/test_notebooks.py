@@ -1,0 +1,88 @@
+"""The two notebooks run top to bottom on a real kernel and show their figures.
+
+Kernel: ``nbclient.NotebookClient(nb, kernel_name="python3")``. The "python3" kernel spec is the
+one ipykernel installs into the environment (``<venv>/share/jupyter/kernels/python3``), and
+jupyter_client replaces its ``python`` command by the running interpreter (``sys.executable``), so
+the kernel is this venv's Python without any ``ipykernel install --user``. The first test checks
+exactly that.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import pytest
+
+nbformat = pytest.importorskip("nbformat")
+nbclient = pytest.importorskip("nbclient")
+
+NOTEBOOKS = Path(__file__).resolve().parents[1] / "notebooks"
+PLOTLY = "application/vnd.plotly.v1+json"
+WIDGET = "application/vnd.jupyter.widget-view+json"
+
+
+def _execute(name: str, tmp_path: Path, extra_cells: list[str] = ()):
+    nb = nbformat.read(NOTEBOOKS / name, as_version=4)
+    for source in extra_cells:
+        nb.cells.append(nbformat.v4.new_code_cell(source))
+    client = nbclient.NotebookClient(nb, kernel_name="python3", timeout=300,
+                                     resources={"metadata": {"path": str(tmp_path)}})
+    client.execute()  # raises CellExecutionError with the cell and traceback on any error
+    return nb
+
+
+def _outputs(nb, mime: str) -> list:
+    found = []
+    for cell in nb.cells:
+        if cell.cell_type != "code":
+            continue
+        for out in cell.get("outputs", []):
+            data = out.get("data", {})
+            if mime in data:
+                value = data[mime]
+                found.append(json.loads(value) if isinstance(value, str) else value)
+    return found
+
+
+def _text(nb) -> str:
+    parts = []
+    for cell in nb.cells:
+        for out in cell.get("outputs", []):
+            parts.append(out.get("text", ""))
+            parts.append(str(out.get("data", {}).get("text/plain", "")))
+    return "\n".join(parts)
+
+
+def _trace_types(fig: dict) -> list[str]:
+    return [tr.get("type", "scatter") for tr in fig["data"]]
+
+
+def test_quick_start(tmp_path):
+    nb = _execute("quick_start.ipynb", tmp_path, ["import sys; print('KERNEL', sys.executable)"])
+    figures = _outputs(nb, PLOTLY)
+    assert len(figures) == 3  # traces, temperature field, heat split
+    traces, field, heat = figures
+    assert "Voltage (V)" in json.dumps(traces["layout"])
+    assert _trace_types(field)[0] == "heatmap" and field.get("frames")  # animated field
+    assert "Heat generation by source" in json.dumps(heat["layout"])
+    assert len(_outputs(nb, WIDGET)) == 1  # the app
+    text = _text(nb)
+    assert "peak_temperature_C" in text
+    assert f"KERNEL {sys.executable}" in text  # the kernel is this environment's Python
+
+
+def test_cooling_design_review(tmp_path):
+    nb = _execute("cooling_design_review.ipynb", tmp_path)
+    figures = _outputs(nb, PLOTLY)
+    assert len(figures) == 3  # comparison, sizing curve, field at the design point
+    comparison, sizing, field = figures
+    names = {tr.get("name") for tr in comparison["data"]}
+    assert {"baseline: edge plate", "A: edge plate + 1.5 mm fin", "B: face plate"} <= names
+    assert "Sizing" in json.dumps(sizing["layout"])
+    assert _trace_types(field)[0] == "heatmap"
+    text = _text(nb)
+    assert "flow_L_min =" in text and "Baseline edge plate" in text
+    report = tmp_path / "cooling_design_review.html"
+    assert report.is_file() and report.stat().st_size > 1_000_000  # plotly.js inline
