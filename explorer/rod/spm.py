@@ -191,7 +191,11 @@ class SPM(RodModel):
         self._ops[key] = op
         return op
 
-    def _electrolyte_terms(self, op, base, I, cs):
+    def _linear_step(self, op, x, dt):
+        """``(base, q)``: the step's new state (less the current entry) is ``base + I q``."""
+        return op["P"] @ x[:-1], op["q"]
+
+    def _electrolyte_terms(self, op, lin, I, cs):
         """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal electrolyte."""
         c0 = self.params.electrolyte.initial_concentration_mol_m3
         T = op["T"]
@@ -202,9 +206,10 @@ class SPM(RodModel):
             etas.append(float(overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)))
         return etas[0], etas[1], 0.0, 0.0, 0.0, 0.0
 
-    def _evaluate(self, op, base, I, R, full=False):
+    def _evaluate(self, op, lin, I, R, full=False):
         """Terminal voltage at current ``I`` (NaN outside the physical range), or all details."""
         T = op["T"]
+        base = lin[0]
         cs = (base[self._outer[0]] + I * op["surf_q"][0], base[self._outer[1]] + I * op["surf_q"][1])
         for k, e in enumerate(self._electrodes):
             if not 0.0 < cs[k] < e.max_concentration_mol_m3:
@@ -214,11 +219,13 @@ class SPM(RodModel):
                         f"{cs[k] / e.max_concentration_mol_m3:.4f} (outside (0, 1)) at {I:.4g} A "
                         "within this step; reduce the step or the current")
                 return math.nan
-        terms = self._electrolyte_terms(op, base, I, cs)
+        terms = self._electrolyte_terms(op, lin, I, cs)
         if terms is None:
             if full:
-                raise RodStepError(f"{self.name}: the electrolyte would be depleted at {I:.4g} A "
-                                   "within this step; reduce the step or the current")
+                raise RodStepError(
+                    f"{self.name}: the electrolyte salt would be depleted at {I:.4g} A within this "
+                    "step; if a smaller step does not help, the discharge is transport-limited "
+                    "(cold cell or high rate), outside the SPMe's validity: use the DFN")
             return math.nan
         eta_n, eta_p, dphi_e, solid_drop = terms[:4]
         n, p = self._electrodes
@@ -239,16 +246,16 @@ class SPM(RodModel):
         dt, T, R = check_step_inputs(dt, temperature_K, series_resistance_ohm)
         x = self._check_state(state)
         op = self._operator(dt, T)
-        base = op["P"] @ x[:-1]  # the new state at zero current
+        lin = self._linear_step(op, x, dt)  # new state = lin[0] + I lin[1]
         if kind == "current":
             current = value
         else:
             guess = x[-1] if kind == "voltage" else 0.0
-            current = solve_current(lambda i: self._evaluate(op, base, i, R), kind, value, guess,
+            current = solve_current(lambda i: self._evaluate(op, lin, i, R), kind, value, guess,
                                     self.current_1C_A)
-        out = self._evaluate(op, base, current, R, full=True)
+        out = self._evaluate(op, lin, current, R, full=True)
         new = np.empty(self.size)
-        new[:-1] = base + current * op["q"]
+        new[:-1] = lin[0] + current * lin[1]
         new[-1] = current
         eta_n, eta_p = out["eta"]
         ds_n, ds_p = out["dudt"]

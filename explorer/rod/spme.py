@@ -8,8 +8,11 @@ and the electrolyte enters through correction terms:
 
 1. electrolyte concentration: ``eps dc/dt = d/dx(eps^b D_e dc/dx) + (1 - t+) a j / F``
    across negative | separator | positive with the uniform reaction
-   ``a j = +-I / (A L)`` in each electrode (linear; ``D_e`` at the initial
-   concentration and the step's temperature, as at leading order);
+   ``a j = +-I / (A L)`` in each electrode. ``D_e(c)`` is taken at the
+   start-of-step concentration, so each step stays linear (one tridiagonal
+   solve) while the concentration dependence is kept as in the DFN; with the
+   leading-order constant ``D_e(c0)`` instead, cold and transport-limited
+   discharges deplete the salt far too early;
 2. electrolyte potential from the known ionic current ``i_e(x)`` (linear in
    the electrodes, ``I/A`` in the separator)::
 
@@ -30,11 +33,12 @@ State layout: ``[c_n shells, c_p shells, c_e cells, I]``.
 from __future__ import annotations
 
 import numpy as np
+from scipy.linalg.lapack import dgtsv
 
+from explorer.rod.base import RodStepError
 from explorer.rod.kinetics import exchange_current, overpotential
 from explorer.rod.mesh import ThroughMesh
 from explorer.rod.params import FARADAY
-from explorer.rod.particle import ModalEuler, tridiagonal_stiffness
 from explorer.rod.spm import SPM
 
 __all__ = ["SPMe"]
@@ -63,10 +67,6 @@ class SPMe(SPM):
         src[xm.pos] = -xm.dx[xm.pos] / (A * p.thickness_m)
         self._source_per_A = (1.0 - el.transference_number) * src / FARADAY
         self._storage = xm.porosity * xm.dx
-        # salt diffusion stencil per unit bulk diffusivity (D_e at c0 scales it with T)
-        self._de0 = float(el.diffusivity(el.initial_concentration_mol_m3))  # at 298.15 K
-        self._e_modal = ModalEuler(tridiagonal_stiffness(xm.face_harmonic(xm.transport)),
-                                   self._storage)
         self._shape_per_A = xm.reaction_shape / A  # ionic current at the faces per ampere
         self._solid_drop_per_A = (n.thickness_m / (3.0 * n.solid_conductivity_eff_S_m)
                                   + p.thickness_m / (3.0 * p.solid_conductivity_eff_S_m)) / A
@@ -82,21 +82,41 @@ class SPMe(SPM):
         return super()._activation_energies() + [el.conductivity_activation_J_mol,
                                                  el.diffusivity_activation_J_mol]
 
-    def _blocks(self, dt, T, f):
-        blocks = super()._blocks(dt, T, f)
-        P, q = self._e_modal.operator(self._de0 * f[5], dt, self._source_per_A)
-        blocks.append((P, q))
-        return blocks
+    def _linear_step(self, op, x, dt):
+        # particles: the cached modal propagators; salt: one tridiagonal solve with the
+        # diffusivity at the start-of-step concentration (two right-hand sides)
+        m = 2 * self.nr
+        xm = self.x_mesh
+        c_old = x[self._ce_slice]
+        d_eff = self.params.electrolyte.diffusivity(c_old) * op["diffusion_factor"]
+        g = xm.face_harmonic(d_eff)
+        diag = self._storage / dt
+        rhs = np.column_stack([diag * c_old, self._source_per_A])
+        diag = diag.copy()
+        diag[:-1] += g
+        diag[1:] += g
+        off = -g
+        _, _, _, sol, info = dgtsv(off, diag, off.copy(), rhs, 1, 1, 1, 1)
+        if info != 0:
+            raise RodStepError(f"spme: the salt-diffusion system is singular (LAPACK info {info})")
+        base = np.empty(self.size - 1)
+        q = np.empty(self.size - 1)
+        base[:m] = op["P"] @ x[:m]
+        q[:m] = op["q"]
+        base[m:] = sol[:, 0]
+        q[m:] = sol[:, 1]
+        return base, q
 
     def _constants(self, T, f):
         const = super()._constants(T, f)
         const["kappa_factor"] = f[4] * self.x_mesh.transport
+        const["diffusion_factor"] = f[5] * self.x_mesh.transport
         const["nu"] = self.params.electrolyte.diffusion_potential_V(T)
         return const
 
-    def _electrolyte_terms(self, op, base, I, cs):
+    def _electrolyte_terms(self, op, lin, I, cs):
         sl = self._ce_slice
-        ce = base[sl] + I * op["q"][sl]
+        ce = lin[0][sl] + I * lin[1][sl]
         if ce.min() <= 0.0:
             return None
         xm, T = self.x_mesh, op["T"]
