@@ -376,7 +376,7 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
            for name in dict.fromkeys(names) if name in curve}
     return SizingResult(
         vary=vary, bounds=(lo, hi), limits=limits, value=outcome.value, feasible=worst["met"],
-        dataset=worst["dataset"], curve=curve, margins=worst["margins"],
+        dataset=runner.dataset(outcome.value, worst["position"]), curve=curve, margins=worst["margins"],
         figures=worst["figures"], hydraulics=runner.hydraulics(outcome.value), design=design,
         monotone=not any(tps.values()), turning_points={k: v for k, v in tps.items() if v},
         message=_message(outcome, vary, lo, hi, runner, limits, tps),
@@ -452,7 +452,8 @@ class _Runner:
         self.limits, self.positions = limits, list(positions)
         self.active = list(positions)
         self.kwargs = simulate_kwargs
-        self.results: dict = {}  # (value, position) -> (dataset, check)
+        self.results: dict = {}  # (value, position) -> limits check
+        self.datasets: dict = {}  # (value, position) -> Dataset, pruned as the search goes
         self._hydraulics: dict = {}
         self.runs = 0
 
@@ -464,34 +465,63 @@ class _Runner:
             self._hydraulics[value] = dict(h or {})
         return self._hydraulics[value]
 
-    def run(self, value, position):
+    def _simulate(self, value, position):
+        design = _replace(self.cooling, self.vary, value)
+        try:
+            ds = _call_simulate(self.cell, self.duty, design, position, self.kwargs)
+        except InputError:
+            raise
+        except Exception as exc:  # report which design failed, not where inside
+            raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
+                              f"(position {position}) failed: {exc}") from exc
+        self.runs += 1
+        if ds.attrs.get("status") == "failed":
+            raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
+                              f"(position {position}) failed: "
+                              f"{ds.attrs.get('status_message', '')}")
+        return ds
+
+    def run(self, value, position) -> dict:
+        """The limits check of one run (simulated once, then cached)."""
         key = (value, position)
         if key not in self.results:
-            design = _replace(self.cooling, self.vary, value)
-            try:
-                ds = _call_simulate(self.cell, self.duty, design, position, self.kwargs)
-            except InputError:
-                raise
-            except Exception as exc:  # report which design failed, not where inside
-                raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
-                                  f"(position {position}) failed: {exc}") from exc
-            self.runs += 1
-            if ds.attrs.get("status") == "failed":
-                raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
-                                  f"(position {position}) failed: "
-                                  f"{ds.attrs.get('status_message', '')}")
+            ds = self._simulate(value, position)
             recorded = run_hydraulics(ds)
             if recorded is not None:
                 self._hydraulics.setdefault(value, recorded)
-            self.results[key] = (ds, self.limits.check(ds, self.hydraulics(value)))
+            self.results[key] = self.limits.check(ds, self.hydraulics(value))
+            self.datasets[key] = ds
+            self._prune()
         return self.results[key]
+
+    def dataset(self, value, position):
+        """The run's Dataset; re-simulated if it was dropped to save memory."""
+        key = (value, position)
+        if key not in self.results:
+            self.run(value, position)
+        if key not in self.datasets:
+            self.datasets[key] = self._simulate(value, position)
+        return self.datasets[key]
+
+    def _prune(self) -> None:
+        """Keep full Datasets only where the answer can be: the best value and the feasible
+        value nearest the boundary (fields of a fine grid are large)."""
+        score: dict = {}
+        for (v, _), check in self.results.items():
+            score[v] = min(score.get(v, math.inf), check["worst_margin"])
+        keep = {max(score, key=score.get)}
+        feasible = [v for v in score if score[v] >= 0.0]
+        if feasible:
+            keep.add(min(feasible, key=score.get))
+        for key in [k for k in self.datasets if k[0] not in keep]:
+            del self.datasets[key]
 
     def worst(self, value, positions=None) -> dict:
         """Worst figures over positions (every figure is worse when larger)."""
         positions = self.active if positions is None else positions
         checks = {p: self.run(value, p) for p in positions}
         figures = {}
-        for _ds, check in checks.values():
+        for check in checks.values():
             for name, v in check["figures"].items():
                 if v is not None:
                     figures[name] = max(v, figures.get(name, -math.inf))
@@ -499,10 +529,9 @@ class _Runner:
                     figures.setdefault(name, None)
         margins = {name: getattr(self.limits, name) - figures[name] for name in self.limits.names()}
         scaled = self.limits.scaled_margins(margins)
-        worst_position = min(checks, key=lambda p: checks[p][1]["worst_margin"])
+        worst_position = min(checks, key=lambda p: checks[p]["worst_margin"])
         return {"figures": figures, "margins": margins, "scaled": min(scaled.values()),
-                "met": min(scaled.values()) >= 0.0, "position": worst_position,
-                "dataset": checks[worst_position][0]}
+                "met": min(scaled.values()) >= 0.0, "position": worst_position}
 
     def margin(self, value) -> float:
         return self.worst(value)["scaled"]

@@ -362,6 +362,8 @@ def test_real_fin_sizing_is_self_consistent(van):
     # the hydraulic figures of the found design are reported
     assert res.hydraulics["pressure_drop_Pa"] > 0 and res.hydraulics["pump_power_W"] > 0
     assert res.dataset.attrs["status"] == "completed"
+    # the Dataset returned is the run at the design value
+    assert json.loads(res.dataset.attrs["cooling"])["fin_mm"] == pytest.approx(res.value)
 
 
 def test_real_inlet_sizing_is_self_consistent(van):
