@@ -1,0 +1,77 @@
+"""Benchmark of the notebook app, for ``python -m explorer.bench`` (section ``app``).
+
+Two figures, each the best of ``repeat`` timings after one warm-up (a shared machine is noisy):
+
+* ``run_to_figure``: :meth:`ExplorerApp.run` on the default inputs (SPMe, averaged layout, coarse
+  grid, 1C discharge with an edge plate) until every live figure shows the new result;
+  target 1.5 s.
+* ``time_slider``: one move of the time slider, which updates the three field pictures and the
+  traces' time marker in place; target 50 ms.
+
+Without ``anywidget`` the figures are plain plotly figures updated in place (no browser here), so
+the figures measure the Python side either way: the inputs, the simulation and the figure updates.
+"""
+
+from __future__ import annotations
+
+import time
+
+TARGETS_S = {"run_to_figure": 1.5, "time_slider": 0.05}
+
+
+def _best(fn, repeat: int) -> float:
+    fn()  # warm-up: imports, property tables, factorisations
+    best = float("inf")
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - t0)
+    return best
+
+
+def bench_app(repeat: int = 3, **inputs) -> list[dict]:
+    """Time the app's run-to-figure and a time-slider move; return rows for explorer.bench.
+
+    Parameters
+    ----------
+    repeat : int
+        Timings per figure after the warm-up (the best is reported).
+    **inputs
+        App inputs by name overriding the defaults (see ``explorer.app.FIELDS``).
+    """
+    from explorer.app import explore
+    from explorer.app.live import figure_widgets_available
+
+    app = explore(**inputs)
+    if app.errors:
+        raise ValueError(f"bench_app: invalid inputs {app.errors}")
+
+    def run_once():
+        if app.run() is None:
+            raise RuntimeError(f"bench_app: the run failed: {app.last_error}")
+
+    run_s = _best(run_once, repeat)
+    ds = app.dataset
+    n = int(ds.sizes["time"])
+    moves = iter(range(10**9))
+
+    def slide_once():
+        # a different index every call, so every move really updates
+        app.time_slider.value = next(moves) % max(n, 1)
+
+    slider_s = _best(slide_once, max(5, repeat * 5))
+    common = {"section": "app", "cell": ds.attrs.get("cell_name"),
+              "model": ds.attrs.get("electrochemistry"), "layout": ds.attrs.get("layout"),
+              "grid": f"{ds.sizes['x']}x{ds.sizes['y']}",
+              "figure_widget": figure_widgets_available()}
+    return [
+        {**common, "figure": "run_to_figure", "wall_s": run_s, "time_samples": n,
+         "target_s": TARGETS_S["run_to_figure"]},
+        {**common, "figure": "time_slider", "wall_s": slider_s,
+         "target_s": TARGETS_S["time_slider"]},
+    ]
+
+
+if __name__ == "__main__":  # pragma: no cover
+    for row in bench_app():
+        print(row)
