@@ -64,8 +64,11 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "power": _var("time", current * voltage, "W", "terminal power (positive on discharge)"),
         "ocv": _var("time", record.ocv, "V", "open-circuit voltage at the electrodes' state"),
         "soc_mean": _var("time", soc, "1", "state of charge"),
-        "soc": _var(("time", "y", "x"), np.broadcast_to(soc[:, None, None], T.shape), "1",
+        "soc": _var(("time", "y", "x"), _field(record.soc_map, soc, T.shape), "1",
                     "local state of charge"),
+        "current_density": _var(("time", "y", "x"),
+                                _field(record.current_density, current / grid.area_m2, T.shape),
+                                "A m-2", "current through the stack per unit face area"),
         "temperature": _var(("time", "y", "x"), T, "degC", "cell temperature"),
         "temperature_max": _var("time", Tmax, "degC", "hottest point of the face"),
         "temperature_min": _var("time", T.min(axis=(1, 2)), "degC", "coldest point of the face"),
@@ -113,6 +116,13 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "Conventions": "CF-1.10",
     }
     return xr.Dataset(data, coords=coords, attrs=full_attrs)
+
+
+def _field(maps, uniform, shape) -> np.ndarray:
+    """Recorded maps where the layout resolves them, else the uniform value broadcast."""
+    if maps and all(m is not None for m in maps):
+        return np.stack(maps)
+    return np.broadcast_to(np.asarray(uniform, dtype=float)[:, None, None], shape)
 
 
 def key_figures(ds: xr.Dataset) -> dict:

@@ -20,12 +20,13 @@ log = logging.getLogger(__name__)
 ELECTROCHEMISTRY = ("spm", "spme", "dfn")
 LAYOUTS = ("single", "averaged", "distributed")
 CELLS_ON_GRID = 1536  # default in-plane grid size (32 x 48 on a 2:3 face)
+RODS = 24  # default number of rods of the distributed layout
 
 
 def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: str = "averaged",
              start_soc: float = 1.0, start_temperature_C: float = 25.0, *, grid=None,
              position=None, output_interval_s: float | None = None, mesh: dict | None = None,
-             progress=None):
+             rods=None, progress=None):
     """Run ``duty`` on ``cell`` with ``cooling`` and return the results Dataset.
 
     Parameters
@@ -40,7 +41,9 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     layout : {"single", "averaged", "distributed"}
         ``single``: one rod and a single cell temperature, no collectors;
         ``averaged``: one rod at the area-mean temperature, coupled to the 2-D
-        collector and thermal fields.
+        collector and thermal fields; ``distributed``: a grid of rods coupled
+        through the collector potentials and the local temperature (real
+        current-density and SOC fields, about 25 times the cost).
     start_soc, start_temperature_C : float
         Initial state (uniform, at rest).
     grid : (nx, ny), optional
@@ -54,6 +57,10 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         0.5 to 30 s apart.
     mesh : dict, optional
         Rod mesh sizes, passed to the electrochemical model.
+    rods : (mx, my), optional
+        The distributed layout's grid of rods (default about 24 near-square
+        patches); each rod runs at its patch's temperature and the collector
+        potentials share the current among them.
     progress : callable(t_s, step_index), optional
 
     Returns
@@ -76,9 +83,6 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     start_temperature_C = _number("start_temperature_C", start_temperature_C, -40.0, 80.0)
     if output_interval_s is not None and not output_interval_s > 0:
         raise InputError(f"simulate: `output_interval_s` must be > 0, got {output_interval_s!r}")
-    if layout == "distributed":
-        raise InputError("simulate: `layout='distributed'` is not available in this version; "
-                         "use 'averaged' (2-D collector and thermal fields) or 'single'")
     steps = [_duty.resolve(s, cell) for s in _duty.as_steps(duty)]
 
     g = cell.geometry
@@ -100,9 +104,16 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
 
         network = CollectorNetwork(cell, the_grid)
         thermal = PlaneThermal(cell, the_grid, sinks)
-        coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
-                            dict(network.tab_joule_W_per_A2))
         r_collector = network.resistance_ohm
+        if layout == "averaged":
+            coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
+                                dict(network.tab_joule_W_per_A2))
+        else:
+            from explorer.stepping.distributed import DistributedRods
+
+            rod_grid = _rods(g.width_m, g.height_m, rods)
+            rod = DistributedRods(rod, network, the_grid, rod_grid)
+            coupling = Coupling()
     record = run(rod, thermal, steps, start_soc=start_soc,
                  start_temperature_C=start_temperature_C, coupling=coupling,
                  settings=Settings(output_interval_s=output_interval_s), progress=progress)
@@ -120,6 +131,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         "hydraulics": _hydraulics(cooling, mean_rejected),
         "cell_position": position,
         "rod_mesh": mesh or {},
+        "rods": list(rod_grid) if layout == "distributed" else [1, 1],
     }
     return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
 
@@ -139,6 +151,14 @@ def _number(name, value, lo, hi):
     if not (math.isfinite(v) and lo <= v <= hi):
         raise InputError(f"simulate: `{name}` must be within {lo:g}..{hi:g}, got {value!r}")
     return v
+
+
+def _rods(width, height, rods):
+    """Default rod grid of the distributed layout: about RODS near-square patches."""
+    if rods is not None:
+        return rods
+    mx = max(1, round(math.sqrt(RODS * width / height)))
+    return (mx, max(1, round(RODS / mx)))
 
 
 def _grid(width, height, grid) -> Grid:

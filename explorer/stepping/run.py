@@ -65,6 +65,8 @@ class Record:
     rejected_by_sink: dict = field(default_factory=dict)
     core_difference: list = field(default_factory=list)  # max K
     coolant_outlet: list = field(default_factory=list)
+    soc_map: list = field(default_factory=list)  # (ny, nx) or None where SOC is uniform
+    current_density: list = field(default_factory=list)  # (ny, nx) A m-2 or None if uniform
     stored_J: list = field(default_factory=list)
     lithium_mol: list = field(default_factory=list)
     status: str = "completed"
@@ -113,7 +115,8 @@ def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temp
 
 
 class _Trial:
-    __slots__ = ("dt", "rod", "thermal", "rejected", "heat_map", "tab_heat", "heat", "t_max")
+    __slots__ = ("dt", "rod", "thermal", "rejected", "heat_map", "tab_heat", "heat", "t_max",
+                 "collector")
 
 
 class _Stepper:
@@ -127,6 +130,8 @@ class _Stepper:
                       else np.zeros(shape))
         self.R = coupling.series_resistance_ohm
         self.needs_field = False
+        self.joule_total = float(self.joule.sum())
+        self.field_rods = bool(getattr(rod, "field_temperature", False))
 
     # -- state ------------------------------------------------------------------------------
     def start(self, soc, temperature_C):
@@ -135,12 +140,13 @@ class _Stepper:
         self.rod_state = self.rod.initial_state(soc, temperature_C + 273.15)
         self.current = 0.0
         # a zero-current step of zero length would need the rod's OCV; take a tiny rest step
-        res = self.rod.solve_step(self.rod_state, 1e-6, temperature_C + 273.15,
+        res = self.rod.solve_step(self.rod_state, 1e-6, self._rod_temperature(),
                                   Control("current", 0.0), self.R)
         zero = np.zeros(self.thermal.grid.shape)
-        self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, boundary=True)
+        self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0, boundary=True)
 
-    def _record(self, index, res, heat_map, tab_heat, heat, rejected, boundary=False):
+    def _record(self, index, res, heat_map, tab_heat, heat, rejected, collector,
+                boundary=False):
         r = self.rec
         T = self.thermal.temperature_C(self.T_state)
         r.time.append(self.t)
@@ -153,8 +159,9 @@ class _Stepper:
         r.heat_map.append(heat_map)
         for k in HEAT_KEYS:
             r.heat[k].append(heat.get(k, 0.0))
-        I2 = res.current_A ** 2
-        r.heat["collector"].append(I2 * float(self.joule.sum()))
+        r.heat["collector"].append(collector)
+        r.soc_map.append(getattr(res, "soc_map", None))
+        r.current_density.append(getattr(res, "current_density_map", None))
         r.heat["tab"].append(sum(tab_heat.values()) if tab_heat else 0.0)
         r.heat_rejected.append(float(sum(rejected.values())))
         for name, w in rejected.items():
@@ -180,6 +187,7 @@ class _Stepper:
         wanted = min(s.dt_first_s, interval)  # the step size the error control asks for
         t_end = t0 + step.step.max_duration_s()
         prev_voltage = self.rec.voltage[-1]
+        last_load = None
         while True:
             if self.t >= t_end - 1e-9:
                 return
@@ -193,6 +201,8 @@ class _Stepper:
             if dt <= 1e-9:  # an output time within round-off: skip to the next one
                 dt = min(wanted, limit - self.t + interval)
             control = self._control(step, t_in)
+            # a load change jumps the voltage by the Ohmic drop whatever dt is: not an error
+            fresh = control.value != last_load
             trial = self._try(control, dt, index)
             if trial is None:
                 self.rec.steps_rejected += 1
@@ -205,7 +215,7 @@ class _Stepper:
                 trial.rod.current_A) + 1e-9)
             too_big = dV > s.voltage_change_V or (step.kind == "voltage" and dI > s.current_change
                                                  and abs(self.current) > 0)
-            if too_big and dt > 4 * s.dt_min_s:
+            if too_big and not fresh and dt > 4 * s.dt_min_s:
                 self.rec.steps_rejected += 1
                 wanted = dt / 2.0
                 continue
@@ -216,6 +226,7 @@ class _Stepper:
                 return
             self._accept(trial, index, boundary=self.t + trial.dt >= t_end - 1e-9)
             prev_voltage = trial.rod.voltage_V
+            last_load = control.value
             if dV < 0.5 * s.voltage_change_V:
                 wanted = min(max(wanted, dt) * 1.5, interval)
 
@@ -226,10 +237,15 @@ class _Stepper:
             return Control(step.step.profile_quantity, step.load_at(t_in))
         return Control(step.kind, step.value)
 
+    def _rod_temperature(self):
+        """What the rod is given: the field (degC) for a grid of rods, else the mean (K)."""
+        if self.field_rods:
+            return self.thermal.temperature_C(self.T_state)
+        return self.thermal.mean_temperature_C(self.T_state) + 273.15
+
     def _try(self, control, dt, index) -> _Trial | None:
-        T_mean = self.thermal.mean_temperature_C(self.T_state)
         try:
-            res = self.rod.solve_step(self.rod_state, dt, T_mean + 273.15, control, self.R)
+            res = self.rod.solve_step(self.rod_state, dt, self._rod_temperature(), control, self.R)
         except RodStepError as exc:
             log.debug("rod step failed at t=%.3f dt=%.3g: %s", self.t, dt, exc)
             self._last_error = str(exc)
@@ -246,10 +262,15 @@ class _Stepper:
     def _thermal_step(self, tr: _Trial) -> None:
         """The thermal step for a trial; deferred until a trial is accepted unless an end
         condition on temperature has to be watched (saves factorisations for trial dts)."""
-        I = tr.rod.current_A
-        q_rod = sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS)
-        tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells) + I * I * self.joule
-        tr.tab_heat = {k: I * I * v for k, v in self.c.tab_joule_W_per_A2.items()}
+        res = tr.rod
+        if getattr(res, "heat_map_W", None) is not None:  # a grid of rods brings its own fields
+            tr.heat_map, tr.tab_heat, tr.collector = res.heat_map_W, res.tab_heat_W, res.collector_W
+        else:
+            I = res.current_A
+            q_rod = sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS)
+            tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells) + I * I * self.joule
+            tr.tab_heat = {k: I * I * v for k, v in self.c.tab_joule_W_per_A2.items()}
+            tr.collector = I * I * self.joule_total
         tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
                                                     tr.tab_heat or None)
         tr.t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
@@ -336,7 +357,8 @@ class _Stepper:
         self.T_state = tr.thermal
         self.current = tr.rod.current_A
         self.rec.steps_taken += 1
-        self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected, boundary)
+        self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected,
+                     tr.collector, boundary)
         if self.progress is not None:
             self.progress(self.t, index)
 
