@@ -108,7 +108,7 @@ def turning_points(values, y, atol: float = TREND_ATOL) -> list[float]:
 
 def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float = 0.005,
                   spacing: str = "auto", max_evaluations: int = 40,
-                  on_sampled=None) -> Boundary:
+                  on_sampled=None, integer: bool = False) -> Boundary:
     """Find the boundary of the feasible region of ``margin(value) >= 0`` in ``[lo, hi]``.
 
     Parameters
@@ -126,6 +126,9 @@ def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float
     on_sampled : callable, optional
         Called with no arguments once the first samples are evaluated (the
         sizing uses it to narrow the cell positions it runs while refining).
+    integer : bool
+        The value is a whole number (a count of channels or cells): samples
+        are rounded and the bracket is refined to neighbouring integers.
 
     Returns
     -------
@@ -158,6 +161,11 @@ def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float
         return seen[x]
 
     xs = sample_points(lo, hi, samples, spacing)
+    if integer:
+        xs = np.unique(np.round(xs))
+        if xs.size < 2:
+            raise InputError(f"size_cooling: an integer parameter needs bounds at least 1 "
+                             f"apart, got [{lo:g}, {hi:g}]")
     ms = np.array([f(x) for x in xs])
     if on_sampled is not None:
         on_sampled()
@@ -185,7 +193,7 @@ def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float
         i += step
     a, b = float(xs[i]), float(xs[i + step])  # a meets, b fails
     islands = _islands(xs, met, skip=(min(i, anchor), max(i, anchor)))
-    a, b = _refine(f, seen, a, b, rtol)
+    a, b = _refine_integer(f, a, b) if integer else _refine(f, seen, a, b, rtol)
     return outcome(a, True, "boundary", bracket=(a, b), islands=islands)
 
 
@@ -200,6 +208,18 @@ def _islands(xs, met, skip) -> list[tuple[float, float]]:
                 runs.append((float(xs[start]), float(xs[k - 1])))
             start = None
     return runs
+
+
+def _refine_integer(f, a: float, b: float) -> tuple[float, float]:
+    """Bisect a bracket of whole numbers (``a`` meets, ``b`` fails) to neighbours."""
+    while abs(b - a) > 1:
+        m = float(math.floor(0.5 * (a + b)))
+        m = m if m != a else m + 1.0
+        if f(m) >= 0.0:
+            a = m
+        else:
+            b = m
+    return a, b
 
 
 def _refine(f, seen: dict, a: float, b: float, rtol: float) -> tuple[float, float]:
@@ -361,11 +381,12 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
     limits.check_reachable(_coldest_sink(cooling, vary, lo, hi), where="size_cooling")
 
     runner = _Runner(cell, duty, cooling, vary, limits, positions, simulate_kwargs)
-    outcome = find_boundary(runner.margin, lo, hi, samples=samples, rtol=rtol, spacing=spacing,
-                            max_evaluations=max_evaluations, on_sampled=runner.choose_positions)
+    integer = _is_integer(cooling, vary, lo, hi)
+    search = {"samples": samples, "rtol": rtol, "spacing": spacing,
+              "max_evaluations": max_evaluations, "integer": integer}
+    outcome = find_boundary(runner.margin, lo, hi, on_sampled=runner.choose_positions, **search)
     if len(runner.active) < len(positions):
-        outcome = _recheck_all_positions(runner, outcome, lo, hi, samples, rtol, spacing,
-                                         max_evaluations)
+        outcome = _recheck_all_positions(runner, outcome, lo, hi, search)
     if strict and outcome.kind != "boundary":
         raise SizingError(_message(outcome, vary, lo, hi, runner, limits))
     worst = runner.worst(outcome.value, positions)
@@ -383,15 +404,26 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
         kind=outcome.kind, position=worst["position"], evaluations=runner.runs)
 
 
-def _recheck_all_positions(runner, outcome, lo, hi, samples, rtol, spacing, max_evaluations):
+def _recheck_all_positions(runner, outcome, lo, hi, search):
     """After refining at one position, confirm the answer at all; search again if it fails."""
     runner.active = list(runner.positions)
     if runner.margin(outcome.value) >= 0.0 or not outcome.feasible:
         return outcome
     log.info("another cell position is worse at %g; searching again with all positions",
              outcome.value)
-    return find_boundary(runner.margin, lo, hi, samples=samples, rtol=rtol, spacing=spacing,
-                         max_evaluations=max_evaluations)
+    return find_boundary(runner.margin, lo, hi, **search)
+
+
+def _is_integer(cooling, vary, lo, hi) -> bool:
+    """A whole-number parameter: integer bounds and value, and the design refuses a fraction."""
+    current = cooling.parameters()[vary]
+    if not all(float(v).is_integer() for v in (lo, hi, current)) or hi - lo < 1:
+        return False
+    try:
+        cooling.replace(**{vary: lo + 0.5})
+    except (ValueError, TypeError):
+        return True
+    return False
 
 
 def _check_bounds(bounds) -> tuple[float, float]:

@@ -40,12 +40,13 @@ class StandInPlate:
     flow_L_min: float = 2.0
     inlet_C: float = 25.0
     tim_W_mK: float = 3.0
+    channels: int = 8
     cells_per_plate: int = 5
     fail_at_flow: float = -1.0  # a flow at which the stand-in run raises (failure tests)
 
     def parameters(self) -> dict:
         return {"flow_L_min": self.flow_L_min, "inlet_C": self.inlet_C,
-                "tim_W_mK": self.tim_W_mK}
+                "tim_W_mK": self.tim_W_mK, "channels": float(self.channels)}
 
     def replace(self, **changes):
         for name, value in changes.items():
@@ -54,6 +55,8 @@ class StandInPlate:
                                  f"{sorted(self.parameters())}")
             if name != "inlet_C" and not value > 0:
                 raise InputError(f"stand-in: `{name}` must be > 0, got {value!r}")
+            if name == "channels" and not float(value).is_integer():
+                raise InputError(f"stand-in: `channels` must be a whole number, got {value!r}")
         return replace(self, **changes)
 
     def describe(self) -> dict:
@@ -66,7 +69,7 @@ class StandInPlate:
         return self.flow_L_min / 60e3 * 1000.0 * 4180.0 / self.cells_per_plate
 
     def conductance_W_K(self) -> float:
-        film = 4.0 * self.flow_L_min ** 0.8  # W/K, invented
+        film = 4.0 * self.flow_L_min ** 0.8 * self.channels / 8.0  # W/K, invented
         tim = 2.0 * self.tim_W_mK  # W/K, invented
         return 1.0 / (1.0 / film + 1.0 / tim)
 
@@ -264,6 +267,21 @@ def test_size_inlet_is_self_consistent(standin):
     assert lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(inlet_C=res.value)))["met"]
     warmer = plate.replace(inlet_C=1.05 * res.value)
     assert not lim.check(standin_simulate(STANDIN_CELL, DUTY, warmer))["met"]
+
+
+def test_size_whole_number_parameter(standin):
+    """A count (channels) is sized to neighbouring whole numbers: n meets, n - 1 does not."""
+    lim = Limits(temperature_max_C=40.0)
+    plate = StandInPlate(flow_L_min=2.0)
+    res = size_cooling(STANDIN_CELL, DUTY, plate, "channels", (2.0, 40.0), lim)
+    assert res.feasible and res.kind == "boundary"
+    assert float(res.value).is_integer()
+    worst = plate.positions_to_check()[-1]
+    assert lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(channels=res.value),
+                                      position=worst))["met"]
+    assert not lim.check(standin_simulate(STANDIN_CELL, DUTY,
+                                          plate.replace(channels=res.value - 1),
+                                          position=worst))["met"]
 
 
 def test_size_infeasible_reports_best(standin):
