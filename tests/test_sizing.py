@@ -408,3 +408,19 @@ def test_real_coolant_energy_balance_at_the_design(van):
     lhs = rate * (ds["coolant_outlet"][1:] - 25.0)
     np.testing.assert_allclose(lhs, into_coolant, rtol=0.01)
     assert float(into_coolant[-1]) > 1.0  # a real heat flow, not a trivial zero
+
+
+def test_size_reports_non_monotone_figures(monkeypatch):
+    """A figure that rises again with more flow is reported with where it turns."""
+
+    def wavy(cell, duty_, cooling=None, **kw):
+        ds = standin_simulate(cell, duty_, cooling, **kw)
+        bump = 6.0 * np.exp(-((cooling.flow_L_min - 6.0) / 0.8) ** 2)  # invented bump
+        return ds.assign(temperature_max=ds["temperature_max"] + bump)
+
+    monkeypatch.setattr(sizing, "_simulate", wavy)
+    res = size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (0.5, 10.0),
+                       Limits(temperature_max_C=40.0), spacing="linear", samples=9)
+    assert not res.monotone
+    assert "temperature_max_C" in res.turning_points
+    assert "not monotone" in res.message
