@@ -295,3 +295,27 @@ def test_sizing_tab(monkeypatch, fake_simulate):
     assert app.dataset is result.dataset
     app.set_inputs(cooling="adiabatic")
     assert app.size_button.disabled
+
+
+# ---------------------------------------------------------------------------------------------
+# end to end on the real simulation (SPMe, averaged, coarse grid)
+
+
+def test_real_run_and_sizing_end_to_end():
+    app = explorer.explore(discharge_c_rate=2.0, fin_mm=1.0, size_vary="fin_mm", size_low=0.2,
+                           size_high=3.0)
+    ds = app.run()
+    assert ds is not None, app.last_error
+    assert ds.attrs["status"] == "completed" and ds.attrs["layout"] == "averaged"
+    k = app.time_slider.value
+    np.testing.assert_allclose(np.asarray(app.fig_temperature.figure.data[0].z),
+                               ds["temperature"].isel(time=k).values)
+    figures = explorer.results.key_figures(ds)
+    assert f"{figures['peak_temperature_C']:.2f}" in app.summary.value
+    result = app.size()
+    assert result is not None, app.last_error
+    curve = [tr for tr in app.fig_sizing.figure.data if tr.name == "hottest point"][0]
+    order = np.argsort(result.curve["value"].values)
+    np.testing.assert_allclose(curve.x, result.curve["value"].values[order])
+    np.testing.assert_allclose(curve.y, result.curve["temperature_max_C"].values[order])
+    assert result.vary == "fin_mm" and "fin_mm" in app.sizing_text.value

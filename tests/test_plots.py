@@ -160,3 +160,37 @@ def test_frame_indices_keep_ends():
     idx = plots.frame_indices(1000, 60)
     assert idx[0] == 0 and idx[-1] == 999 and len(idx) <= 60
     assert list(plots.frame_indices(5, 60)) == [0, 1, 2, 3, 4]
+
+
+# ---------------------------------------------------------------------------------------------
+# on a real run (SPMe, averaged layout, coarse grid: well under a second)
+
+
+@pytest.fixture(scope="module")
+def real():
+    import explorer
+
+    cell = explorer.load_cell("van_nmc_66ah")
+    design = explorer.cooling.edge_plate(
+        explorer.cooling.cold_plate(coolant="water", flow_L_min=2.0, inlet_C=25.0), fin_mm=0.5)
+    ds = explorer.simulate(cell, explorer.duty.discharge(c_rate=2.0), design,
+                           electrochemistry="spme", layout="averaged", grid=(12, 8))
+    return cell, ds
+
+
+def test_real_run_plots(real):
+    cell, ds = real
+    assert ds.attrs["status"] == "completed"
+    fig = plots.field_figure(ds)
+    k = fig.layout.meta["index"]
+    np.testing.assert_allclose(np.asarray(fig.data[0].z), ds["temperature"].isel(time=k).values)
+    # the coated area spans the cell's electrode width and height (cell-centred grid)
+    x = np.asarray(fig.data[0].x)
+    assert x[-1] + x[0] == pytest.approx(cell.geometry.width_m * 1e3)
+    # the dotted line is the cell's data-sheet maximum
+    assert cell.temperature_max_C in _hlines(plots.traces_figure(ds))
+    # Bernardi et al. (1985): the heat sources add up to the total; the figure shows exactly that
+    heat = plots.heat_split_figure(ds)
+    parts = sum(np.asarray(tr.y) for tr in heat.data if tr.stackgroup or "signed" in (tr.name or ""))
+    total = next(tr for tr in heat.data if tr.name == "total generated")
+    np.testing.assert_allclose(parts, np.asarray(total.y), rtol=1e-9, atol=1e-9)

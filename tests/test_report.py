@@ -151,3 +151,18 @@ def test_cmd_report_errors(tmp_path, capsys):
     junk.write_text("not netcdf")
     assert cmd_report(str(junk), None) == 2
     assert "junk.nc" in capsys.readouterr().err
+
+
+def test_report_of_a_real_run(tmp_path):
+    import explorer
+
+    cell = explorer.load_cell("van_nmc_66ah")
+    ds = explorer.simulate(cell, explorer.duty.discharge(c_rate=2.0),
+                           explorer.cooling.convection(10.0, 25.0), electrochemistry="spm",
+                           layout="averaged", grid=(12, 8))
+    path = write_report(ds, tmp_path / "real.html", inputs={"h_W_m2K": 10.0})
+    body = " ".join(_parse(path.read_text(encoding="utf-8")).text)
+    assert cell.sha256 in body and cell.name in body
+    figures = results.key_figures(ds)
+    assert f"{figures['charge_delivered_Ah']:.2f}" in body
+    assert ds.attrs["status_message"] in body
