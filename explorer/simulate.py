@@ -117,7 +117,9 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     record = run(rod, thermal, steps, start_soc=start_soc,
                  start_temperature_C=start_temperature_C, coupling=coupling,
                  settings=Settings(output_interval_s=output_interval_s), progress=progress)
-    mean_rejected = float(np.mean(record.heat_rejected)) if record.heat_rejected else 0.0
+    # the plate's hydraulics see the mean heat this cell puts into the coolant
+    into_coolant = record.rejected_by_sink.get(sinks.coolant.sink, []) if sinks.coolant else []
+    mean_rejected = float(np.mean(into_coolant)) if into_coolant else 0.0
     attrs = {
         "electrochemistry": electrochemistry,
         "layout": layout,
@@ -128,7 +130,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         "output_interval_s": output_interval_s or "auto",
         "duty": [s.step.describe() for s in steps],
         "cooling": _describe(cooling),
-        "hydraulics": _hydraulics(cooling, mean_rejected),
+        "hydraulics": _hydraulics(cooling, mean_rejected, cell),
         "cell_position": position,
         "rod_mesh": mesh or {},
         "rods": list(rod_grid) if layout == "distributed" else [1, 1],
@@ -206,11 +208,8 @@ def _describe(cooling) -> dict:
     return cooling.describe()
 
 
-def _hydraulics(cooling, heat_W) -> dict:
+def _hydraulics(cooling, heat_W, cell) -> dict:
     fn = getattr(cooling, "hydraulics", None)
     if fn is None:
         return {}
-    try:
-        return fn(heat_W=heat_W) or {}
-    except TypeError:
-        return fn() or {}
+    return fn(heat_W=heat_W, cell=cell) or {}
