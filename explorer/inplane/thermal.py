@@ -203,29 +203,49 @@ class PlaneThermal:
         self._lu = OrderedDict()
         self._steady_lu = None
 
-        shape, N, dA = grid.shape, grid.nx * grid.ny, grid.cell_area_m2
-        L = self.thickness_m
-        sys = _System()
-        cell_nodes = sys.nodes(N)
-        capacity = [np.full(N, self.heat_capacity_J_per_K / N)]
+        self.throughplane = bool(throughplane)
+        self._N = grid.nx * grid.ny
         self._flows: list[_SinkFlow] = []
-        self._attach = {}  # sink name -> (nodes, G) for a coolant stream to take over
-
-        # -- cell sheet in the plane --
-        a, b, G = grid_links(grid, self.k_inplane_W_mK * L)
+        self._attach = {}  # face/edge sink name -> (kind, nodes, G, sink temperature)
+        sys = _System()
+        self._cell_nodes = sys.nodes(self._N)
+        capacity = [np.full(self._N, self.heat_capacity_J_per_K / self._N)]
+        a, b, G = grid_links(grid, self.k_inplane_W_mK * self.thickness_m)
         sys.link(a, b, G)
 
-        # -- which faces have a heat path, and the through-plane depths --
-        fin = sinks.fin
+        face_h, face_u = self._face_paths(sinks)
+        self._fin_nodes = None
+        if sinks.fin is not None:
+            capacity.append(self._add_fin(sys, sinks.fin, face_u))
+        self._add_faces(sinks, face_h)
+        self._add_edges(sinks)
+        self._coolant = None
+        if sinks.coolant is not None:
+            self._coolant = self._add_coolant(sys, sinks.coolant)
+        for name, (_kind, nodes, G, T) in self._attach.items():
+            if self._coolant is None or name != self._coolant["sink"]:
+                sys.to_fixed(nodes, G, T)
+                self._flows.append(_SinkFlow(name, nodes, G, const=float(G @ T)))
+        self._add_tabs(sys, cell, sinks)
+
+        self._n = sys.n
+        self._c = np.concatenate(capacity + [np.zeros(sys.n - sum(c.size for c in capacity))])
+        self._K, self._s = sys.build()
+        self._has_sink = bool(self._flows)
+        self._F, self._F0 = self._flow_matrix()
+        self._flow_names = [f.name for f in self._flows]
+
+    # -- assembly ---------------------------------------------------------------------
+    def _face_paths(self, sinks: Sinks):
+        """Face h maps, each face's conductance per area for the depth split, and the
+        mean-to-face resistances and core factors that follow from it."""
+        shape, L, k = self.grid.shape, self.thickness_m, self.k_through_W_mK
         for face in sinks.faces:
             check_choice("sinks.faces key", face, FACES)
+        fin = sinks.fin
         if fin is not None:
             check_choice("sinks.fin.face", fin.face, FACES)
             check_choice("sinks.fin.edge", fin.edge, EDGES)
-            for f in ("thickness_m", "conductivity_W_mK", "density_kg_m3",
-                      "specific_heat_J_kgK"):
-                check_positive(f"sinks.fin.{f}", getattr(fin, f))
-            _field("sinks.fin.contact_W_m2K", fin.contact_W_m2K, (), allow_inf=True)
         face_h, face_u = {}, {}
         for face in FACES:
             if face in sinks.faces:
@@ -237,50 +257,54 @@ class PlaneThermal:
             else:
                 face_u[face] = face_h.get(face, np.zeros(shape))
         d_front, d_back = tp.face_depths(face_u["front"], face_u["back"], L, shape)
-        depth = {"front": d_front, "back": d_back}
-        self._core_surface = tp.core_surface_factor(d_front, d_back, self.k_through_W_mK) / (dA * L)
-        self._core_mean = tp.core_mean_factor(d_front, d_back, L, self.k_through_W_mK) / (dA * L)
-        r_face = {f: (tp.mean_to_face_resistance(depth[f], self.k_through_W_mK) if throughplane
-                      else np.zeros(shape)) for f in FACES}
+        volume = self.grid.cell_area_m2 * L
+        self._core_surface = tp.core_surface_factor(d_front, d_back, k) / volume
+        self._core_mean = tp.core_mean_factor(d_front, d_back, L, k) / volume
+        self._r_face = {f: (tp.mean_to_face_resistance(d, k) if self.throughplane
+                            else np.zeros(shape))
+                        for f, d in (("front", d_front), ("back", d_back))}
+        return face_h, face_u
 
-        def face_conductance(name, u, r):
-            G = dA / (_recip(u) + r)
-            if not np.all(np.isfinite(G)):
-                raise InputError(f"`{name}`: expected a finite face conductance (an infinite "
-                                 f"value needs throughplane=True), got inf")
-            return G.ravel()
+    def _face_conductance(self, name: str, u, r) -> np.ndarray:
+        """Conductance of each control volume through a face: dA / (1/u + r)."""
+        G = self.grid.cell_area_m2 / (_recip(u) + r)
+        if not np.all(np.isfinite(G)):
+            raise InputError(f"`{name}`: expected a finite face conductance (an infinite "
+                             f"value needs throughplane=True), got inf")
+        return G.ravel()
 
-        # -- fin sheet --
-        fin_nodes = None
-        if fin is not None:
-            fin_nodes = sys.nodes(N)
-            capacity.append(np.full(N, fin.density_kg_m3 * fin.specific_heat_J_kgK
-                                    * fin.thickness_m * dA))
-            a, b, G = grid_links(grid, fin.conductivity_W_mK * fin.thickness_m)
-            sys.link(fin_nodes[a], fin_nodes[b], G)
-            Gc = face_conductance("sinks.fin.contact_W_m2K", face_u[fin.face], r_face[fin.face])
-            sys.link(cell_nodes, fin_nodes, Gc)
-        self._fin_nodes = fin_nodes
+    def _add_fin(self, sys: _System, fin, face_u) -> np.ndarray:
+        """Fin sheet nodes, in-plane links and contact to the cell; returns their capacity."""
+        for f in ("thickness_m", "conductivity_W_mK", "density_kg_m3", "specific_heat_J_kgK"):
+            check_positive(f"sinks.fin.{f}", getattr(fin, f))
+        self._fin_nodes = sys.nodes(self._N)
+        a, b, G = grid_links(self.grid, fin.conductivity_W_mK * fin.thickness_m)
+        sys.link(self._fin_nodes[a], self._fin_nodes[b], G)
+        Gc = self._face_conductance("sinks.fin.contact_W_m2K", face_u[fin.face],
+                                    self._r_face[fin.face])
+        sys.link(self._cell_nodes, self._fin_nodes, Gc)
+        rho_c_t = fin.density_kg_m3 * fin.specific_heat_J_kgK * fin.thickness_m
+        return np.full(self._N, rho_c_t * self.grid.cell_area_m2)
 
-        # -- face sinks --
+    def _add_faces(self, sinks: Sinks, face_h) -> None:
+        """Face sinks: on the fin's outer side where the fin covers that face."""
+        fin = sinks.fin
         for face, fs in sinks.faces.items():
-            T = _field(f"sinks.faces[{face!r}].temperature_C", fs.temperature_C, shape,
-                       nonnegative=False).ravel()
-            if fin is not None and fin.face == face:
-                nodes = fin_nodes
-                Gf = face_conductance(f"sinks.faces[{face!r}].h_W_m2K", face_h[face],
-                                      np.zeros(shape))
-            else:
-                nodes = cell_nodes
-                Gf = face_conductance(f"sinks.faces[{face!r}].h_W_m2K", face_h[face],
-                                      r_face[face])
-            self._attach[face] = ("face", nodes, Gf, T)
+            T = _field(f"sinks.faces[{face!r}].temperature_C", fs.temperature_C,
+                       self.grid.shape, nonnegative=False).ravel()
+            on_fin = fin is not None and fin.face == face
+            nodes = self._fin_nodes if on_fin else self._cell_nodes
+            r = np.zeros(self.grid.shape) if on_fin else self._r_face[face]
+            G = self._face_conductance(f"sinks.faces[{face!r}].h_W_m2K", face_h[face], r)
+            self._attach[face] = ("face", nodes, G, T)
 
-        # -- edge sinks --
+    def _add_edges(self, sinks: Sinks) -> None:
+        """Edge sinks, in series with the half control volume next to the edge."""
+        fin = sinks.fin
         for edge, es in sinks.edges.items():
             check_choice("sinks.edges key", edge, EDGES)
             layer = check_choice(f"sinks.edges[{edge!r}].layer", es.layer, ("cell", "fin"))
-            ec = edge_cells(grid, edge)
+            ec = edge_cells(self.grid, edge)
             per_len = _field(f"sinks.edges[{edge!r}].conductance_W_mK", es.conductance_W_mK,
                              (ec.size,), allow_inf=True)
             T = _field(f"sinks.edges[{edge!r}].temperature_C", es.temperature_C, (ec.size,),
@@ -293,74 +317,57 @@ class PlaneThermal:
                     raise InputError(f"`sinks.edges[{edge!r}].layer`: the fin bends onto the "
                                      f"{fin.edge!r} edge, so a fin edge sink must be on "
                                      f"{fin.edge!r}, got {edge!r}")
-                nodes, sheet = fin_nodes[ec.index], fin.conductivity_W_mK * fin.thickness_m
+                nodes, sheet = self._fin_nodes[ec.index], fin.conductivity_W_mK * fin.thickness_m
             else:
-                nodes, sheet = cell_nodes[ec.index], self.k_inplane_W_mK * L
-            Ge = ec.length_m / (_recip(per_len) + ec.half_m / sheet)
-            self._attach[edge] = ("edge", nodes, Ge, T)
+                nodes, sheet = self._cell_nodes[ec.index], self.k_inplane_W_mK * self.thickness_m
+            G = ec.length_m / (_recip(per_len) + ec.half_m / sheet)
+            self._attach[edge] = ("edge", nodes, G, T)
 
-        # -- coolant stream or fixed temperatures --
-        stream = sinks.coolant
-        if stream is not None:
-            self._coolant = self._add_coolant(sys, stream)
-        else:
-            self._coolant = None
-        for name, (_kind, nodes, G, T) in self._attach.items():
-            if self._coolant is not None and name == stream.sink:
-                continue
-            sys.to_fixed(nodes, G, T)
-            self._flows.append(_SinkFlow(name, nodes, G, const=float(G @ T)))
-
-        # -- tabs --
-        k_sheet = self.k_inplane_W_mK * L
-        self._tab_nodes = {}
-        tab_names = [t.name for t in g.tabs]
+    def _add_tabs(self, sys: _System, cell, sinks: Sinks) -> None:
+        """One node per tab at mid free length, linked to its root cells and its busbar."""
+        grid = self.grid
+        k_sheet = self.k_inplane_W_mK * self.thickness_m
+        tabs = cell.geometry.tabs
         for name in sinks.tabs:
-            check_choice("sinks.tabs key", name, tab_names)
-        for tab in g.tabs:
-            mat = _solid(tab.material, f"tab {tab.name!r} material")
-            k_tab = mat.thermal_conductivity_W_mK
+            check_choice("sinks.tabs key", name, [t.name for t in tabs])
+        self._tab_nodes = {}
+        for tab in tabs:
+            k_tab = _solid(tab.material, f"tab {tab.name!r} material").thermal_conductivity_W_mK
             idx, length = tab_overlap(grid, tab)
             half_cell = 0.5 * (grid.dy if tab.edge in ("bottom", "top") else grid.dx)
             half_tab = 0.5 * tab.free_length_m
             node = sys.nodes(1)[0]
             self._tab_nodes[tab.name] = node
+            # the root as parallel strips: half control volume, then half the free length
             G_root = length / (half_cell / k_sheet + half_tab / (k_tab * tab.thickness_m))
-            sys.link(np.full(idx.size, node), cell_nodes[idx], G_root)
+            sys.link(np.full(idx.size, node), self._cell_nodes[idx], G_root)
             ts = sinks.tabs.get(tab.name)
-            if ts is not None:
-                g_sink = _field(f"sinks.tabs[{tab.name!r}].conductance_W_K", ts.conductance_W_K,
-                                (), allow_inf=True)
-                T_bus = _field(f"sinks.tabs[{tab.name!r}].temperature_C", ts.temperature_C, (),
-                               nonnegative=False)
-                R = half_tab / (k_tab * tab.width_m * tab.thickness_m) + _recip(g_sink)
-                if R <= 0:
-                    raise InputError(f"`sinks.tabs[{tab.name!r}].conductance_W_K`: expected a "
-                                     f"finite value for a tab with zero free length, got inf")
-                Gt = float(1.0 / R)
-                if Gt > 0:
-                    sys.to_fixed(node, Gt, float(T_bus))
-                    self._flows.append(_SinkFlow(tab.name, [node], [Gt], const=Gt * float(T_bus)))
+            if ts is None:
+                continue
+            where = f"sinks.tabs[{tab.name!r}]"
+            g_sink = _field(f"{where}.conductance_W_K", ts.conductance_W_K, (), allow_inf=True)
+            T_bus = float(_field(f"{where}.temperature_C", ts.temperature_C, (),
+                                 nonnegative=False))
+            R = half_tab / (k_tab * tab.width_m * tab.thickness_m) + _recip(g_sink)
+            if R <= 0:
+                raise InputError(f"`{where}.conductance_W_K`: expected a finite value for a "
+                                 f"tab with zero free length, got inf")
+            Gt = float(1.0 / R)
+            if Gt > 0:
+                sys.to_fixed(node, Gt, T_bus)
+                self._flows.append(_SinkFlow(tab.name, [node], [Gt], const=Gt * T_bus))
 
-        n_extra = sys.n - sum(c.size for c in capacity)
-        self._c = np.concatenate(capacity + [np.zeros(n_extra)])
-        self._K, self._s = sys.build()
-        self._N = N
-        self._n = sys.n
-        self._has_sink = bool(self._flows)
-        # every sink's heat flow as one sparse product: flows = F @ x - F0
-        rows, cols, vals = [], [], []
+    def _flow_matrix(self):
+        """Every sink's heat flow as one sparse product: flows = F @ x - F0."""
+        rows, cols, vals = [np.zeros(0, int)], [np.zeros(0, int)], [np.zeros(0)]
         for k, f in enumerate(self._flows):
             for idx, G in ((f.nodes, f.G), (f.m_nodes, -f.Gm)):
                 rows.append(np.full(idx.size, k))
                 cols.append(idx)
                 vals.append(G)
-        self._flow_names = [f.name for f in self._flows]
-        self._F = sp.csr_matrix((np.concatenate(vals) if vals else np.zeros(0),
-                                 (np.concatenate(rows) if rows else np.zeros(0, int),
-                                  np.concatenate(cols) if cols else np.zeros(0, int))),
-                                shape=(len(self._flows), self._n))
-        self._F0 = np.array([f.const for f in self._flows])
+        F = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                          shape=(len(self._flows), self._n))
+        return F, np.array([f.const for f in self._flows])
 
     # -- coolant ----------------------------------------------------------------
     def _add_coolant(self, sys: _System, stream) -> dict:
