@@ -288,3 +288,21 @@ def test_voltage_control_from_rest_far_from_ocv(demo, model, soc, limit, dt):
         r = rod.solve_step(rod.initial_state(soc, T25), dt, T25, Control("voltage", v), 1e-3)
         assert r.voltage_V == pytest.approx(v, abs=1e-7)
         assert (r.current_A < 0) == (limit == "max")
+
+
+@pytest.mark.parametrize("name", CELLS)
+def test_spme_heat_close_to_dfn(demo, name):
+    # Reduced models reproduce the full model's heat at moderate rates (common practice, the
+    # trade figure behind using SPMe heat for cooling design); each Bernardi term per step.
+    params = demo[name][1]
+    rods = {m: make_rod(m, params, MESH) for m in ("spme", "dfn")}
+    states = {m: r.initial_state(0.9, T25) for m, r in rods.items()}
+    for _ in range(8):
+        out = {}
+        for m, rod in rods.items():
+            res = rod.solve_step(states[m], 60.0, T25, Control("current", params.capacity_Ah))
+            states[m], out[m] = res.state, res.heat_W
+        total = {m: sum(h.values()) for m, h in out.items()}
+        assert total["spme"] == pytest.approx(total["dfn"], rel=0.03)
+        assert out["spme"]["reversible"] == pytest.approx(out["dfn"]["reversible"],
+                                                          abs=0.03 * abs(total["dfn"]))
