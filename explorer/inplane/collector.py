@@ -40,6 +40,7 @@ from explorer.cell.model import POLARITIES
 from explorer.inplane.edges import tab_overlap
 from explorer.inplane.grid import Grid
 from explorer.inplane.laplace import sheet_laplacian
+from explorer.inplane.tabs import tab_resistance_ohm
 from explorer.validators import InputError, check_integer
 
 __all__ = ["CollectorNetwork", "tab_resistance_ohm", "auto_refine"]
@@ -52,37 +53,6 @@ _MIN_FINE = 32
 _MIN_PER_TAB = 12
 #: Most fine control volumes per sheet (keeps the factorisation cheap).
 _MAX_FINE = 40_000
-
-
-def _solid(name: str, where: str):
-    """The material entry ``name`` of explorer.materials.SOLIDS, with a clear error."""
-    try:
-        from explorer.materials import SOLIDS
-    except ImportError as exc:  # the materials table is another module's job
-        raise InputError(f"{where}: the solids table explorer.materials.SOLIDS is not "
-                         f"available ({exc})") from None
-    if name not in SOLIDS:
-        valid = ", ".join(repr(k) for k in SOLIDS)
-        raise InputError(f"`{where}`: expected one of {valid}, got {name!r}")
-    return SOLIDS[name]
-
-
-def tab_resistance_ohm(tab) -> float:
-    """Series resistance of a tab's free length plus its weld (ohm).
-
-    ``rho * free_length / (width * thickness) + weld_resistance``, with
-    ``rho`` the reciprocal of the tab material's electrical conductivity.
-    """
-    mat = _solid(tab.material, f"tab {tab.name!r} material")
-    sigma = mat.electrical_conductivity_S_m
-    for field, value in (("width_m", tab.width_m), ("thickness_m", tab.thickness_m)):
-        if not (value > 0):
-            raise InputError(f"`tab {tab.name!r} {field}`: expected a value > 0, got {value!r}")
-    if not (tab.free_length_m >= 0) or not (tab.weld_resistance_ohm >= 0):
-        raise InputError(
-            f"tab {tab.name!r}: expected free_length_m >= 0 and weld_resistance_ohm >= 0, "
-            f"got {tab.free_length_m!r} and {tab.weld_resistance_ohm!r}")
-    return tab.free_length_m / (sigma * tab.width_m * tab.thickness_m) + tab.weld_resistance_ohm
 
 
 def auto_refine(cell, grid: Grid) -> int:

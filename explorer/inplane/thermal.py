@@ -49,11 +49,11 @@ from scipy.sparse.linalg import splu
 
 from explorer.cell.model import EDGES
 from explorer.inplane import throughplane as tp
-from explorer.inplane.collector import _solid
 from explorer.inplane.edges import edge_cells, tab_overlap
 from explorer.inplane.grid import Grid
 from explorer.inplane.laplace import grid_links
 from explorer.inplane.sinks import FACES, FLOW_DIRECTIONS, Sinks
+from explorer.inplane.tabs import tab_solid
 from explorer.validators import InputError, check_choice, check_integer, check_positive
 
 __all__ = ["PlaneThermal"]
@@ -332,7 +332,7 @@ class PlaneThermal:
             check_choice("sinks.tabs key", name, [t.name for t in tabs])
         self._tab_nodes = {}
         for tab in tabs:
-            k_tab = _solid(tab.material, f"tab {tab.name!r} material").thermal_conductivity_W_mK
+            k_tab = tab_solid(tab).thermal_conductivity_W_mK
             idx, length = tab_overlap(grid, tab)
             half_cell = 0.5 * (grid.dy if tab.edge in ("bottom", "top") else grid.dx)
             half_tab = 0.5 * tab.free_length_m
