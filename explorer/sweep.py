@@ -29,6 +29,7 @@ Traces
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import hashlib
 import itertools
@@ -378,6 +379,32 @@ def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
         for case in todo:
             done(case, run_case(cell, duty, case.design, case.settings, keep_fields))
         return
+    with _quiet_cluster_logs(scheduler is None):
+        _execute_dask(cell, duty, todo, scheduler, keep_fields, done)
+
+
+@contextlib.contextmanager
+def _quiet_cluster_logs(quiet: bool):
+    """Hide the start/stop chatter of a cluster this sweep owns (its warnings still show)."""
+    if not quiet or log.isEnabledFor(logging.INFO):
+        yield
+        return
+    # distributed gives its sub-loggers their own levels: quiet each of them.
+    import distributed  # noqa: F401  (creates its loggers)
+
+    names = ["distributed"] + [n for n in logging.root.manager.loggerDict
+                               if n.startswith("distributed.")]
+    saved = {n: logging.getLogger(n).level for n in names}
+    for n in names:
+        logging.getLogger(n).setLevel(logging.WARNING)
+    try:
+        yield
+    finally:
+        for n, level in saved.items():
+            logging.getLogger(n).setLevel(level)
+
+
+def _execute_dask(cell, duty, todo, scheduler, keep_fields, done) -> None:
     client, cluster, owned = _connect(scheduler)
     futures = {}
     try:
@@ -412,7 +439,7 @@ def _connect(scheduler):
         raise InputError("sweep: Dask distributed is needed for parallel sweeps "
                          "(pip install 'dask[distributed]'); or use scheduler='serial'") from None
     if scheduler is None:
-        cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.ERROR)
+        cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.WARNING)
         return Client(cluster), cluster, True
     if isinstance(scheduler, Client):
         return scheduler, None, False
@@ -451,6 +478,11 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
     data["case_status"] = (names, status.astype(str),
                            {"long_name": "completed | stopped | failed"})
     data["case_message"] = (names, message.astype(str), {"long_name": "why a case stopped or failed"})
+    warnings = np.empty(shape, dtype=object)
+    for c in cases:
+        warnings[c.index] = str(results[c.index].attrs.get("hydraulics_warnings", "[]"))
+    data["case_warnings"] = (names, warnings.astype(str),
+                             {"long_name": "hydraulics warnings of the case (JSON list)"})
     if limits is not None:
         _add_margins(data, names, shape, limits)
 
