@@ -362,7 +362,9 @@ def heat_split_figure(ds) -> go.Figure:
             continue
         fig.add_trace(go.Scatter(x=t, y=values, name=HEAT_PARTS[name], stackgroup="heat",
                                  line=dict(color=color, width=0.5)))
-    fig.add_trace(go.Scatter(x=t, y=ds["heat_total"].values, name="total generated",
+    signed = any("signed" in (tr.name or "") for tr in fig.data)
+    total_name = "total generated (stack + entropic)" if signed else "total generated"
+    fig.add_trace(go.Scatter(x=t, y=ds["heat_total"].values, name=total_name,
                              line=dict(color="#000000", width=2)))
     if "heat_rejected" in ds:
         fig.add_trace(go.Scatter(x=t, y=ds["heat_rejected"].values, name="rejected to sinks",

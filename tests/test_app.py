@@ -270,7 +270,6 @@ def test_files_from_the_app(tmp_path, fake_simulate):
 
 
 def test_save_results_netcdf(tmp_path, fake_simulate):
-    pytest.importorskip("h5py", reason="h5py missing: explorer.results.save cannot write netCDF")
     app = explorer.explore()
     app.run()
     nc = app.save_results(tmp_path / "run.nc")
