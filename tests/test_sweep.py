@@ -103,9 +103,12 @@ def test_limits_margins_per_case(standin):
     np.testing.assert_array_equal(ds["meets_limits"].values, met.values.astype("int8"))
 
 
-def test_setting_axis(standin):
-    ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), {"start_temperature_C": [15.0, 25.0]},
-               scheduler="serial", progress=False)
+def test_setting_axis_and_public_name(standin):
+    import explorer
+
+    # `explorer.sweep` stays callable although the module of the same name is imported
+    ds = explorer.sweep(STANDIN_CELL, DUTY, StandInPlate(), {"start_temperature_C": [15.0, 25.0]},
+                        scheduler="serial", progress=False)
     assert ds.sizes["start_temperature_C"] == 2
 
 
