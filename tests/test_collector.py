@@ -294,3 +294,28 @@ class TestBadInput:
     def test_refine(self):
         with pytest.raises(InputError, match="refine"):
             CollectorNetwork(make_cell(), Grid(W, H, 8, 12), refine=0)
+
+
+def test_reciprocity_of_point_drains():
+    """The drop at patch a for 1 A drawn at patch b equals the drop at b for 1 A drawn at
+    a: the reciprocity theorem of passive linear resistive networks (e.g. Desoer & Kuh,
+    "Basic Circuit Theory", 1969, from memory). Also linearity: the response to a sum of
+    drains is the sum of responses, and a charge current flips every sign."""
+    cell = make_cell(LAYOUTS["opposite edges"])
+    grid = Grid(W, H, 8, 12)
+    net = CollectorNetwork(cell, grid)
+    a, b = (2, 1), (9, 6)
+
+    def point(rc):
+        j = np.zeros(grid.shape)
+        j[rc] = 1.0 / grid.cell_area_m2
+        return j
+
+    sa, sb = net.solve(point(a)), net.solve(point(b))
+    assert sa["drop_V"][b] == pytest.approx(sb["drop_V"][a], rel=1e-9)
+    both = net.solve(point(a) + point(b))
+    assert np.allclose(both["drop_V"], sa["drop_V"] + sb["drop_V"], rtol=1e-10, atol=0)
+    charge = net.solve(-point(a))
+    assert np.allclose(charge["negative"], -sa["negative"])
+    assert np.allclose(charge["joule_W"], sa["joule_W"])
+    assert charge["terminal_drop_V"] == pytest.approx(-sa["terminal_drop_V"])
