@@ -44,6 +44,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg import eigh
 
+# step operators kept per (diffusivity, radius, dt): enough for a grid of rods at different
+# temperatures (the distributed layout) evaluated a few times per step
+CACHE_SIZE = 64
+
 __all__ = ["SphereShells", "Propagator", "ModalEuler", "tridiagonal_stiffness"]
 
 
@@ -148,7 +152,7 @@ class SphereShells:
         P, q = self._modal.operator(diffusivity / radius ** 2, dt, force)
         s_q = q[n - 1] - radius * self.surface_distance / diffusivity
         prop = Propagator(P, q, P[n - 1].copy(), float(s_q))
-        if len(self._cache) > 8:
+        if len(self._cache) >= CACHE_SIZE:
             self._cache.clear()
         self._cache[key] = prop
         return prop

@@ -29,7 +29,7 @@ from explorer.rod.heat import heat_split
 from explorer.rod.kinetics import exchange_current, overpotential
 from explorer.rod.mesh import RodMesh
 from explorer.rod.params import FARADAY, REFERENCE_K, RodParameters
-from explorer.rod.particle import SphereShells
+from explorer.rod.particle import CACHE_SIZE, SphereShells
 from explorer.validators import InputError
 
 __all__ = ["SPM", "check_step_inputs"]
@@ -186,7 +186,7 @@ class SPM(RodModel):
             extra = e.particle_radius_m * self.shells.surface_distance / (e.diffusivity_m2_s * f[k])
             surf_q[k] = q[self._outer[k]] - extra * self._flux_per_A[k]
         op = {"P": P, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
-        if len(self._ops) > 8:
+        if len(self._ops) >= CACHE_SIZE:
             self._ops.clear()
         self._ops[key] = op
         return op
