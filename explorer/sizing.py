@@ -362,6 +362,19 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
     Returns
     -------
     SizingResult
+
+    Examples
+    --------
+    >>> import explorer
+    >>> from explorer import cooling, duty
+    >>> cell = explorer.load_cell("van_nmc_66ah")                          # doctest: +SKIP
+    >>> plate = cooling.cold_plate("eg50", flow_L_min=4.0, inlet_C=30.0, cells_per_plate=12)
+    >>> design = cooling.edge_plate(plate, edge="bottom", fin_mm=1.0)
+    >>> res = explorer.size_cooling(cell, duty.discharge(c_rate=1.5), design, vary="fin_mm",
+    ...                             bounds=(0.2, 3.0),
+    ...                             limits=explorer.Limits(temperature_max_C=45, spread_K=5),
+    ...                             grid=(12, 8))                             # doctest: +SKIP
+    >>> print(res.table())                                                  # doctest: +SKIP
     """
     if not isinstance(limits, Limits):
         raise InputError(f"size_cooling: `limits` must be an explorer.Limits, got "
