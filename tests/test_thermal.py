@@ -309,6 +309,14 @@ class TestBadInput:
         with pytest.raises(InputError, match=r"`heat_W`.*\(12, 8\)"):
             model.step(model.initial_state(25.0), np.zeros((3, 3)), 1.0)
 
+    def test_non_finite_heat(self):
+        model = PlaneThermal(make_cell(), self.grid)
+        x = model.initial_state(25.0)
+        with pytest.raises(InputError, match="finite"):
+            model.step(x, np.full(self.grid.shape, np.nan), 1.0)
+        with pytest.raises(InputError, match=r"tab_heat_W\['negative'\]"):
+            model.step(x, np.zeros(self.grid.shape), 1.0, {"negative": math.inf})
+
     def test_bad_dt(self):
         model = PlaneThermal(make_cell(), self.grid)
         with pytest.raises(InputError, match="`dt`"):

@@ -453,6 +453,8 @@ class PlaneThermal:
         if heat.shape != self.grid.shape:
             raise InputError(f"`heat_W`: expected an array of shape {self.grid.shape}, "
                              f"got shape {heat.shape}")
+        if not np.isfinite(heat).all():
+            raise InputError("`heat_W`: expected finite heat per grid cell, got NaN or inf")
         q = self._s.copy()
         q[: self._N] += heat.ravel()
         if tab_heat_W:
@@ -460,6 +462,9 @@ class PlaneThermal:
                 node = self._tab_nodes.get(name)
                 if node is None:
                     check_choice("tab_heat_W key", name, tuple(self._tab_nodes))
+                if not math.isfinite(value):
+                    raise InputError(f"`tab_heat_W[{name!r}]`: expected a finite heat in W, "
+                                     f"got {value!r}")
                 q[node] += value
         return q
 
