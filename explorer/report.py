@@ -29,7 +29,7 @@ from explorer import plots
 
 logger = logging.getLogger(__name__)
 
-__all__ = ["KEY_FIGURE_LABELS", "cmd_report", "render_report", "write_report"]
+__all__ = ["KEY_FIGURE_LABELS", "cmd_report", "format_figure", "render_report", "write_report"]
 
 DEFAULT_TITLE = "Pouch Thermal Explorer — cooling results"
 
@@ -98,7 +98,8 @@ def _esc(value) -> str:
     return html.escape(str(value), quote=True)
 
 
-def _format_figure(name: str, value) -> tuple[str, str]:
+def format_figure(name: str, value) -> tuple[str, str]:
+    """A key figure as (label with unit, formatted value) for tables (unknown names pass through)."""
     label, fmt = KEY_FIGURE_LABELS.get(name, (name.replace("_", " "), "{}"))
     if value is None:
         text = "not reached" if name == "time_to_limit_s" else "—"
@@ -181,7 +182,7 @@ def _run_section(ds, k: int, name: str, inputs, limits, results) -> str:
              f"<p>Status: <span class='status-{_esc(status)}'>{_esc(status)}</span>"
              + (f" — {_esc(message)}" if message else "") + "</p>",
              "<h3>Key figures</h3>",
-             _table([_format_figure(n, v) for n, v in figures.items()], header=("figure", "value")),
+             _table([format_figure(n, v) for n, v in figures.items()], header=("figure", "value")),
              "<h3>Inputs</h3>", _inputs_table(inputs),
              "<h3>Model settings</h3>", _settings_table(ds),
              "<h3>Plots</h3>"]
@@ -205,15 +206,15 @@ def _comparison_section(named: dict, limits, results) -> str:
     header = ["figure"] + [n if i == 0 else f"{n} (Δ to first)" for i, n in enumerate(names)]
     rows = []
     for key in keys:
-        label, first_text = _format_figure(key, figs[names[0]][key])
+        label, first_text = format_figure(key, figs[names[0]][key])
         row = [_esc(label), _esc(first_text)]
         base = figs[names[0]][key]
         for n in names[1:]:
             value = figs[n].get(key)
-            _, text = _format_figure(key, value)
+            _, text = format_figure(key, value)
             if isinstance(value, int | float) and isinstance(base, int | float) and value is not None \
                     and base is not None and np.isfinite(value) and np.isfinite(base):
-                _, dtext = _format_figure(key, value - base)
+                _, dtext = format_figure(key, value - base)
                 text = f"{text} ({'+' if value - base >= 0 else ''}{dtext})"
             row.append(_esc(text))
         rows.append(row)

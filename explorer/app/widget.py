@@ -27,7 +27,7 @@ logger = logging.getLogger(__name__)
 __all__ = ["ExplorerApp"]
 
 _GROUPS = ("Cell and duty", "Cooling", "Model", "Limits")
-_ERROR_STYLE = "color:#B2182B;font-size:0.9em"
+_ERROR_STYLE = "color:#B2182B;font-size:0.9em;white-space:pre-wrap"
 _TIME_MARKER = "time marker"
 
 
@@ -467,10 +467,10 @@ class ExplorerApp(widgets.VBox):
     def _summary_html(self, ds) -> str:
         results = _results()
         figures = results.key_figures(ds)
-        from explorer.report import _format_figure
+        from explorer.report import format_figure
 
         rows = "".join(f"<tr><td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td></tr>"
-                       for label, text in (_format_figure(k, v) for k, v in figures.items()))
+                       for label, text in (format_figure(k, v) for k, v in figures.items()))
         checks = ""
         if self._limits is not None:
             try:
@@ -612,7 +612,7 @@ def _with_suffix(path: str, suffix: str) -> str:
 
 
 def _compare_html(named: dict) -> str:
-    from explorer.report import _format_figure
+    from explorer.report import format_figure
 
     results = _results()
     names = list(named)
@@ -623,13 +623,13 @@ def _compare_html(named: dict) -> str:
     for key, base in figs[names[0]].items():
         if key == "status":
             continue
-        label, text = _format_figure(key, base)
+        label, text = format_figure(key, base)
         cells = [f"<td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td>"]
         for n in names[1:]:
             value = figs[n].get(key)
-            _, vtext = _format_figure(key, value)
+            _, vtext = format_figure(key, value)
             if isinstance(value, float) and isinstance(base, float):
-                _, dtext = _format_figure(key, value - base)
+                _, dtext = format_figure(key, value - base)
                 vtext = f"{vtext} ({'+' if value >= base else ''}{dtext})"
             cells.append(f"<td style='text-align:right'>{_esc(vtext)}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
