@@ -82,6 +82,14 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "heat_rejected": _var("time", record.heat_rejected, "W", "heat into all sinks"),
         "heat_stored": _var("time", record.stored_J, "J",
                             "heat stored in the cell (and fin) relative to 0 degC"),
+        "heat_generated_energy": _var("time", record.heat_generated_J, "J",
+                                      "heat generated since the start"),
+        "heat_rejected_energy": _var("time", record.heat_rejected_J, "J",
+                                     "heat rejected to the sinks since the start"),
+        "charge_delivered": _var("time", np.asarray(record.charge_C) / 3600.0, "A h",
+                                 "charge delivered since the start (positive on discharge)"),
+        "energy_delivered": _var("time", np.asarray(record.electrical_J) / 3600.0, "W h",
+                                 "electrical energy delivered since the start"),
         "lithium": _var("time", record.lithium_mol, "mol", "cyclable lithium in the electrodes (at the ends of duty steps)"),
         "step": xr.Variable("time", np.asarray(record.step, dtype=np.int32),
                             {"units": "1", "long_name": "index of the duty step"}),
@@ -133,32 +141,20 @@ def key_figures(ds: xr.Dataset) -> dict:
     limit = float(ds.attrs.get("temperature_limit_C", math.nan))
     over = np.nonzero(Tmax >= limit)[0] if math.isfinite(limit) else []
     i_peak = int(np.argmax(Tmax))
-    power = ds["power"].values
     return {
         "peak_temperature_C": float(Tmax[i_peak]),
         "peak_time_s": float(t[i_peak]),
         "max_spread_K": float(spread.max()),
         "time_to_limit_s": float(t[over[0]]) if len(over) else None,
         "end_soc": float(ds["soc_mean"].values[-1]),
-        "energy_delivered_Wh": _integral(t, power) / 3600.0,
-        "charge_delivered_Ah": _integral(t, ds["current"].values) / 3600.0,
-        "heat_generated_J": _integral(t, ds["heat_total"].values),
-        "heat_rejected_J": _integral(t, ds["heat_rejected"].values),
+        "energy_delivered_Wh": float(ds["energy_delivered"].values[-1]),
+        "charge_delivered_Ah": float(ds["charge_delivered"].values[-1]),
+        "heat_generated_J": float(ds["heat_generated_energy"].values[-1]),
+        "heat_rejected_J": float(ds["heat_rejected_energy"].values[-1]),
         "duration_s": float(t[-1] - t[0]),
         "end_voltage_V": float(ds["voltage"].values[-1]),
         "status": str(ds.attrs.get("status", "")),
     }
-
-
-def _integral(t, y) -> float:
-    """Integral over the record with each value holding over the step that ends at it.
-
-    The stepper's implicit steps hold the end-of-step rates over the step, so
-    this rule reproduces the energy the thermal model actually received.
-    """
-    t = np.asarray(t, dtype=float)
-    y = np.asarray(y, dtype=float)
-    return float(np.sum(y[1:] * np.diff(t)))
 
 
 def save(ds: xr.Dataset, path) -> Path:

@@ -52,9 +52,10 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         Which cell along a shared cold plate to simulate (0 = first the
         coolant meets); default the last, which sees the warmest coolant.
     output_interval_s : float, optional
-        Spacing of the recorded time base and the longest time step (steps
-        also end exactly at events); default about 200 records per duty step,
-        0.5 to 30 s apart.
+        When given, the run is recorded on this regular time base (plus the
+        exact moments steps end) and no time step is longer. By default the
+        steps follow the error control, at most about 1/120 of each duty
+        step's expected length (0.5 to 60 s), and every step is recorded.
     mesh : dict, optional
         Rod mesh sizes, passed to the electrochemical model.
     rods : (mx, my), optional

@@ -48,13 +48,13 @@ def test_collapses_to_averaged_with_very_conductive_collectors(van):
     resistance is removed too: tab heat would warm the tab edge, and the warmer rods there would
     rightly take more current.)"""
     cell = _with_sheet_resistance(van, 1e-4, tabs=False)
-    dist = _run(cell, "distributed")
-    avg = _run(cell, "averaged")
+    dist = _run(cell, "distributed", output_interval_s=10.0)
+    avg = _run(cell, "averaged", output_interval_s=10.0)
     j = dist.current_density.isel(time=slice(1, None))
     assert float((j.max(("x", "y")) - j.min(("x", "y"))).max()) <= 1e-3 * float(j.mean())
-    common = np.intersect1d(dist.time.values, avg.time.values)
-    dv = dist.voltage.sel(time=common) - avg.voltage.sel(time=common)
-    assert float(np.abs(dv).max()) < 1e-4
+    np.testing.assert_array_equal(dist.time.values, avg.time.values)  # the same regular base
+    # the two runs choose their own internal steps (1 mV local-error control), hence 1 mV
+    assert float(np.abs(dist.voltage - avg.voltage).max()) < 1e-3
 
 
 def test_current_is_conserved(resistive, van):

@@ -10,8 +10,8 @@ Per time step (operator splitting, the thermal field lagging one step):
    with a shorter dt (Illinois false position) to within the tolerances in
    ``END_TOLERANCE``, so no end condition is overshot.
 
-Steps adapt to the voltage and current change per step and never exceed the
-output interval, on whose multiples the stepper lands so the record is on a
+Steps adapt to a local error estimate (the second difference of the voltage,
+or of the current in a voltage hold) and never exceed the output interval, on whose multiples the stepper lands so the record is on a
 regular time base (plus the exact moments steps end). A failed rod solve
 retries with a quarter of the step; below ``dt_min`` the run stops cleanly
 with what it computed and a status saying when and why. Ctrl-C does the same.
@@ -35,8 +35,8 @@ log = logging.getLogger(__name__)
 END_TOLERANCE = {"voltage": 1e-3, "soc": 1e-4, "temperature": 1e-2}
 CURRENT_RELATIVE_TOLERANCE = 1e-3  # of the end current
 HEAT_KEYS = ("irreversible", "reversible", "ohmic_electrolyte", "ohmic_solid")
-POINTS_PER_STEP = 200
-AUTO_INTERVAL_S = (0.5, 30.0)  # bounds of the automatic output spacing
+POINTS_PER_STEP = 120
+AUTO_INTERVAL_S = (0.5, 60.0)  # bounds of the automatic output spacing
 
 
 @dataclass
@@ -44,8 +44,9 @@ class Settings:
     output_interval_s: float | None = None  # None: about POINTS_PER_STEP records per duty step
     dt_min_s: float = 1e-3
     dt_first_s: float = 1.0  # first step after a load change
-    voltage_change_V: float = 0.02  # largest voltage change accepted in one step
-    current_change: float = 0.1  # largest relative current change in one step (CV holds)
+    voltage_tolerance_V: float = 1e-3  # step-size control: local error in the voltage
+    current_tolerance: float = 0.01  # ... in the current of a voltage hold, relative
+    voltage_change_V: float = 0.05  # largest voltage change in one step (keeps knees resolved)
 
 
 @dataclass
@@ -68,12 +69,35 @@ class Record:
     soc_map: list = field(default_factory=list)  # (ny, nx) or None where SOC is uniform
     current_density: list = field(default_factory=list)  # (ny, nx) A m-2 or None if uniform
     stored_J: list = field(default_factory=list)
+    # running integrals over every step taken (exact even where the record is decimated)
+    heat_generated_J: list = field(default_factory=list)
+    heat_rejected_J: list = field(default_factory=list)
+    charge_C: list = field(default_factory=list)
+    electrical_J: list = field(default_factory=list)
     lithium_mol: list = field(default_factory=list)
     status: str = "completed"
     message: str = ""
     wall_time_s: float = 0.0
     steps_taken: int = 0
     steps_rejected: int = 0
+
+
+def _on_grid(t, interval) -> bool:
+    k = round(t / interval)
+    return k >= 1 and abs(t - k * interval) <= 1e-9 * max(1.0, t)
+
+
+def _extrapolation_error(hist, t, y):
+    """Distance of ``y`` at ``t`` from the line through the last two accepted points.
+
+    For a first-order implicit scheme this second difference is of the order of
+    the local truncation error (``y'' dt^2``), which makes it the step-size
+    control's error estimate; None until two points since the last load change.
+    """
+    if len(hist) < 2:
+        return None
+    (t1, y1), (t2, y2) = hist[-2], hist[-1]
+    return abs(y - (y2 + (y2 - y1) * (t - t2) / (t2 - t1)))
 
 
 class _Stop(Exception):
@@ -130,6 +154,7 @@ class _Stepper:
                       else np.zeros(shape))
         self.R = coupling.series_resistance_ohm
         self.needs_field = False
+        self.integrals = np.zeros(4)  # heat generated, heat rejected (J), charge (C), work (J)
         self.joule_total = float(self.joule.sum())
         self.field_rods = bool(getattr(rod, "field_temperature", False))
 
@@ -174,6 +199,10 @@ class _Stepper:
         outlet = self.thermal.coolant_outlet_C(self.T_state)
         r.coolant_outlet.append(math.nan if outlet is None else outlet)
         r.stored_J.append(self.thermal.stored_J(self.T_state))
+        r.heat_generated_J.append(self.integrals[0])
+        r.heat_rejected_J.append(self.integrals[1])
+        r.charge_C.append(self.integrals[2])
+        r.electrical_J.append(self.integrals[3])
         # cyclable lithium is a conservation check, not a trace: taken where duty steps end
         r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
 
@@ -188,13 +217,16 @@ class _Stepper:
         t_end = t0 + step.step.max_duration_s()
         prev_voltage = self.rec.voltage[-1]
         last_load = None
+        hist = []  # (t, y) accepted since the last load change; y is what the control leaves free
+        watch_current = step.kind == "voltage"
         while True:
             if self.t >= t_end - 1e-9:
                 return
             t_in = self.t - t0
-            # land on output times, step ends and profile breakpoints
-            next_out = t0 + (math.floor(t_in / interval + 1e-9) + 1) * interval
-            limit = min(next_out, t_end)
+            # land on step ends, profile breakpoints and (when asked for) output times
+            limit = t_end
+            if s.output_interval_s:
+                limit = min(limit, t0 + (math.floor(t_in / interval + 1e-9) + 1) * interval)
             if step.kind == "profile":
                 limit = min(limit, t0 + step.next_breakpoint(t_in))
             dt = min(wanted, limit - self.t)
@@ -203,6 +235,8 @@ class _Stepper:
             control = self._control(step, t_in)
             # a load change jumps the voltage by the Ohmic drop whatever dt is: not an error
             fresh = control.value != last_load
+            if fresh:
+                hist = []
             trial = self._try(control, dt, index)
             if trial is None:
                 self.rec.steps_rejected += 1
@@ -210,25 +244,30 @@ class _Stepper:
                 if wanted < s.dt_min_s:
                     raise _Stop("failed", self._failure_message(step, control))
                 continue
+            y = trial.rod.current_A if watch_current else trial.rod.voltage_V
+            tol = (s.current_tolerance * max(abs(y), 1e-6) if watch_current
+                   else s.voltage_tolerance_V)
+            err = _extrapolation_error(hist, self.t + dt, y)
             dV = abs(trial.rod.voltage_V - prev_voltage)
-            dI = abs(trial.rod.current_A - self.current) / max(abs(self.current), 1e-3 * abs(
-                trial.rod.current_A) + 1e-9)
-            too_big = dV > s.voltage_change_V or (step.kind == "voltage" and dI > s.current_change
-                                                 and abs(self.current) > 0)
-            if too_big and not fresh and dt > 4 * s.dt_min_s:
+            too_big = (err is not None and err > tol) or (not fresh and dV > s.voltage_change_V)
+            if too_big and dt > 4 * s.dt_min_s:
                 self.rec.steps_rejected += 1
-                wanted = dt / 2.0
+                shrink = 0.5 if err is None or err <= tol else max(0.2, 0.9 * math.sqrt(tol / err))
+                wanted = dt * shrink
                 continue
             end = self._crossed(step, trial, t0)
             if end is not None:
                 trial = self._locate(step, end, control, trial, t0, index)
                 self._accept(trial, index, boundary=True)
                 return
-            self._accept(trial, index, boundary=self.t + trial.dt >= t_end - 1e-9)
+            last = self.t + trial.dt >= t_end - 1e-9
+            on_base = s.output_interval_s is None or _on_grid(self.t + trial.dt - t0, interval)
+            self._accept(trial, index, boundary=last, record=last or on_base)
+            hist.append((self.t, y))
             prev_voltage = trial.rod.voltage_V
             last_load = control.value
-            if dV < 0.5 * s.voltage_change_V:
-                wanted = min(max(wanted, dt) * 1.5, interval)
+            grow = 1.5 if err is None or err < 0.25 * tol else min(1.5, 0.9 * math.sqrt(tol / err))
+            wanted = min(max(wanted, dt) * grow, interval)
 
     def _control(self, step: ResolvedStep, t_in: float) -> Control:
         if step.kind == "rest":
@@ -349,16 +388,23 @@ class _Stepper:
             return end.distance(float(np.max(r.temperature[-1])))
         return None
 
-    def _accept(self, tr: _Trial, index, boundary=False):
+    def _accept(self, tr: _Trial, index, boundary=False, record=True):
         if tr.thermal is None:
             self._thermal_step(tr)
+        res = tr.rod
+        generated = (sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS) + tr.collector
+                     + sum(tr.tab_heat.values()))
+        dt = tr.dt
+        self.integrals += (generated * dt, sum(tr.rejected.values()) * dt, res.current_A * dt,
+                           res.current_A * res.voltage_V * dt)
         self.t += tr.dt
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
         self.current = tr.rod.current_A
         self.rec.steps_taken += 1
-        self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected,
-                     tr.collector, boundary)
+        if record:
+            self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected,
+                         tr.collector, boundary)
         if self.progress is not None:
             self.progress(self.t, index)
 
