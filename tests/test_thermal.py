@@ -357,3 +357,42 @@ class TestBadInput:
         model = PlaneThermal(make_cell(), self.grid)
         with pytest.raises(InputError, match="adiabatic"):
             model.steady_state(np.zeros(self.grid.shape))
+
+
+@pytest.mark.parametrize("design", ["convection", "face plate", "edge plate", "edge plate + fin",
+                                    "tabs", "edge plate + fin + tabs"])
+def test_energy_with_cooling_designs(design):
+    """First law (stored + rejected = generated within 1e-9) on a demo cell with the heat
+    paths the cooling designs of explorer.cooling produce, cells downstream on the plate."""
+    import explorer
+    from explorer import cooling
+
+    cell = explorer.load_cell("van_nmc_66ah")
+    plate = cooling.cold_plate(coolant="water", flow_L_min=1.0, inlet_C=25.0, cells_per_plate=4)
+    tabs = cooling.tab_cooling(conductance_W_K=0.5, busbar_C=30.0)
+    designs = {
+        "convection": cooling.convection(10.0, 25.0),
+        "face plate": cooling.face_plate(plate, face="back"),
+        "edge plate": cooling.edge_plate(plate),
+        "edge plate + fin": cooling.edge_plate(plate, fin_mm=1.0),
+        "tabs": tabs,
+        "edge plate + fin + tabs": cooling.edge_plate(plate, fin_mm=1.0) + tabs,
+    }
+    grid = Grid(cell.geometry.width_m, cell.geometry.height_m, 12, 8)
+    d = designs[design]
+    position = max(d.positions_to_check()) if hasattr(d, "positions_to_check") else 0
+    sinks = d.sinks(cell, grid, position=position) if position else d.sinks(cell, grid)
+    model = PlaneThermal(cell, grid, sinks)
+    net = CollectorNetwork(cell, grid)
+    x = model.initial_state(25.0)
+    e0, generated, rejected = model.stored_J(x), 0.0, 0.0
+    current = 2 * cell.nominal_capacity_Ah
+    for dt in (1.0, 2.0, 5.0, 10.0, 10.0, 30.0, 30.0, 60.0):
+        heat = uniform(grid, 12.0) + current**2 * net.joule_map_W_per_A2
+        tab_heat = {k: current**2 * v for k, v in net.tab_joule_W_per_A2.items()}
+        x, flows = model.step(x, heat, dt, tab_heat)
+        generated += dt * (heat.sum() + sum(tab_heat.values()))
+        rejected += dt * sum(flows.values())
+    assert abs(model.stored_J(x) - e0 + rejected - generated) / generated < 1e-9
+    if model.has_coolant:
+        assert model.coolant_outlet_C(x) > model.coolant_inlet_C(x) >= 25.0
