@@ -147,14 +147,23 @@ def key_figures(ds: xr.Dataset) -> dict:
         "max_spread_K": float(spread.max()),
         "time_to_limit_s": float(t[over[0]]) if len(over) else None,
         "end_soc": float(ds["soc_mean"].values[-1]),
-        "energy_delivered_Wh": float(ds["energy_delivered"].values[-1]),
-        "charge_delivered_Ah": float(ds["charge_delivered"].values[-1]),
-        "heat_generated_J": float(ds["heat_generated_energy"].values[-1]),
-        "heat_rejected_J": float(ds["heat_rejected_energy"].values[-1]),
+        "energy_delivered_Wh": _total(ds, "energy_delivered", "power", 1 / 3600.0),
+        "charge_delivered_Ah": _total(ds, "charge_delivered", "current", 1 / 3600.0),
+        "heat_generated_J": _total(ds, "heat_generated_energy", "heat_total"),
+        "heat_rejected_J": _total(ds, "heat_rejected_energy", "heat_rejected"),
         "duration_s": float(t[-1] - t[0]),
         "end_voltage_V": float(ds["voltage"].values[-1]),
         "status": str(ds.attrs.get("status", "")),
     }
+
+
+def _total(ds, running, rate, scale=1.0) -> float:
+    """The final value of a running integral; for Datasets made elsewhere without it, the
+    rate integrated with each value holding over the step that ends at it (the stepper's rule)."""
+    if running in ds:
+        return float(ds[running].values[-1])
+    t = ds["time"].values.astype(float)
+    return float(np.sum(ds[rate].values[1:] * np.diff(t))) * scale
 
 
 def save(ds: xr.Dataset, path) -> Path:
