@@ -173,3 +173,25 @@ def test_requested_output_interval_gives_a_regular_record(cell):
         ds.attrs["heat_capacity_J_per_K"] * rise, rel=5e-3)
     assert key_figures(ds)["charge_delivered_Ah"] == pytest.approx(
         float(ds.soc_mean[0] - ds.soc_mean[-1]) * cell.derived.theoretical_capacity_Ah, rel=1e-3)
+
+
+def test_cooled_averaged_run_closes_the_energy_balance(cell):
+    """First law with every kind of sink on (edge plate with a fin sheet, coolant warming along
+    the plate, tab cooling): generated = stored + rejected within 0.5 % (issue requirement)."""
+    plate = explorer.cooling.cold_plate(coolant="water", flow_L_min=1.0, inlet_C=20.0,
+                                        cells_per_plate=4)
+    design = (explorer.cooling.edge_plate(plate, edge="bottom", fin_mm=0.5)
+              + explorer.cooling.tab_cooling(conductance_W_K=1.0, busbar_C=30.0))
+    ds = explorer.simulate(cell, duty.discharge(c_rate=2.0), design, layout="averaged",
+                           grid=(12, 8))
+    assert ds.attrs["status"] == "completed"
+    generated = float(ds.heat_generated_energy[-1])
+    stored = float(ds.heat_stored[-1] - ds.heat_stored[0])
+    rejected = float(ds.heat_rejected_energy[-1])
+    assert rejected > 0.1 * generated
+    assert generated == pytest.approx(stored + rejected, rel=5e-3)
+    # the collector and tab heat sit where the current flows: the tab edge is the hottest row
+    q = ds.heat_flux.isel(time=-1)
+    assert float(ds.heat_collector[-1]) > 0 and float(ds.heat_tab[-1]) > 0
+    assert float(q.isel(y=-1).mean()) > float(q.isel(y=0).mean())
+    assert "coolant_outlet" in ds and float(ds.coolant_outlet[-1]) > 20.0
