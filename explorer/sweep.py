@@ -36,9 +36,8 @@ import itertools
 import json
 import logging
 import math
-import os
 import sys
-import tempfile
+import time
 import types
 from pathlib import Path
 
@@ -276,12 +275,15 @@ def run_case(cell, duty, design, settings: dict, keep_fields: bool = False) -> x
     0-d variables, the fields when ``keep_fields``, and ``case_status`` /
     ``case_message`` in its attributes.
     """
+    wall, cpu = time.perf_counter(), time.process_time()
     try:
         ds = _simulate(cell, duty, cooling=design, **settings)
     except Exception as exc:  # one bad case must not stop the sweep
         log.warning("sweep case %s failed: %s", settings, exc)
         return _failed(f"{type(exc).__name__}: {exc}")
-    return reduce_run(ds, keep_fields)
+    out = reduce_run(ds, keep_fields)
+    out.attrs.update(case_wall_s=time.perf_counter() - wall, case_cpu_s=time.process_time() - cpu)
+    return out
 
 
 def reduce_run(ds: xr.Dataset, keep_fields: bool = False) -> xr.Dataset:
@@ -338,21 +340,10 @@ def _nanmax(ds, name) -> float:
 
 
 def write_netcdf(ds: xr.Dataset, path) -> Path:
-    """Write ``ds`` to netCDF atomically: a temporary file in the same folder, then a rename.
+    """Write ``ds`` to netCDF atomically (via :func:`explorer.results.save`)."""
+    from explorer.results import save
 
-    The engine is xarray's default for the installed libraries.
-    """
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    os.close(fd)
-    try:
-        ds.to_netcdf(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    return save(ds, path)
 
 
 def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
@@ -485,6 +476,12 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
         warnings[c.index] = str(results[c.index].attrs.get("hydraulics_warnings", "[]"))
     data["case_warnings"] = (names, warnings.astype(str),
                              {"long_name": "hydraulics warnings of the case (JSON list)"})
+    for name, long in (("case_wall_s", "wall time of the case's run"),
+                       ("case_cpu_s", "CPU time of the case's run (its process)")):
+        arr = np.full(shape, np.nan)
+        for c in cases:
+            arr[c.index] = float(results[c.index].attrs.get(name, np.nan))
+        data[name] = (names, arr, {"units": "s", "long_name": long})
     if limits is not None:
         _add_margins(data, names, shape, limits)
 

@@ -108,6 +108,12 @@ def standin_simulate(cell, duty_, cooling=None, position=None, start_temperature
         "temperature_core_max": ("time", t_mean + spread / 2 + 1.0),
         "heat_total": ("time", np.full(t.size, heat_W)), "heat_rejected": ("time", rejected),
     }
+    # cumulative figures of the results contract (rates held over each step, as recorded)
+    for name, rate, scale in (("energy_delivered", data["power"][1], 3600.0),
+                              ("charge_delivered", data["current"][1], 3600.0),
+                              ("heat_generated_energy", data["heat_total"][1], 1.0),
+                              ("heat_rejected_energy", rejected, 1.0)):
+        data[name] = ("time", np.concatenate([[0.0], np.cumsum(rate[1:] * np.diff(t))]) / scale)
     if cooling is not None:
         data["coolant_outlet"] = ("time", t_in + rejected / cooling.capacity_rate_W_K())
     return xr.Dataset(data, coords={"time": t, "x": [0.1], "y": [0.1]}, attrs={
