@@ -277,7 +277,13 @@ class _Stepper:
         return Control(step.kind, step.value)
 
     def _rod_temperature(self):
-        """What the rod is given: the field (degC) for a grid of rods, else the mean (K)."""
+        """What the rod is given: the field (degC) for a grid of rods, else the mean (K).
+
+        One rod stands for reactions spread uniformly over the face, so its Arrhenius
+        factors belong at the area mean of the temperature; a heat-weighted mean would
+        lean toward the tab corners, where the extra heat is collector Joule heat rather
+        than electrochemistry, and would overstate the rod's kinetics and transport.
+        """
         if self.field_rods:
             return self.thermal.temperature_C(self.T_state)
         return self.thermal.mean_temperature_C(self.T_state) + 273.15
