@@ -6,6 +6,7 @@ measured side by side in the same run. Sections:
 * ``rods``      full 1C discharge through ``simulate`` (single layout) for each
                 model on each demo cell; real-time factor; DFN/SPMe ratio
 * ``averaged``  SPMe, averaged layout, 32 x 48 thermal grid, full 1C discharge
+* ``inplane``   collector network set-up and thermal steps on the 32 x 48 grid
 * ``sweep``     48-case sweep, serial against the local Dask cluster
 * ``app``       the notebook app's run-to-figure and time-slider update
 
@@ -88,6 +89,10 @@ def _section(name, quick):
         return bench_rods(repeat=1 if quick else 3)
     if name == "averaged":
         return bench_averaged(repeat=1 if quick else 3)
+    if name == "inplane":
+        from explorer.inplane.bench import bench_inplane
+
+        return bench_inplane(repeat=1 if quick else 3)
     if name == "sweep":
         from explorer.sweep_bench import bench_sweep
 
@@ -99,7 +104,7 @@ def _section(name, quick):
     raise ValueError(name)
 
 
-SECTIONS = ("rods", "averaged", "sweep", "app")
+SECTIONS = ("rods", "averaged", "inplane", "sweep", "app")
 
 
 def _table(rows) -> str:

@@ -74,7 +74,7 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "temperature_min": _var("time", T.min(axis=(1, 2)), "degC", "coldest point of the face"),
         "temperature_mean": _var("time", T.mean(axis=(1, 2)), "degC", "area-mean temperature"),
         "temperature_core_max": _var("time", Tmax + np.asarray(record.core_difference), "degC",
-                                     "hottest point plus the through-plane core-to-surface rise"),
+                                     "hottest through-plane (core) temperature of the face"),
         "heat_flux": _var(("time", "y", "x"), heat_map, "W m-2",
                           "generated heat per unit face area"),
         "heat_total": _var("time", heat_total, "W", "total generated heat"),

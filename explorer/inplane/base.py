@@ -17,6 +17,8 @@ The time stepper drives any thermal model through these members:
    ``mean_temperature_C(state)``; ``stored_J(state)`` relative to 0 degC
    (fin included) for energy checks; ``core_surface_difference_K(heat_W)``
    -- the through-plane core-to-surface estimate per grid cell;
+   ``core_temperature_C(state, heat_W)`` -- the hottest through-plane
+   temperature per grid cell (the state holds through-thickness means);
    ``coolant_outlet_C(state)`` -- coolant leaving this cell, None without a
    coolant stream.
 """

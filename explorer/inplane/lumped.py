@@ -5,7 +5,9 @@ It meets the thermal-model contract of :mod:`explorer.inplane.base` on a
 a :class:`~explorer.inplane.sinks.Sinks` becomes one conductance to its
 (area- or length-averaged) temperature; a fin sheet is taken in series with
 its contact; a coolant stream is met at its mean temperature along this cell,
-which for a lumped cell is solved in closed form (see ``_stream_factor``).
+which for a lumped cell is solved in closed form (see ``_stream_factor``). The
+temperature is the through-thickness mean, as in the 2-D field: face paths
+carry the mean-to-face resistance of :mod:`explorer.inplane.throughplane`.
 """
 
 from __future__ import annotations
@@ -13,6 +15,13 @@ from __future__ import annotations
 import numpy as np
 
 from explorer.inplane.grid import Grid
+from explorer.inplane.sinks import FACES
+from explorer.inplane.throughplane import (
+    core_mean_factor,
+    core_surface_factor,
+    face_depths,
+    mean_to_face_resistance,
+)
 
 
 def _mean(v) -> float:
@@ -29,21 +38,31 @@ class LumpedThermal:
         self._thickness = g.stack_thickness_m
         self._k_through = cell.derived.throughplane_conductivity_W_mK
         self._paths = []  # (sink name, conductance W/K, sink temperature degC)
-        self._cooled_faces = 0
         area = g.width_m * g.height_m
         edge_length = {"bottom": g.width_m, "top": g.width_m, "left": g.height_m,
                        "right": g.height_m}
         self._stream = None
+        # through-plane: the lumped temperature is the stack's mean, so each face path gets
+        # the mean-to-face resistance d/(3k) in series (explorer.inplane.throughplane)
+        self._d = (0.0, 0.0)
         if sinks is not None:
-            for name, f in sinks.faces.items():
-                self._paths.append((name, _mean(f.h_W_m2K) * area, _mean(f.temperature_C)))
-                self._cooled_faces += 1
             fin = sinks.fin
+            u = {f: _mean(s.h_W_m2K) for f, s in sinks.faces.items()}
+            fin_edges = [e for e in sinks.edges.values() if e.layer == "fin"]
+            if fin is not None and fin_edges:
+                u[fin.face] = u.get(fin.face, 0.0) + fin.contact_W_m2K
+            self._d = tuple(float(d) for d in face_depths(
+                u.get("front", 0.0), u.get("back", 0.0), self._thickness, ()))
+            depth = dict(zip(FACES, self._d, strict=True))
+            r_face = {f: float(mean_to_face_resistance(depth[f], self._k_through)) for f in FACES}
+            for name, f in sinks.faces.items():
+                h = _mean(f.h_W_m2K)
+                self._paths.append((name, area / (1.0 / h + r_face[name]) if h > 0 else 0.0,
+                                    _mean(f.temperature_C)))
             for name, e in sinks.edges.items():
                 G = _mean(e.conductance_W_mK) * edge_length[name]
                 if e.layer == "fin" and fin is not None:
-                    G = 1.0 / (1.0 / G + 1.0 / (fin.contact_W_m2K * area))
-                    self._cooled_faces = max(self._cooled_faces, 1)
+                    G = 1.0 / (1.0 / G + (1.0 / fin.contact_W_m2K + r_face[fin.face]) / area)
                 self._paths.append((name, G, _mean(e.temperature_C)))
             for name, t in sinks.tabs.items():
                 self._paths.append((name, t.conductance_W_K, t.temperature_C))
@@ -87,15 +106,22 @@ class LumpedThermal:
         into_stream = self._G[i] * (float(state[0]) - self._Ts[i])
         return self._stream.inlet_C + self._outlet_rise_per_W * into_stream
 
+    def _q_volumetric(self, heat_W) -> float:
+        return float(np.sum(heat_W)) / (self.grid.area_m2 * self._thickness)
+
     def core_surface_difference_K(self, heat_W) -> np.ndarray:
-        """Plane wall with uniform generation (Incropera & DeWitt §3.5): q L^2/(8k) cooled on
-        both faces, q L^2/(2k) on one face; faces uncooled: no through-plane gradient."""
-        L = self._thickness
-        q_vol = float(np.sum(heat_W)) / (self.grid.area_m2 * L)
-        if self._cooled_faces == 0:
-            return np.zeros((1, 1))
-        factor = 8.0 if self._cooled_faces >= 2 else 2.0
-        return np.full((1, 1), q_vol * L**2 / (factor * self._k_through))
+        """Plane wall with uniform generation (Incropera & DeWitt §3.5): q d^2/(2k) over the
+        deeper conduction depth (L/2 cooled on both faces, L on one); none if no face is cooled."""
+        d_front, d_back = self._d
+        return np.full((1, 1), self._q_volumetric(heat_W)
+                       * float(core_surface_factor(d_front, d_back, self._k_through)))
+
+    def core_temperature_C(self, state, heat_W) -> np.ndarray:
+        """Hottest through-plane temperature: the mean plus the core-to-mean rise."""
+        d_front, d_back = self._d
+        rise = self._q_volumetric(heat_W) * float(
+            core_mean_factor(d_front, d_back, self._thickness, self._k_through))
+        return np.full((1, 1), float(state[0]) + rise)
 
 
 def _stream_factor(G: float, stream) -> float:

@@ -82,6 +82,12 @@ class Record:
     steps_rejected: int = 0
 
 
+def _ladder(dt: float) -> float:
+    """``dt`` rounded down to a rung of a sqrt(2) ladder: few distinct step sizes, so the
+    thermal model's factorisations (cached per step size) are reused."""
+    return 2.0 ** (math.floor(2.0 * math.log2(dt) + 1e-9) / 2.0)
+
+
 def _on_grid(t, interval) -> bool:
     k = round(t / interval)
     return k >= 1 and abs(t - k * interval) <= 1e-9 * max(1.0, t)
@@ -194,8 +200,8 @@ class _Stepper:
         for lst in r.rejected_by_sink.values():
             if len(lst) < len(r.time):
                 lst.append(0.0)
-        dT = self.thermal.core_surface_difference_K(heat_map)
-        r.core_difference.append(float(np.max(T + dT) - np.max(T)) if np.size(dT) else 0.0)
+        core = self.thermal.core_temperature_C(self.T_state, heat_map)
+        r.core_difference.append(float(np.max(core) - np.max(T)))
         outlet = self.thermal.coolant_outlet_C(self.T_state)
         r.coolant_outlet.append(math.nan if outlet is None else outlet)
         r.stored_J.append(self.thermal.stored_J(self.T_state))
@@ -229,7 +235,7 @@ class _Stepper:
                 limit = min(limit, t0 + (math.floor(t_in / interval + 1e-9) + 1) * interval)
             if step.kind == "profile":
                 limit = min(limit, t0 + step.next_breakpoint(t_in))
-            dt = min(wanted, limit - self.t)
+            dt = min(_ladder(wanted), limit - self.t)
             if dt <= 1e-9:  # an output time within round-off: skip to the next one
                 dt = min(wanted, limit - self.t + interval)
             control = self._control(step, t_in)
