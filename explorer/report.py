@@ -29,7 +29,15 @@ from explorer import plots
 
 logger = logging.getLogger(__name__)
 
-__all__ = ["KEY_FIGURE_LABELS", "cmd_report", "format_figure", "render_report", "write_report"]
+__all__ = [
+    "KEY_FIGURE_LABELS",
+    "cmd_report",
+    "format_figure",
+    "hydraulics_rows",
+    "limits_rows",
+    "render_report",
+    "write_report",
+]
 
 DEFAULT_TITLE = "Pouch Thermal Explorer — cooling results"
 
@@ -154,6 +162,58 @@ def _settings_table(ds) -> str:
                   numeric_from=99)
 
 
+HYDRAULIC_FIGURES = (
+    ("coolant_description", "Coolant", "{}"),
+    ("flow_L_min", "Flow (L/min)", "{:.3g}"),
+    ("regime", "Flow regime", "{}"),
+    ("reynolds", "Reynolds number", "{:.0f}"),
+    ("h_channel_W_m2K", "Channel heat transfer coefficient (W/(m² K))", "{:.0f}"),
+    ("pressure_drop_Pa", "Pressure drop (kPa)", "kPa"),
+    ("pump_power_W", "Pump power (W)", "{:.3g}"),
+    ("outlet_C", "Coolant outlet (°C)", "{:.2f}"),
+)
+
+
+def hydraulics_rows(ds) -> list[tuple[str, str]]:
+    """The cold plate's hydraulic figures from ``ds.attrs["hydraulics"]`` as (label, text) rows,
+    followed by its warnings; empty for designs without a plate."""
+    raw = ds.attrs.get("hydraulics", "{}")
+    try:
+        hyd = json.loads(raw) if isinstance(raw, str) else dict(raw or {})
+    except (TypeError, ValueError):
+        return []
+    rows = []
+    for key, label, fmt in HYDRAULIC_FIGURES:
+        value = hyd.get(key)
+        if value is None:
+            continue
+        if fmt == "kPa":
+            text = f"{float(value) / 1e3:.3g}"
+        elif fmt == "{}":
+            text = str(value)
+        else:
+            text = fmt.format(float(value))
+        rows.append((label, text))
+    rows += [("Warning", str(w)) for w in hyd.get("warnings", []) or []]
+    return rows
+
+
+def limits_rows(ds, limits) -> list[tuple[str, str, str, str, str]]:
+    """(limit, limit value, figure, margin, verdict) rows from ``limits.check(ds)``.
+
+    Empty when ``limits`` has no ``check`` method (e.g. a plain mapping used only for the lines).
+    """
+    check = getattr(limits, "check", None)
+    if check is None:
+        return []
+    result = check(ds)
+    rows = []
+    for name, margin in result["margins"].items():
+        rows.append((name, f"{getattr(limits, name):.4g}", f"{result['figures'][name]:.4g}",
+                     f"{margin:+.3g}", "met" if margin >= 0 else "NOT met"))
+    return rows
+
+
 def _inputs_table(inputs) -> str:
     if inputs is None:
         return "<p class='meta'>Inputs were not recorded for this run; the model settings below hold " \
@@ -183,6 +243,8 @@ def _run_section(ds, k: int, name: str, inputs, limits, results) -> str:
              + (f" — {_esc(message)}" if message else "") + "</p>",
              "<h3>Key figures</h3>",
              _table([format_figure(n, v) for n, v in figures.items()], header=("figure", "value")),
+             *_limits_section(ds, limits),
+             *_hydraulics_section(ds),
              "<h3>Inputs</h3>", _inputs_table(inputs),
              "<h3>Model settings</h3>", _settings_table(ds),
              "<h3>Plots</h3>"]
@@ -197,6 +259,27 @@ def _run_section(ds, k: int, name: str, inputs, limits, results) -> str:
             else:
                 parts.append(_figure_html(plots.field_figure(ds, variable), f"{variable}{k}"))
     return "\n".join(parts)
+
+
+def _limits_section(ds, limits) -> list[str]:
+    try:
+        rows = limits_rows(ds, limits)
+    except ValueError as exc:  # a limit the run cannot be checked against
+        return ["<h3>Limits</h3>", f"<p>{_esc(exc)}</p>"]
+    if not rows:
+        return []
+    cells = [[_esc(c) for c in row[:4]] + [f"<span class='status-{'completed' if row[4] == 'met' else 'failed'}'>"
+                                            f"{_esc(row[4])}</span>"] for row in rows]
+    return ["<h3>Limits (margin = limit − figure)</h3>",
+            _table(cells, header=("limit", "limit value", "figure", "margin", ""))]
+
+
+def _hydraulics_section(ds) -> list[str]:
+    rows = hydraulics_rows(ds)
+    if not rows:
+        return []
+    return ["<h3>Cold plate hydraulics</h3>",
+            _table([(_esc(a), _esc(b)) for a, b in rows], header=("figure", "value"))]
 
 
 def _comparison_section(named: dict, limits, results) -> str:
@@ -274,9 +357,9 @@ def render_report(ds_or_list, inputs=None, title: str = DEFAULT_TITLE, limits=No
         body.append(_comparison_section(named, limits, results))
     if sizing is not None:
         body.append("<h2 id='sizing'>Sizing</h2>")
-        message = getattr(sizing, "message", "")
-        if message:
-            body.append(f"<p>{_esc(message)}</p>")
+        table = sizing.table() if hasattr(sizing, "table") else getattr(sizing, "message", "")
+        if table:
+            body.append(f"<pre>{_esc(table)}</pre>")
         body.append(_figure_html(plots.sizing_figure(sizing, limits=limits), "sizing"))
     body.append(f"<footer><p><strong>Caution.</strong> {_esc(caution)}</p>"
                 f"<p>Pouch Thermal Explorer {_esc(version)}.</p></footer>")

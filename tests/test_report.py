@@ -88,6 +88,19 @@ def test_report_is_self_contained_and_complete(tmp_path, ds):
     assert "Temperature at t" in text and "Heat generation by source" in text
 
 
+def test_limits_and_hydraulics_tables(ds):
+    from explorer import Limits
+
+    text = render_report(ds, limits=Limits(temperature_max_C=40.0, spread_K=10.0))
+    body = " ".join(_parse(text).text)
+    figures = results.key_figures(ds)
+    # margin = limit - figure (positive = met), the convention of explorer.Limits.check
+    assert f"{40.0 - figures['peak_temperature_C']:+.3g}" in body and "NOT met" in body
+    assert f"{10.0 - figures['max_spread_K']:+.3g}" in body
+    # the synthetic run's plate: 1200 Pa = 1.2 kPa (SI prefix)
+    assert "Pressure drop (kPa)" in body and " 1.2 " in f" {body} ".replace("\n", " ")
+
+
 def test_report_of_several_runs_compares_them(tmp_path, ds):
     other = synthetic_dataset(rise_K=10.0)
     path = write_report({"baseline": ds, "face plate": other}, tmp_path / "two.html",

@@ -465,26 +465,31 @@ class ExplorerApp(widgets.VBox):
         self.time_label.value = f"t = {t:.0f} s"
 
     def _summary_html(self, ds) -> str:
-        results = _results()
-        figures = results.key_figures(ds)
-        from explorer.report import format_figure
+        from explorer.report import format_figure, hydraulics_rows, limits_rows
 
+        figures = _results().key_figures(ds)
         rows = "".join(f"<tr><td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td></tr>"
                        for label, text in (format_figure(k, v) for k, v in figures.items()))
         checks = ""
         if self._limits is not None:
             try:
-                check = self._limits.check(ds)
+                lim = limits_rows(ds, self._limits)
             except ValueError as exc:
                 checks = f"<p style='{_ERROR_STYLE}'>{_esc(exc)}</p>"
             else:
-                not_met = "<b style='color:#B2182B'>not met</b>"
+                not_met = "<b style='color:#B2182B'>NOT met</b>"
                 lines = "".join(
-                    f"<tr><td>{_esc(name)}</td><td style='text-align:right'>{margin:+.2f}</td>"
-                    f"<td>{'met' if margin >= 0 else not_met}</td></tr>"
-                    for name, margin in check["margins"].items())
-                checks = ("<h4>Limits (margin = limit − figure)</h4><table>"
-                          f"<tr><th>limit</th><th>margin</th><th></th></tr>{lines}</table>")
+                    f"<tr><td>{_esc(name)}</td><td style='text-align:right'>{_esc(limit)}</td>"
+                    f"<td style='text-align:right'>{_esc(fig)}</td>"
+                    f"<td style='text-align:right'>{_esc(margin)}</td>"
+                    f"<td>{'met' if verdict == 'met' else not_met}</td></tr>"
+                    for name, limit, fig, margin, verdict in lim)
+                checks = ("<h4>Limits (margin = limit − figure)</h4><table><tr><th>limit</th>"
+                          f"<th>value</th><th>figure</th><th>margin</th><th></th></tr>{lines}</table>")
+        hyd = hydraulics_rows(ds)
+        if hyd:
+            checks += "<h4>Cold plate hydraulics</h4><table>" + "".join(
+                f"<tr><td>{_esc(a)}</td><td>{_esc(b)}</td></tr>" for a, b in hyd) + "</table>"
         status = ds.attrs.get("status", "")
         return (f"<p><b>{_esc(ds.attrs.get('cell_name', ''))}</b> · "
                 f"{_esc(str(ds.attrs.get('electrochemistry', '')).upper())} · "
