@@ -119,7 +119,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
                  start_temperature_C=start_temperature_C, coupling=coupling,
                  settings=Settings(output_interval_s=output_interval_s), progress=progress)
     # the plate's hydraulics see the mean heat this cell puts into the coolant
-    into_coolant = record.rejected_by_sink.get(sinks.coolant.sink, []) if sinks.coolant else []
+    into_coolant = record.rejected_by_sink.get(sinks.coolant.name, []) if sinks.coolant else []
     mean_rejected = float(np.mean(into_coolant)) if into_coolant else 0.0
     attrs = {
         "electrochemistry": electrochemistry,

@@ -196,15 +196,17 @@ def test_face_plate_positions_and_shares(cell):
 
 
 def test_face_plate_both_faces(cell):
-    """'both' with a cold plate: one sink with the two faces' coefficient and coolant share
-    (Sinks holds one stream); with a fixed sink: a sink on each face."""
+    """'both' with a cold plate: a sink on each face, both on one coolant stream carrying the
+    two faces' share; with a fixed sink: a sink on each face and no stream."""
     plate = cooling.cold_plate("water", 4.0, 25.0)
     one = cooling.face_plate(plate, face="back", faces_per_plate=2)
     both = cooling.face_plate(plate, face="both")
     assert both.faces_per_plate == 2
     s1, s2 = one.sinks(cell, None), both.sinks(cell, None)
-    assert set(s2.faces) == {"back"}
-    assert s2.faces["back"].h_W_m2K == pytest.approx(2 * s1.faces["back"].h_W_m2K)
+    assert set(s2.faces) == {"front", "back"}
+    assert s2.coolant.sink_names == ("front", "back") and s2.coolant.name == "front+back"
+    for f in ("front", "back"):
+        assert s2.faces[f].h_W_m2K == pytest.approx(s1.faces["back"].h_W_m2K)
     assert s2.coolant.capacity_rate_W_K == pytest.approx(2 * s1.coolant.capacity_rate_W_K)
     # flow along x: 160/12 of the 16 channels pass under the 160 mm tall cell
     assert s2.coolant.capacity_rate_W_K == pytest.approx(plate.capacity_rate_W_K() * (160 / 12) / 16)
@@ -346,7 +348,8 @@ def test_coolant_energy_balance_in_the_thermal_model(cell, grid, kind):
     if kind == "edge":
         design, sink = cooling.edge_plate(plate, fin_mm=1.0) + cooling.tab_cooling(busbar_C=30.0), "bottom"
     else:
-        design, sink = cooling.face_plate(plate.replace(flow_direction="-y"), face="both"), "back"
+        design = cooling.face_plate(plate.replace(flow_direction="-y"), face="both")
+        sink = "front+back"
     heat = np.full(grid.shape, 25.0 / grid.nx / grid.ny)
     peaks = []
     for k in design.positions_to_check():

@@ -195,3 +195,23 @@ def test_cooled_averaged_run_closes_the_energy_balance(cell):
     assert float(ds.heat_collector[-1]) > 0 and float(ds.heat_tab[-1]) > 0
     assert float(q.isel(y=-1).mean()) > float(q.isel(y=0).mean())
     assert "coolant_outlet" in ds and float(ds.coolant_outlet[-1]) > 20.0
+
+
+def test_plate_on_both_faces_shares_one_coolant(cell):
+    """Both faces on one coolant circuit: first law closes (0.5 %), the coolant takes up what
+    both faces give, and the through-plane core rise is the two-sided plane-wall value, a quarter
+    of the one-sided one (Incropera & DeWitt §3.5: q L^2/8k against q L^2/2k)."""
+    plate = explorer.cooling.cold_plate(coolant="water", flow_L_min=2.0, inlet_C=25.0,
+                                        flow_direction="+x")
+    runs = {face: explorer.simulate(cell, duty.discharge(c_rate=1.0, end_time_s=900),
+                                    explorer.cooling.face_plate(plate, face=face),
+                                    layout="averaged", grid=(12, 8))
+            for face in ("back", "both")}
+    both = runs["both"]
+    generated = float(both.heat_generated_energy[-1])
+    stored = float(both.heat_stored[-1] - both.heat_stored[0])
+    assert generated == pytest.approx(stored + float(both.heat_rejected_energy[-1]), rel=5e-3)
+    assert "heat_to_front+back" in both
+    assert float(both.temperature_max[-1]) < float(runs["back"].temperature_max[-1])
+    rise = {f: float((r.temperature_core_max - r.temperature_max)[-1]) for f, r in runs.items()}
+    assert rise["both"] == pytest.approx(rise["back"] / 4, rel=0.1)

@@ -105,7 +105,7 @@ FIELDS: dict[str, Field] = {
     "plate_edge": Field("Plate edge", "choice", "bottom", when={"cooling": ("edge_plate",)},
                         group="Cooling", choices=(("bottom", "bottom"), ("top", "top"),
                                                   ("left", "left"), ("right", "right"))),
-    "fin_mm": Field("Fin thickness (0 = no fin)", "number", 0.5, "mm", 0.0, 10.0,
+    "fin_mm": Field("Fin thickness, 0 = none", "number", 0.5, "mm", 0.0, 10.0,
                     when={"cooling": ("edge_plate",)}, group="Cooling"),
     "tim_W_mK": Field("TIM conductivity", "number", 3.0, "W/(m K)", 0.0, 500.0, True,
                       when={"cooling": _PLATES}, group="Cooling"),
@@ -238,9 +238,18 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
             message = None if isinstance(value, str) else f"expected text, got {value!r}"
         if message:
             errors[name] = message
+    if check_files:  # the files are checked whatever else is wrong
+        if "cell" not in errors:
+            message = _cell_error(values["cell"])
+            if message:
+                errors["cell"] = message
+        if values["duty"] == "profile" and "profile_path" not in errors:
+            message = _profile_error(values["profile_path"])
+            if message:
+                errors["profile_path"] = message
     if errors:
         return errors
-    # the cross-field rules (each names the field the user should change)
+    # the cross-field rules, once every single field is valid (each names the field to change)
     if values["duty"] == "discharge" and float(values["start_soc_pct"]) <= 0.0:
         errors["start_soc_pct"] = "a discharge needs a start SOC above 0 %"
     if values["duty"] == "fast_charge" and float(values["start_soc_pct"]) >= 100.0:
@@ -253,14 +262,6 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
     if float(values["size_low"]) >= float(values["size_high"]):
         errors["size_high"] = (f"expected `to` > `from` ({float(values['size_low']):g}), got "
                                f"{float(values['size_high']):g}")
-    if check_files:
-        message = _cell_error(values["cell"])
-        if message:
-            errors["cell"] = message
-        if values["duty"] == "profile":
-            message = _profile_error(values["profile_path"])
-            if message:
-                errors["profile_path"] = message
     return errors
 
 

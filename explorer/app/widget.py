@@ -289,9 +289,14 @@ class ExplorerApp(widgets.VBox):
         busy = self._busy
         self.run_button.disabled = bool(self.errors) or busy
         self.size_button.disabled = bool(self.errors) or busy or not SIZE_CHOICES[values["cooling"]]
+        for k, group in enumerate(_GROUPS):  # flag the input tabs that hold an error
+            bad = any(self.rows[n].field.group == group for n in self.errors if n in self.rows)
+            self.input_tabs.set_title(k, f"⚠ {group}" if bad else group)
         if self.errors:
-            self.status.value = (f"<span style='{_ERROR_STYLE}'>{len(self.errors)} input(s) to fix "
-                                 "before a run</span>")
+            where = ", ".join(f"{self.rows[n].field.label} ({self.rows[n].field.group})"
+                              for n in self.errors if n in self.rows)
+            self.status.value = (f"<span style='{_ERROR_STYLE}'>to fix before a run: "
+                                 f"{_esc(where)}</span>")
             self._input_errors_shown = True
         elif self._input_errors_shown and not busy:
             self.status.value = ""

@@ -318,14 +318,11 @@ class FacePlate(_Design):
         k = _position(position, plate.cells_per_plate)
         n_under, _ = self._coverage(cell)
         share = plate.capacity_rate_W_K() * n_under / plate.channels / self.faces_per_plate
-        # Sinks carries one coolant stream, so "both" becomes one face with twice the h and twice
-        # the coolant share: exact for the in-plane field apart from the through-plane path, which
-        # the thermal model then takes one-sided (depth L instead of L/2): conservative.
-        sink_face = "back" if self.face == "both" else self.face
-        n = len(faces)
-        stream = CoolantStream(sink=sink_face, direction=self.direction, capacity_rate_W_K=n * share,
+        # both faces on plates of one coolant circuit: one stream takes up what both faces give
+        stream = CoolantStream(sink=faces if len(faces) > 1 else faces[0],
+                               direction=self.direction, capacity_rate_W_K=len(faces) * share,
                                inlet_C=plate.inlet_C, upstream_cells=k)
-        return Sinks(faces={sink_face: FaceSink(n * h, plate.inlet_C)}, coolant=stream)
+        return Sinks(faces={f: FaceSink(h, plate.inlet_C) for f in faces}, coolant=stream)
 
     def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
         """Plate hydraulics; ``heat_W`` is one cell's heat, ``cell`` adds geometry warnings."""

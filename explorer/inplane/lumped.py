@@ -67,14 +67,15 @@ class LumpedThermal:
             for name, t in sinks.tabs.items():
                 self._paths.append((name, t.conductance_W_K, t.temperature_C))
             self._stream = sinks.coolant
+        stream = self._stream
+        if stream is not None:  # the sinks on the coolant become one path to it
+            on = [p for p in self._paths if p[0] in stream.sink_names]
+            self._paths = [p for p in self._paths if p[0] not in stream.sink_names]
+            G = sum(p[1] for p in on)
+            self._paths.append((stream.name, G * _stream_factor(G, stream), stream.inlet_C))
         self._names = [p[0] for p in self._paths]
         self._G = np.array([p[1] for p in self._paths], dtype=float)
         self._Ts = np.array([p[2] for p in self._paths], dtype=float)
-        if self._stream is not None and self._stream.sink in self._names:
-            i = self._names.index(self._stream.sink)
-            G = self._G[i]
-            self._Ts[i] = self._stream.inlet_C
-            self._G[i] = G * _stream_factor(G, self._stream)
         self._outlet_rise_per_W = None
         if self._stream is not None:
             self._outlet_rise_per_W = (self._stream.upstream_cells + 1) / self._stream.capacity_rate_W_K
@@ -100,9 +101,9 @@ class LumpedThermal:
 
     def coolant_outlet_C(self, state) -> float | None:
         """Coolant leaving this cell: inlet plus what this and the upstream cells put in."""
-        if self._stream is None or self._stream.sink not in self._names:
+        if self._stream is None:
             return None
-        i = self._names.index(self._stream.sink)
+        i = self._names.index(self._stream.name)
         into_stream = self._G[i] * (float(state[0]) - self._Ts[i])
         return self._stream.inlet_C + self._outlet_rise_per_W * into_stream
 

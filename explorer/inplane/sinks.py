@@ -71,8 +71,9 @@ class Fin:
 class CoolantStream:
     """Coolant that warms as it takes up heat along one sink.
 
-    The sink temperature named by ``sink`` (a face name or an edge name) is
-    not fixed: it is the local coolant temperature plus nothing else (the
+    The sink temperature named by ``sink`` (a face name or an edge name, or
+    several face names that share one coolant, e.g. both faces on one plate
+    pair) is not fixed: it is the local coolant temperature plus nothing else (the
     wall-to-coolant resistance is already in that sink's h or conductance).
     The coolant enters at ``inlet_C`` raised by what ``upstream_cells`` cells
     (assumed to behave like this one) have already put into it, flows in
@@ -81,11 +82,20 @@ class CoolantStream:
     share of coolant serving this cell).
     """
 
-    sink: str
+    sink: str | tuple[str, ...]  # one sink, or several sharing the coolant (both faces)
     direction: str  # one of FLOW_DIRECTIONS
     capacity_rate_W_K: float
     inlet_C: float
     upstream_cells: int = 0
+
+    @property
+    def sink_names(self) -> tuple[str, ...]:
+        return (self.sink,) if isinstance(self.sink, str) else tuple(self.sink)
+
+    @property
+    def name(self) -> str:
+        """The name its heat flow is reported under ("front+back" for two faces)."""
+        return "+".join(self.sink_names)
 
 
 @dataclass

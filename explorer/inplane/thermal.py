@@ -223,7 +223,7 @@ class PlaneThermal:
         if sinks.coolant is not None:
             self._coolant = self._add_coolant(sys, sinks.coolant)
         for name, (_kind, nodes, G, T) in self._attach.items():
-            if self._coolant is None or name != self._coolant["sink"]:
+            if self._coolant is None or name not in self._coolant["sinks"]:
                 sys.to_fixed(nodes, G, T)
                 self._flows.append(_SinkFlow(name, nodes, G, const=float(G @ T)))
         self._add_tabs(sys, cell, sinks)
@@ -372,22 +372,30 @@ class PlaneThermal:
     # -- coolant ----------------------------------------------------------------
     def _add_coolant(self, sys: _System, stream) -> dict:
         """Coolant nodes and relations for ``stream`` (see the module docstring)."""
-        if stream.sink not in self._attach:
-            valid = ", ".join(repr(k) for k in self._attach) or "none"
-            raise InputError(f"`sinks.coolant.sink`: expected the name of a face or edge sink "
-                             f"({valid}), got {stream.sink!r}")
+        names = stream.sink_names
+        for name in names:
+            if name not in self._attach:
+                valid = ", ".join(repr(k) for k in self._attach) or "none"
+                raise InputError(f"`sinks.coolant.sink`: expected the name of a face or edge "
+                                 f"sink ({valid}), got {name!r}")
+        kinds = {self._attach[n][0] for n in names}
+        if len(names) > 1 and kinds != {"face"}:
+            raise InputError(f"`sinks.coolant.sink`: several sinks may share one coolant only "
+                             f"when they are faces, got {names!r}")
         check_choice("sinks.coolant.direction", stream.direction, FLOW_DIRECTIONS)
         C = check_positive("sinks.coolant.capacity_rate_W_K", stream.capacity_rate_W_K, "W/K")
         inlet = _field("sinks.coolant.inlet_C", stream.inlet_C, (), nonnegative=False)
         n_up = check_integer("sinks.coolant.upstream_cells", stream.upstream_cells, 0)
-        kind, nodes, G, _ = self._attach[stream.sink]
+        kind = kinds.pop()
+        nodes = np.concatenate([self._attach[n][1] for n in names])
+        G = np.concatenate([self._attach[n][2] for n in names])
         nx, ny = self.grid.nx, self.grid.ny
         axis, sign = stream.direction[1], stream.direction[0]
-        if kind == "face":
-            j, i = np.divmod(np.arange(nx * ny), nx)
+        if kind == "face":  # each face's nodes run over the grid in order
+            j, i = np.divmod(np.tile(np.arange(nx * ny), len(names)), nx)
             pos, S = (i, nx) if axis == "x" else (j, ny)
         else:
-            along = "x" if stream.sink in ("bottom", "top") else "y"
+            along = "x" if names[0] in ("bottom", "top") else "y"
             if axis == along:
                 pos, S = np.arange(nodes.size), nodes.size
             else:  # the coolant crosses the edge: one strip at one mean temperature
@@ -418,8 +426,8 @@ class PlaneThermal:
         if n_up:
             sys.add(bnd[0], bnd[-1], -float(n_up))
         sys.s_terms.append((np.array([bnd[0]]), np.array([float(inlet)])))
-        self._flows.append(_SinkFlow(stream.sink, nodes, G, m_nodes=m, Gm=Gk))
-        return {"sink": stream.sink, "strip_nodes": m, "boundary_nodes": bnd,
+        self._flows.append(_SinkFlow(stream.name, nodes, G, m_nodes=m, Gm=Gk))
+        return {"sink": stream.name, "sinks": names, "strip_nodes": m, "boundary_nodes": bnd,
                 "capacity_rate_W_K": C, "direction": stream.direction}
 
     # -- contract -----------------------------------------------------------------
