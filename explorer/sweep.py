@@ -130,7 +130,10 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
     trace_interval_s : float, optional
         Spacing of the common time base of the traces.
     **simulate_kwargs
-        Passed to :func:`explorer.simulate` for every case.
+        Passed to :func:`explorer.simulate` for every case. Each case runs
+        simulate's default cell position (the last cell along a shared
+        coolant path, which sees the warmest coolant) unless ``position`` is
+        given here.
 
     Returns
     -------
