@@ -433,6 +433,7 @@ class ExplorerApp(widgets.VBox):
         self.summary.value = self._summary_html(ds)
         self.play.max = max(0, n - 1)
         self.time_slider.max = max(0, n - 1)
+        self.play.value = index  # jslink makes the front end copy the play value onto the slider
         self._time_index = -1
         if self.time_slider.value == index:
             self.set_time(index)
@@ -496,11 +497,13 @@ class ExplorerApp(widgets.VBox):
             checks += "<h4>Cold plate hydraulics</h4><table>" + "".join(
                 f"<tr><td>{_esc(a)}</td><td>{_esc(b)}</td></tr>" for a, b in hyd) + "</table>"
         status = ds.attrs.get("status", "")
-        return (f"<p><b>{_esc(ds.attrs.get('cell_name', ''))}</b> · "
+        return (f"<style>.pte-sum td,.pte-sum th{{padding:1px 10px;line-height:1.35}}</style>"
+                f"<p><b>{_esc(ds.attrs.get('cell_name', ''))}</b> · "
                 f"{_esc(str(ds.attrs.get('electrochemistry', '')).upper())} · "
                 f"{_esc(ds.attrs.get('layout', ''))} · status {_esc(status)}: "
                 f"{_esc(ds.attrs.get('status_message', ''))}</p>"
-                f"<table>{rows}</table>{checks}")
+                "<div class='pte-sum' style='display:flex;gap:3em;flex-wrap:wrap'>"
+                f"<div><h4>Key figures</h4><table>{rows}</table></div><div>{checks}</div></div>")
 
     # -----------------------------------------------------------------------------------------
     # scenarios
