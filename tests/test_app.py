@@ -159,6 +159,9 @@ def test_bad_input_shows_inline_error_and_does_not_run(fake_simulate):
     assert "flow_L_min" in app.errors
     assert "> 0" in html.unescape(app.rows["flow_L_min"].error.value)
     assert app.run_button.disabled
+    # the status names the field and its tab, and the tab holding the error is flagged
+    assert "Coolant flow (Cooling)" in app.status.value
+    assert app.input_tabs.get_title(1) == "⚠ Cooling" and app.input_tabs.get_title(0) == "Cell and duty"
     assert app.run() is None and fake_simulate == []
     assert "flow_L_min" in app.last_error
     # typing a good value clears the error and enables the button
@@ -179,7 +182,7 @@ def test_run_updates_figures_in_place_and_matches_the_dataset(fake_simulate):
     assert ds is not None and app.dataset is ds and len(fake_simulate) == 1
     assert fake_simulate[0]["cooling"].parameters()["flow_L_min"] == 1.5
     k = app.time_slider.value
-    assert k == int(np.argmax(ds["temperature_max"].values))
+    assert k == int(np.argmax(ds["temperature_max"].values)) == app.play.value
     np.testing.assert_allclose(np.asarray(fig.data[0].z), ds["temperature"].isel(time=k).values)
     traces = {tr.name: tr for tr in app.fig_traces.figure.data}
     np.testing.assert_allclose(traces["hottest point"].y, ds["temperature_max"].values)
