@@ -404,12 +404,20 @@ def write_report(ds_or_list, path, inputs=None, title: str = DEFAULT_TITLE, limi
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
+        os.chmod(tmp, _default_mode())  # mkstemp makes it private; a report is meant to be shared
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
     logger.info("report written to %s", path)
     return path
+
+
+def _default_mode() -> int:
+    """The mode a newly created file gets under the current umask (0o644 under the usual 022)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
 
 
 def cmd_report(path: str, out: str | None = None) -> int:

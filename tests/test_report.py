@@ -116,6 +116,13 @@ def test_atomic_write_leaves_no_temporary_files(tmp_path, ds):
     write_report(ds, tmp_path / "a.html")
     write_report(ds, tmp_path / "a.html")  # overwrite in place
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a.html"]
+    # readable by others like any file written under the usual umask 022 (not mkstemp's 0600)
+    import os
+    import stat
+
+    mask = os.umask(0)
+    os.umask(mask)
+    assert stat.S_IMODE((tmp_path / "a.html").stat().st_mode) == 0o666 & ~mask
 
 
 def test_text_is_escaped(ds):

@@ -480,6 +480,9 @@ def save_inputs(values: dict, path) -> Path:
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
+        mask = os.umask(0)
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)  # mkstemp makes it private; the file is meant to be shared
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
