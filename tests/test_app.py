@@ -292,6 +292,7 @@ def test_sizing_tab(monkeypatch, fake_simulate):
     result = app.size()
     assert result is app.sizing and seen["vary"] == "flow_L_min" and seen["bounds"] == (0.5, 4.0)
     assert seen["limits"].temperature_max_C == 45.0
+    assert callable(seen["kwargs"]["progress"])  # the app follows the sizing runs
     design = [tr for tr in app.fig_sizing.figure.data if tr.name == "design point"]
     assert design[0].x[0] == pytest.approx(result.value)
     assert app.dataset is result.dataset

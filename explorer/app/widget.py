@@ -555,10 +555,23 @@ class ExplorerApp(widgets.VBox):
         self.run_button.disabled = self.size_button.disabled = True
         self.status.value = f"sizing {values['size_vary']} …"
         self.progress.bar_style = "info"
+        runs = [0, -1.0, 0.0]  # runs started, last simulated time, last status update
+
+        def progress(t_s, step_index=0):
+            # one simulate call per evaluated value: time restarting from zero means a new run
+            if float(t_s) < runs[1]:
+                runs[0] += 1
+            runs[1] = float(t_s)
+            now = time.perf_counter()
+            if now - runs[2] >= 0.1:
+                runs[2] = now
+                self.status.value = (f"sizing {values['size_vary']} · run {runs[0] + 1} · elapsed "
+                                     f"{now - t0:.1f} s")
+
         try:
             call = inputs_to_call(values)
             result = call.size(values["size_vary"], (float(values["size_low"]),
-                                                     float(values["size_high"])))
+                                                     float(values["size_high"])), progress=progress)
         except Exception as exc:  # the app's boundary
             logger.debug("sizing failed", exc_info=True)
             self.last_error = str(exc)
