@@ -246,7 +246,8 @@ def _run_section(ds, k: int, name: str, inputs, limits, results) -> str:
              *_limits_section(ds, limits),
              *_hydraulics_section(ds),
              "<h3>Inputs</h3>", _inputs_table(inputs),
-             "<h3>Model settings</h3>", _settings_table(ds),
+             "<details><summary><h3 style='display:inline'>Model settings</h3> (every attribute "
+             "of the run; click to open)</summary>", _settings_table(ds), "</details>",
              "<h3>Plots</h3>"]
     parts.append(_figure_html(plots.traces_figure(ds, limits=limits), f"traces{k}"))
     parts.append(_figure_html(plots.field_figure(ds, "temperature"), f"temperature{k}"))
