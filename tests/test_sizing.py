@@ -400,6 +400,31 @@ def test_real_inlet_sizing_is_self_consistent(van):
     assert not _real_met(van, design.replace(inlet_C=1.05 * res.value), lim)
 
 
+def test_real_flow_sizing_is_self_consistent():
+    """Four LFP cells in series on a face plate's coolant: the smallest flow meets the limit at
+    every cell position and 5 % less flow does not (self-consistency; common practice)."""
+    from explorer import cooling
+    from explorer.cell import load_cell
+    from explorer.simulate import simulate
+
+    cell = load_cell("rack_lfp_26ah")
+    plate = cooling.cold_plate("pg30", flow_L_min=1.0, inlet_C=35.0, cells_per_plate=4,
+                               length_mm=700.0)
+    design = cooling.face_plate(plate, face="back", tim_W_mK=1.0, tim_mm=1.5)
+    kw = {**REAL, "grid": (4, 6), "start_temperature_C": 35.0}
+    lim = Limits(temperature_max_C=38.0)
+    d = duty.discharge(c_rate=2.0)
+    res = size_cooling(cell, d, design, "flow_L_min", (0.05, 2.0), lim, **kw)
+    assert res.feasible and res.kind == "boundary", res.message
+    at = design.replace(flow_L_min=res.value)
+    for k in design.positions_to_check():
+        assert lim.check(simulate(cell, d, at, position=k, **kw))["met"]
+    less = design.replace(flow_L_min=0.95 * res.value)
+    assert not lim.check(simulate(cell, d, less, position=res.position, **kw))["met"]
+    # the warmest coolant is at the last cell along the flow
+    assert res.position == design.positions_to_check()[-1]
+
+
 def test_real_coolant_energy_balance_at_the_design(van):
     """Flow x cp x (outlet - inlet) equals the heat the cell rejects into the coolant within 1 %
     (first law for the coolant stream, Incropera & DeWitt, Fundamentals of Heat and Mass
