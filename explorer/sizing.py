@@ -268,6 +268,8 @@ class SizingResult:
         Figure name -> value at ``value`` (worst over the checked positions).
     hydraulics : dict
         ``design.hydraulics()`` at ``value`` ({} for designs without a plate).
+    increasing : bool
+        Whether larger values help (the margin grows with the value), read from the runs.
     monotone : bool
         Whether every limit's figure changed monotonically over the evaluated values.
     turning_points : dict
@@ -287,6 +289,7 @@ class SizingResult:
     figures: dict
     hydraulics: dict
     design: object
+    increasing: bool
     monotone: bool
     turning_points: dict
     message: str
@@ -349,8 +352,9 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
     positions : list of int, optional
         Cell positions along the coolant path to check (default:
         ``cooling.positions_to_check()``). All are run at the first samples;
-        when one position is the worst at every sample only it is run while
-        refining, and the answer is re-checked at every position.
+        only the positions that are worst next to the boundary are run while
+        refining, and the answer is re-checked at every position (searching
+        again with all of them if another one fails there).
     samples, rtol, spacing, max_evaluations
         Search settings, see :func:`find_boundary`.
     strict : bool
@@ -412,7 +416,7 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
         vary=vary, bounds=(lo, hi), limits=limits, value=outcome.value, feasible=worst["met"],
         dataset=runner.dataset(outcome.value, worst["position"]), curve=curve, margins=worst["margins"],
         figures=worst["figures"], hydraulics=runner.hydraulics(outcome.value), design=design,
-        monotone=not any(tps.values()), turning_points={k: v for k, v in tps.items() if v},
+        increasing=outcome.increasing, monotone=not any(tps.values()), turning_points={k: v for k, v in tps.items() if v},
         message=_message(outcome, vary, lo, hi, runner, limits, tps),
         kind=outcome.kind, position=worst["position"], evaluations=runner.runs)
 

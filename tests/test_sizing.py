@@ -246,7 +246,7 @@ def test_size_flow_is_self_consistent(standin):
     lim = Limits(temperature_max_C=40.0, spread_K=5.0)
     plate = StandInPlate()
     res = size_cooling(STANDIN_CELL, DUTY, plate, "flow_L_min", (0.2, 10.0), lim)
-    assert res.feasible and res.kind == "boundary" and res.monotone
+    assert res.feasible and res.kind == "boundary" and res.monotone and res.increasing
     for k in plate.positions_to_check():
         ok = lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(flow_L_min=res.value),
                                         position=k))
@@ -269,7 +269,7 @@ def test_size_inlet_is_self_consistent(standin):
     lim = Limits(temperature_max_C=40.0)
     plate = StandInPlate(flow_L_min=4.0)
     res = size_cooling(STANDIN_CELL, DUTY, plate, "inlet_C", (10.0, 35.0), lim)
-    assert res.feasible and res.kind == "boundary"
+    assert res.feasible and res.kind == "boundary" and not res.increasing
     assert lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(inlet_C=res.value)))["met"]
     warmer = plate.replace(inlet_C=1.05 * res.value)
     assert not lim.check(standin_simulate(STANDIN_CELL, DUTY, warmer))["met"]
