@@ -209,3 +209,23 @@ def test_cmd_size_and_sweep_on_a_fixed_sink(tmp_path, capsys):
     assert "meets" in out
     # a thicker fin, a cooler cell
     assert float(ds["peak_temperature_C"][1]) < float(ds["peak_temperature_C"][0])
+
+
+def test_paths_are_relative_to_the_scenario_file(tmp_path):
+    import shutil
+
+    from explorer.cell import list_demo_cells
+
+    (tmp_path / "cells").mkdir()
+    shutil.copy(list_demo_cells()["van_nmc_66ah"], tmp_path / "cells" / "mine.toml")
+    (tmp_path / "load.csv").write_text("time [s],current [A]\n0,66\n60,33\n120,0\n",
+                                       encoding="utf-8")
+    text = CHEAP.replace('cell = "van_nmc_66ah"', 'cell = "cells/mine.toml"')
+    text = text.replace('step = "discharge"\nc_rate = 2.0\nend_time_s = 300',
+                        'step = "profile_csv"\npath = "load.csv"')
+    sc = load_scenario(write(tmp_path, text))
+    assert Path(sc.cell.source_path).resolve() == (tmp_path / "cells" / "mine.toml").resolve()
+    assert sc.duty[0].kind == "profile" and len(sc.duty[0].profile_time_s) == 3
+    missing = write(tmp_path, text.replace("load.csv", "nowhere.csv"), "missing.toml")
+    with pytest.raises(ScenarioError, match=r"duty\[0\].*nowhere.csv"):
+        load_scenario(missing)
