@@ -94,6 +94,11 @@ def test_failed_case_is_recorded_and_not_cached(tmp_path, standin):
     assert (ds["case_status"].sel(flow_L_min=[1.0, 4.0]) == "completed").all()
     assert ds.attrs["cases_failed"] == 2
     assert len(list(tmp_path.glob("*.nc"))) == 4  # failures are retried next time
+    # every case failing still gives a Dataset saying so
+    alone = sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": [2.0]}, scheduler="serial",
+                  progress=False)
+    assert alone.attrs["cases_failed"] == 1 and alone.sizes["time"] == 0
+    assert str(alone["case_status"].values[0]) == "failed"
 
 
 def test_limits_margins_per_case(standin):
