@@ -34,7 +34,7 @@ def valoen_reimers_conductivity(c_mol_m3, temperature_K=REFERENCE_K):
     temperature_K : array_like
         Temperature; the cell models use the 298.15 K value with an Arrhenius factor.
     """
-    c = np.clip(np.asarray(c_mol_m3, dtype=float), C_MIN_MOL_M3, C_MAX_MOL_M3) * 1e-3  # mol/L
+    c = np.minimum(np.maximum(np.asarray(c_mol_m3, dtype=float), C_MIN_MOL_M3), C_MAX_MOL_M3) * 1e-3  # mol/L
     T = np.asarray(temperature_K, dtype=float)
     poly = (
         -10.5 + 0.0740 * T - 6.96e-5 * T**2
@@ -46,7 +46,7 @@ def valoen_reimers_conductivity(c_mol_m3, temperature_K=REFERENCE_K):
 
 def valoen_reimers_diffusivity(c_mol_m3, temperature_K=REFERENCE_K):
     """Salt diffusivity of LiPF6 in PC/EC/DMC, m^2/s (Valøen & Reimers 2005, eq. for D)."""
-    c = np.clip(np.asarray(c_mol_m3, dtype=float), C_MIN_MOL_M3, C_MAX_MOL_M3) * 1e-3
+    c = np.minimum(np.maximum(np.asarray(c_mol_m3, dtype=float), C_MIN_MOL_M3), C_MAX_MOL_M3) * 1e-3
     T = np.asarray(temperature_K, dtype=float)
     return 1e-4 * 10.0 ** (-4.43 - 54.0 / (T - 229.0 - 5.0 * c) - 0.22 * c)  # cm^2/s -> m^2/s
 

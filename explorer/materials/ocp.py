@@ -23,7 +23,9 @@ STO_CLIP = 1e-6
 
 
 def _clip(sto):
-    return np.clip(np.asarray(sto, dtype=float), STO_CLIP, 1.0 - STO_CLIP)
+    # minimum/maximum rather than np.clip: the same result at a fraction of the call overhead,
+    # which matters inside the rods' per-step evaluations
+    return np.minimum(np.maximum(np.asarray(sto, dtype=float), STO_CLIP), 1.0 - STO_CLIP)
 
 
 @dataclass(frozen=True)
