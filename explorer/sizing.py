@@ -687,6 +687,12 @@ def _message(outcome, vary, lo, hi, runner, limits, tps=None) -> str:
     if outcome.islands:
         spans = ", ".join(f"{a:.4g}..{b:.4g}" for a, b in outcome.islands)
         msg += f"; the limits are also met at {spans} (separate region, not monotone)"
+    sheet = getattr(runner.cell, "temperature_max_C", None)
+    for name in ("temperature_max_C", "core_temperature_max_C"):
+        value = getattr(limits, name)
+        if value is not None and sheet is not None and value > sheet:
+            msg += (f"; note: `{name}` = {value:g} degC is above the cell's data-sheet maximum "
+                    f"{sheet:g} degC")
     if tps:
         bad = {k: v for k, v in tps.items() if v}
         if bad:

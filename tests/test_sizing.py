@@ -300,6 +300,9 @@ def test_size_infeasible_reports_best(standin):
 
 
 def test_size_all_met_and_strict(standin):
+    res = size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (2.0, 8.0),
+                       Limits(temperature_max_C=60.0))
+    assert "above the cell's data-sheet maximum 55" in res.message
     lim = Limits(temperature_max_C=54.0)
     res = size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (2.0, 8.0), lim)
     assert res.feasible and res.kind == "all_met" and res.value == 2.0
