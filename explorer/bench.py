@@ -3,8 +3,11 @@
 Speed targets are met here, never in timed unit tests. Every ratio is
 measured side by side in the same run. Sections:
 
-* ``rods``      full 1C discharge through ``simulate`` (single layout) for each
-                model on each demo cell; real-time factor; DFN/SPMe ratio
+* ``rods``      full 1C discharge through ``simulate`` (single layout, adaptive steps,
+                event location, Dataset) for each model on each demo cell; real-time
+                factor; DFN/SPMe ratio, which the shared stepper's own cost dilutes
+* ``rod_only``  the rod models alone at a fixed 20 s step (no stepper): the
+                compute ratio DFN/SPMe at the same mesh
 * ``averaged``  SPMe, averaged layout, 32 x 48 thermal grid, full 1C discharge
 * ``inplane``   collector network set-up and thermal steps on the 32 x 48 grid
 * ``sweep``     48-case sweep, serial against the local Dask cluster
@@ -39,7 +42,7 @@ def _best(fn, repeat):
     return best, out
 
 
-def bench_rods(repeat=3, cells=None):
+def bench_simulate_rods(repeat=3, cells=None):
     import explorer
     from explorer.cell import list_demo_cells
 
@@ -86,9 +89,13 @@ def bench_averaged(repeat=3, cells=None):
 
 def _section(name, quick):
     if name == "rods":
-        return bench_rods(repeat=1 if quick else 3)
+        return bench_simulate_rods(repeat=1 if quick else 3)
     if name == "averaged":
         return bench_averaged(repeat=1 if quick else 3)
+    if name == "rod_only":
+        from explorer.rod_bench import bench_rods as bench_rod_models
+
+        return bench_rod_models(repeat=1 if quick else 3)
     if name == "inplane":
         from explorer.inplane.bench import bench_inplane
 
@@ -104,7 +111,7 @@ def _section(name, quick):
     raise ValueError(name)
 
 
-SECTIONS = ("rods", "averaged", "inplane", "sweep", "app")
+SECTIONS = ("rods", "rod_only", "averaged", "inplane", "sweep", "app")
 
 
 def _table(rows) -> str:
