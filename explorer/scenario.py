@@ -404,6 +404,10 @@ def cmd_run(scenario, out=None) -> int:
     if sc.limits is not None:
         check = sc.limits.check(ds, hyd)
         lines.append(_limits_table(sc.limits, check))
+        sheet = sc.cell.temperature_max_C
+        if sc.limits.temperature_max_C is not None and sc.limits.temperature_max_C > sheet:
+            lines.append(f"note: `temperature_max_C` = {sc.limits.temperature_max_C:g} degC is "
+                         f"above the cell's data-sheet maximum {sheet:g} degC")
         ok = ok and check["met"]
     lines.extend(_hydraulics_lines(hyd))
     lines.append(f"wrote {path}")
