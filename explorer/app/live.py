@@ -108,11 +108,19 @@ class LiveFigure:
         self.updates += 1
         if self.native or not _in_kernel():
             return
-        from IPython.display import display
+        # set the Output's content directly: unlike `with output: display(...)` this also works
+        # from the app's background run thread. The bundle comes from plotly's active renderers;
+        # when they give none, the plotly mimetype that JupyterLab and VS Code draw natively.
+        data = self.figure._repr_mimebundle_(None, None) or {}
+        if not data:
+            import json
 
-        with self.widget:
-            self.widget.clear_output(wait=True)
-            display(self.figure)
+            import plotly.io as pio
+
+            data = {"application/vnd.plotly.v1+json": json.loads(pio.to_json(self.figure,
+                                                                             validate=False)),
+                    "text/plain": repr(self.figure)[:200]}
+        self.widget.outputs = ({"output_type": "display_data", "data": data, "metadata": {}},)
 
 
 def _differs(a, b) -> bool:
