@@ -230,9 +230,9 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
                 label=None) -> Step:
     """A recorded load profile from a CSV file.
 
-    The header names the columns with units in brackets: ``time [s]`` (or
-    ``[min]``, ``[h]``) and either ``current [A]`` or ``power [W]`` (``[kW]``),
-    positive on discharge. Each value holds from its time to the next; the
+    Lines starting with ``#`` are comments. The header names the columns with
+    units in brackets: ``time [s]`` (or ``[min]``, ``[h]``) and either
+    ``current [A]`` or ``power [W]`` (``[kW]``), positive on discharge. Each value holds from its time to the next; the
     profile ends at the last time. The cell's voltage window ends it early.
     """
     path = Path(path)
@@ -241,7 +241,10 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
         text = path.read_text(encoding="utf-8-sig")
     except OSError as exc:
         raise InputError(f"{where}: cannot read the profile ({exc.strerror})") from None
-    rows = [r for r in csv.reader(text.splitlines()) if r and any(c.strip() for c in r)]
+    numbered = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1)
+                if ln.strip() and not ln.lstrip().startswith("#")]
+    line_no = [n for n, _ in numbered]  # file line of each row, for the messages
+    rows = list(csv.reader(ln for _, ln in numbered))
     if len(rows) < 3:
         raise InputError(f"{where}: a profile needs a header and at least two rows, "
                          f"found {len(rows)} line(s)")
@@ -264,7 +267,7 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
             raise InputError(f"{where}: column `{name}` has unknown unit [{unit}]; expected one "
                              f"of {sorted(_PROFILE_UNITS[name])}")
         values = []
-        for line, r in enumerate(rows[1:], start=2):
+        for line, r in zip(line_no[1:], rows[1:]):
             try:
                 v = float(r[col])
             except (IndexError, ValueError):
@@ -278,9 +281,9 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
     t = data["time"] - data["time"][0]
     steps = np.diff(t)
     if np.any(steps <= 0):
-        bad = int(np.argmax(steps <= 0)) + 3
-        raise InputError(f"{where}, line {bad}: times must increase strictly; "
-                         f"found {data['time'][bad - 3]:g} then {data['time'][bad - 2]:g} s")
+        i = int(np.argmax(steps <= 0))  # rows i and i+1 of the data
+        raise InputError(f"{where}, line {line_no[i + 2]}: times must increase strictly; "
+                         f"found {data['time'][i]:g} then {data['time'][i + 1]:g} s")
     ends = _ends(where, voltage=end_voltage_V, soc=end_soc, temperature_C=end_temperature_C)
     return Step("profile", ends=ends, profile_time_s=tuple(t.tolist()),
                 profile_value=tuple(data[quantity].tolist()), profile_quantity=quantity,

@@ -91,3 +91,17 @@ def test_bad_profiles_name_file_and_problem(tmp_path, text, match):
 def test_missing_profile_file(tmp_path):
     with pytest.raises(InputError, match="cannot read"):
         duty.profile_csv(tmp_path / "nope.csv")
+
+
+def test_profile_comments_and_line_numbers(tmp_path):
+    p = _csv(tmp_path, "# invented\n\ntime [s],current [A]\n0,1\n5,2\n5,3\n")
+    with pytest.raises(InputError, match="line 6: times must increase"):
+        duty.profile_csv(p)
+
+
+def test_bundled_profile_reads():
+    from pathlib import Path
+
+    s = duty.profile_csv(Path(__file__).parents[1] / "profiles" / "van_city_route.csv")
+    assert s.profile_quantity == "power" and s.profile_time_s[-1] == 1800.0
+    assert min(s.profile_value) < 0 < max(s.profile_value)  # regenerative braking included

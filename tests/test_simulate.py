@@ -215,3 +215,24 @@ def test_plate_on_both_faces_shares_one_coolant(cell):
     assert float(both.temperature_max[-1]) < float(runs["back"].temperature_max[-1])
     rise = {f: float((r.temperature_core_max - r.temperature_max)[-1]) for f, r in runs.items()}
     assert rise["both"] == pytest.approx(rise["back"] / 4, rel=0.1)
+
+
+def test_profile_runs_and_holds_each_sample(cell):
+    """A recorded power profile: each sample holds until the next; the terminal power matches it
+    at every recorded point, and the run ends at the profile's last time."""
+    from pathlib import Path
+
+    step = duty.profile_csv(Path(__file__).parents[1] / "profiles" / "van_city_route.csv")
+    ds = explorer.simulate(cell, step, layout="single", start_soc=0.8)
+    assert ds.attrs["status"] == "completed"
+    assert float(ds.time[-1]) == pytest.approx(1800.0)
+    tp, pv = np.asarray(step.profile_time_s), np.asarray(step.profile_value)
+    t = ds.time.values[1:]
+    demanded = pv[np.searchsorted(tp, t - 1e-9, side="right") - 1]  # the sample held over each step
+    np.testing.assert_allclose(ds.power.values[1:], demanded, atol=1e-6 * np.abs(pv).max())
+
+
+def test_soc_end_condition_is_located(cell):
+    """End on SOC: located to 1e-4 (0.1 % of the SOC range) without running past it."""
+    ds = explorer.simulate(cell, duty.discharge(c_rate=1.5, end_soc=0.5), layout="single")
+    assert float(ds.soc_mean[-1]) == pytest.approx(0.5, abs=1e-4)
