@@ -101,6 +101,10 @@ def test_app_runs_in_a_kernel_background_thread(tmp_path):
         "    shown = fig.figure.data[0].z\n"
         "else:  # plain figure redrawn into an Output widget\n"
         "    shown = fig.widget.outputs[0]['data']['application/vnd.plotly.v1+json']['data'][0]['z']\n"
+        "    # a figure on a hidden tab is drawn when its tab is opened\n"
+        "    assert not app.fig_traces.widget.outputs\n"
+        "    app.output_tabs.selected_index = 3\n"
+        "    assert app.fig_traces.widget.outputs\n"
         "print('SHOWN', shown is not None, fig.updates)")]
     nbclient.NotebookClient(nb, kernel_name="python3", timeout=300,
                             resources={"metadata": {"path": str(tmp_path)}}).execute()

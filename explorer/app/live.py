@@ -78,6 +78,8 @@ class LiveFigure:
             self.widget = widgets.Output(layout=widgets.Layout(min_height=f"{height}px"))
         self.updates = 0
         self.empty = True
+        self.visible = True  # the app clears it for figures on hidden tabs
+        self._stale = False
 
     def replace(self, source: go.Figure) -> None:
         """Make the live figure show ``source`` (data and layout), reusing traces where it can.
@@ -103,11 +105,28 @@ class LiveFigure:
         self.empty = False
         self.refresh()
 
+    def show(self, visible: bool) -> None:
+        """Mark the figure shown or hidden; a hidden plain figure is redrawn when shown again."""
+        self.visible = visible
+        if visible and self._stale:
+            self._stale = False
+            self._draw()
+
     def refresh(self) -> None:
-        """After in-place changes: count them and, without FigureWidget, redraw the figure."""
+        """After in-place changes: count them and, without FigureWidget, redraw the figure.
+
+        A plain figure on a hidden tab is only marked stale (redrawn by :meth:`show`), so a time
+        slider move costs one redraw per visible figure.
+        """
         self.updates += 1
         if self.native or not _in_kernel():
             return
+        if not self.visible:
+            self._stale = True
+            return
+        self._draw()
+
+    def _draw(self) -> None:
         # set the Output's content directly: unlike `with output: display(...)` this also works
         # from the app's background run thread. The bundle comes from plotly's active renderers;
         # when they give none, the plotly mimetype that JupyterLab and VS Code draw natively.

@@ -141,7 +141,7 @@ class ExplorerApp(widgets.VBox):
         self._input_errors_shown = False
         self._busy = False
         self._time_index = 0
-        self._marker_shape: int | None = None
+        self._marker_shape: list[int] = []
 
         self.rows = {name: _Row(name, f, demo) for name, f in FIELDS.items()}
         if "cell" in self.rows and demo and FIELDS["cell"].default not in demo:
@@ -247,13 +247,23 @@ class ExplorerApp(widgets.VBox):
         self.output_tabs = widgets.Tab(children=list(panels.values()))
         for k, name in enumerate(panels):
             self.output_tabs.set_title(k, name)
+        self._tab_figures = [[], [self.fig_temperature], [self.fig_soc, self.fig_heat_flux],
+                             [self.fig_traces], [self.fig_heat], [self.fig_compare],
+                             [self.fig_sizing]]
+        self.output_tabs.observe(lambda ch: self._tab_changed(ch["new"]), names="selected_index")
         self.output_tabs.selected_index = 1
+        self._tab_changed(1)
         scenario_row = widgets.HBox([self.scenario_name, self.pin_button, self.clear_button])
         file_row = widgets.HBox([self.file_path, *self.file_buttons.values()])
         footer = widgets.HTML(f"<div style='border-top:1px solid #ccc;margin-top:0.8em;padding-top:"
                               f"0.4em;color:#333;font-size:0.9em'><b>Caution.</b> {caution}</div>")
         return [header, self.input_tabs, run_row, time_row, self.output_tabs, scenario_row,
                 file_row, self.file_status, footer]
+
+    def _tab_changed(self, selected) -> None:
+        for k, figures in enumerate(self._tab_figures):
+            for live in figures:
+                live.show(k == selected)
 
     # -----------------------------------------------------------------------------------------
     # inputs
