@@ -48,13 +48,13 @@ def test_defaults_map_onto_the_public_api():
     nx, ny = call.simulate_kwargs.pop("grid")
     assert call.simulate_kwargs == {"electrochemistry": "spme", "layout": "averaged",
                                     "start_soc": 1.0, "start_temperature_C": 25.0}
-    # coarse grid: about 200 near-square cells over the face
+    # coarse grid: about 200 near-square cells over the face (our own resolution choice)
     g = call.cell.geometry
     assert 150 <= nx * ny <= 250
     assert (g.width_m / nx) / (g.height_m / ny) == pytest.approx(1.0, abs=0.3)
     assert "grid" not in inputs_to_call({**defaults(), "grid": "standard"}).simulate_kwargs
     assert call.limits.temperature_max_C == 45.0 and call.limits.spread_K == 5.0
-    # one hour at 1C from full (definition of the C-rate)
+    # one hour at 1C from full (the C-rate's definition: current = C-rate x capacity; common practice)
     assert call.expected_duration_s() == pytest.approx(3600.0)
 
 
@@ -93,7 +93,8 @@ def test_validation_messages_name_field_value_and_expectation(tmp_path):
     assert "h_W_m2K" in validate({**defaults(), "cooling": "convection", "h_W_m2K": -5.0})
     e = validate({**defaults(), "size_low": 3.0, "size_high": 1.0})
     assert "size_high" in e
-    # a limit at or below the coolant inlet can never be met (heat flows from hot to cold)
+    # a limit at or below the coolant inlet can never be met: heat flows only from hot to cold
+    # (second law; Incropera & DeWitt, Fundamentals of Heat and Mass Transfer, ch. 1, from memory)
     e = validate({**defaults(), "limit_temperature_C": 20.0, "inlet_C": 25.0})
     assert "limit_temperature_C" in e and "25" in e["limit_temperature_C"]
     e = validate({**defaults(), "cell": str(tmp_path / "nope.toml")})
