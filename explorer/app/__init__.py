@@ -5,6 +5,10 @@
 * :mod:`explorer.app.inputs` — the input table, validation and :func:`inputs_to_call`, the pure
   mapping of the inputs onto the public API.
 
+Live figures are plotly ``FigureWidget`` objects when the ``anywidget`` package is installed
+(plotly >= 6 needs it for them); otherwise the app keeps plain figures, updates them in place and
+redraws the ones on the open tab (see :mod:`explorer.app.live`).
+
 >>> import explorer                       # doctest: +SKIP
 >>> app = explorer.explore()              # doctest: +SKIP
 >>> app                                   # doctest: +SKIP  (displays in a notebook)
