@@ -176,11 +176,18 @@ def save(ds: xr.Dataset, path) -> Path:
         out = ds.copy()
         out.attrs = {k: _attr(v) for k, v in ds.attrs.items()}
         out.to_netcdf(tmp, engine="netcdf4")
+        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes it private; results are shared files
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
     return path
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def _attr(v):
