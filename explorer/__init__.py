@@ -20,10 +20,13 @@ Results inform design; they do not certify it (see ``explorer.results.CAUTION``)
 
 __version__ = "0.1.0"
 
-from explorer import cell, duty, results, validators  # noqa: E402
+from explorer import cell, cooling, duty, results, validators  # noqa: E402
 from explorer.cell import load_cell  # noqa: E402
+from explorer.limits import Limits  # noqa: E402
 from explorer.results import open_results  # noqa: E402
 from explorer.simulate import simulate  # noqa: E402
+from explorer.sizing import size_cooling  # noqa: E402
+from explorer.sweeping import sweep  # noqa: E402
 
 __all__ = [
     "__version__",
@@ -41,12 +44,9 @@ __all__ = [
     "explore",
 ]
 
-# Heavier or optional parts load on first use (Dask, ipywidgets, CoolProp).
+# The notebook app (ipywidgets, plotly) loads on first use; Dask and CoolProp load inside the
+# functions that need them.
 _LAZY = {
-    "cooling": ("explorer.cooling", None),
-    "Limits": ("explorer.limits", "Limits"),
-    "size_cooling": ("explorer.sizing", "size_cooling"),
-    "sweep": ("explorer.sweep", "sweep"),
     "explore": ("explorer.app", "explore"),
 }
 

@@ -387,7 +387,7 @@ def cmd_run(scenario, out=None) -> int:
     from explorer.results import key_figures
     from explorer.simulate import simulate
     from explorer.sizing import run_hydraulics
-    from explorer.sweep import write_netcdf
+    from explorer.sweeping import write_netcdf
 
     sc = load_scenario(scenario)
     ds = simulate(sc.cell, sc.duty, sc.cooling, **sc.model)
@@ -425,7 +425,7 @@ def cmd_size(scenario, out=None) -> int:
     2 for bad input.
     """
     from explorer.sizing import size_cooling
-    from explorer.sweep import write_netcdf
+    from explorer.sweeping import write_netcdf
 
     sc = load_scenario(scenario)
     where = str(sc.path)
@@ -458,7 +458,7 @@ def cmd_sweep(scenario, out=None, scheduler=None) -> int:
     a running scheduler. Returns 0 when every case ran, 1 when a case failed,
     2 for bad input.
     """
-    from explorer.sweep import sweep, write_netcdf
+    from explorer.sweeping import sweep, write_netcdf
 
     sc = load_scenario(scenario)
     if sc.sweep is None:

@@ -38,7 +38,7 @@ def bench_sweep(cell: str = "van_nmc_66ah", n_workers: int = 2) -> list[dict]:
 
     from explorer import cooling, duty
     from explorer.cell import load_cell
-    from explorer.sweep import LOCAL_CLUSTER, sweep
+    from explorer.sweeping import LOCAL_CLUSTER, sweep
 
     the_cell = load_cell(cell)
     design = cooling.edge_plate(cooling.fixed_sink(temperature_C=25.0, h_W_m2K=2000.0),

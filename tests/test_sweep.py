@@ -14,10 +14,10 @@ import pytest
 import xarray as xr
 from test_sizing import DUTY, STANDIN_CELL, Counter, StandInPlate, standin_simulate
 
-import explorer.sweep as sweep_mod
+import explorer.sweeping as sweep_mod
 from explorer.limits import Limits
 from explorer.results import key_figures
-from explorer.sweep import LOCAL_CLUSTER, _resample, sweep
+from explorer.sweeping import LOCAL_CLUSTER, _resample, sweep
 from explorer.validators import InputError
 
 AXES = {"flow_L_min": [1.0, 2.0, 4.0], "inlet_C": [20.0, 30.0]}
@@ -113,7 +113,7 @@ def test_limits_margins_per_case(standin):
 def test_setting_axis_and_public_name(standin):
     import explorer
 
-    # `explorer.sweep` stays callable although the module of the same name is imported
+    # `explorer.sweep` is the public function (the module is explorer.sweeping)
     ds = explorer.sweep(STANDIN_CELL, DUTY, StandInPlate(), {"start_temperature_C": [15.0, 25.0]},
                         scheduler="serial", progress=False)
     assert ds.sizes["start_temperature_C"] == 2

@@ -36,9 +36,7 @@ import itertools
 import json
 import logging
 import math
-import sys
 import time
-import types
 from pathlib import Path
 
 import numpy as np
@@ -596,15 +594,3 @@ def _resample(t, y, time):
     out = y[i] * (1.0 - w) + y[i + 1] * w
     out[time > t[-1] * (1 + 1e-12) + 1e-9] = np.nan
     return out
-
-
-class _CallableModule(types.ModuleType):
-    """``explorer.sweep`` names both this module and the public function; importing the module
-    (``import explorer.sweep``) rebinds the package attribute to the module, so the module
-    calls the function to keep ``explorer.sweep(...)`` working in either order."""
-
-    def __call__(self, *args, **kwargs):
-        return sweep(*args, **kwargs)
-
-
-sys.modules[__name__].__class__ = _CallableModule
