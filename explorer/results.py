@@ -5,6 +5,38 @@ into the Dataset of the public contract (CF-style ``units`` and
 ``long_name`` on every variable); :func:`save` writes it to netCDF
 atomically; :func:`open_results` reads it back; :func:`key_figures` gives the
 numbers a design review asks for first.
+
+The Dataset
+-----------
+Coordinates ``time`` (s), ``x`` and ``y`` (m, cell centres; 1 x 1 for the
+``single`` layout). Variables:
+
+=============================================  ===========  =======  ================================
+name                                           dims         units    what
+=============================================  ===========  =======  ================================
+voltage, current, power, ocv                   time         V, A, W  terminal values; + on discharge
+soc_mean                                       time         1        cell state of charge
+soc, current_density                           time, y, x   1, A m-2 local (uniform unless distributed)
+temperature                                    time, y, x   degC     through-thickness mean field
+temperature_max / _min / _mean / _core_max     time         degC     over the face; core = hottest
+heat_flux                                      time, y, x   W m-2    generated heat per face area
+heat_total, heat_<source>                      time         W        irreversible, reversible,
+                                                                     ohmic_electrolyte, ohmic_solid,
+                                                                     collector, tab
+heat_rejected, heat_to_<sink>                  time         W        into all sinks / each sink
+heat_stored                                    time         J        relative to 0 degC
+heat_generated_energy, heat_rejected_energy    time         J        running integrals (exact)
+charge_delivered, energy_delivered             time         A h, W h running integrals
+coolant_outlet                                 time         degC     with a coolant stream only
+lithium                                        time         mol      at the ends of duty steps
+step                                           time         1        index of the duty step
+=============================================  ===========  =======  ================================
+
+Attributes: tool version, cell name, file and SHA-256, every model setting
+(electrochemistry, layout, grid, rods, duty, cooling, hydraulics as JSON),
+``heat_capacity_J_per_K``, ``collector_resistance_ohm``,
+``temperature_limit_C`` (data sheet), ``status`` ("completed", "stopped",
+"failed") with ``status_message``, and the ``caution``.
 """
 
 from __future__ import annotations
