@@ -23,23 +23,14 @@ import argparse
 import json
 import platform
 import sys
-import time
+
+from explorer.timing import best_of
 
 TARGETS = {
     ("rods", "spme"): 0.1,
     ("rods", "dfn"): 3.0,
     ("averaged", "spme"): 0.5,
 }
-
-
-def _best(fn, repeat):
-    fn()  # warm-up: imports, factorisations cached per process, numba-free first calls
-    best, out = float("inf"), None
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        out = fn()
-        best = min(best, time.perf_counter() - t0)
-    return best, out
 
 
 def bench_simulate_rods(repeat=3, cells=None):
@@ -54,7 +45,7 @@ def bench_simulate_rods(repeat=3, cells=None):
             def once(model=model, cell=cell):
                 return explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0),
                                          electrochemistry=model, layout="single")
-            wall, ds = _best(once, repeat if model != "dfn" else max(1, repeat - 1))
+            wall, ds = best_of(once, repeat if model != "dfn" else max(1, repeat - 1))
             times[model] = wall
             duration = float(ds.time[-1])
             rows.append({"section": "rods", "cell": name, "model": model, "wall_s": wall,
@@ -78,7 +69,7 @@ def bench_averaged(repeat=3, cells=None):
             return explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0),
                                      explorer.cooling.convection(10.0, 25.0),
                                      electrochemistry="spme", layout="averaged", grid=(32, 48))
-        wall, ds = _best(once, repeat)
+        wall, ds = best_of(once, repeat)
         duration = float(ds.time[-1])
         rows.append({"section": "averaged", "cell": name, "model": "spme", "grid": "32x48",
                      "wall_s": wall, "duration_s": duration, "real_time_factor": duration / wall,

@@ -11,9 +11,9 @@ Run it directly: ``python -m explorer.rod_bench``.
 
 from __future__ import annotations
 
-import time
-
 import numpy as np
+
+from explorer.timing import best_of
 
 __all__ = ["bench_rods", "discharge", "TARGETS_S"]
 
@@ -49,16 +49,6 @@ def discharge(rod, params, c_rate=1.0, dt=20.0, temperature_K=298.15, max_steps=
     return np.array(times), np.array(volts), current * t / 3600.0
 
 
-def _best(fn, repeat):
-    fn()
-    best, out = float("inf"), None
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        out = fn()
-        best = min(best, time.perf_counter() - t0)
-    return best, out
-
-
 def bench_rods(repeat: int = 3, cells=None, mesh=None, c_rate: float = 1.0,
                dt: float = 20.0) -> list[dict]:
     """Wall time of a full CC discharge per model and demo cell, plus the DFN/SPMe ratio.
@@ -76,7 +66,7 @@ def bench_rods(repeat: int = 3, cells=None, mesh=None, c_rate: float = 1.0,
         walls = {}
         for model in ("spm", "spme", "dfn"):
             rod = make_rod(model, params, mesh)
-            wall, (times, volts, q) = _best(lambda rod=rod, p=params: discharge(rod, p, c_rate, dt),
+            wall, (times, volts, q) = best_of(lambda rod=rod, p=params: discharge(rod, p, c_rate, dt),
                                             repeat if model != "dfn" else max(1, repeat - 1))
             walls[model] = wall
             target = TARGETS_S.get(model)

@@ -14,19 +14,9 @@ the figures measure the Python side either way: the inputs, the simulation and t
 
 from __future__ import annotations
 
-import time
+from explorer.timing import best_of
 
 TARGETS_S = {"run_to_figure": 1.5, "time_slider": 0.05}
-
-
-def _best(fn, repeat: int) -> float:
-    fn()  # warm-up: imports, property tables, factorisations
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def bench_app(repeat: int = 3, **inputs) -> list[dict]:
@@ -50,7 +40,7 @@ def bench_app(repeat: int = 3, **inputs) -> list[dict]:
         if app.run() is None:
             raise RuntimeError(f"bench_app: the run failed: {app.last_error}")
 
-    run_s = _best(run_once, repeat)
+    run_s = best_of(run_once, repeat)[0]
     ds = app.dataset
     n = int(ds.sizes["time"])
     moves = iter(range(10**9))
@@ -59,7 +49,7 @@ def bench_app(repeat: int = 3, **inputs) -> list[dict]:
         # a different index every call, so every move really updates
         app.time_slider.value = next(moves) % max(n, 1)
 
-    slider_s = _best(slide_once, max(5, repeat * 5))
+    slider_s = best_of(slide_once, max(5, repeat * 5))[0]
     common = {"section": "app", "cell": ds.attrs.get("cell_name"),
               "model": ds.attrs.get("electrochemistry"), "layout": ds.attrs.get("layout"),
               "grid": f"{ds.sizes['x']}x{ds.sizes['y']}",

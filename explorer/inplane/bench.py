@@ -11,14 +11,13 @@ Each figure is the best of ``repeat`` runs, to damp the noise of a shared machin
 
 from __future__ import annotations
 
-import time
-
 import numpy as np
 
 from explorer.inplane.collector import CollectorNetwork
 from explorer.inplane.grid import Grid
 from explorer.inplane.sinks import CoolantStream, EdgeSink, FaceSink, Fin, Sinks
 from explorer.inplane.thermal import PlaneThermal
+from explorer.timing import best_of
 
 #: Step with a cached factorisation, target per step (s): the averaged layout takes a few
 #: hundred steps and the whole run must fit in 0.5 s.
@@ -36,15 +35,6 @@ def _sink_sets(cell) -> dict:
             faces={"back": FaceSink(800.0, 25.0)},
             coolant=CoolantStream("back", "+x", 50.0, 25.0, upstream_cells=5)),
     }
-
-
-def _best(fn, repeat: int) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def _thermal_row(name: str, cell, g: Grid, label: str, sinks: Sinks, repeat: int) -> dict:
@@ -65,8 +55,8 @@ def _thermal_row(name: str, cell, g: Grid, label: str, sinks: Sinks, repeat: int
 
     return {"section": "inplane", "cell": name, "part": f"thermal: {label}",
             "grid": f"{g.nx}x{g.ny}", "nodes": int(state.size),
-            "build_s": _best(lambda: PlaneThermal(cell, g, sinks), repeat),
-            "step_cached_s": _best(cached, repeat) / n, "step_new_dt_s": _best(fresh, repeat),
+            "build_s": best_of(lambda: PlaneThermal(cell, g, sinks), repeat, warm_up=False)[0],
+            "step_cached_s": best_of(cached, repeat, warm_up=False)[0] / n, "step_new_dt_s": best_of(fresh, repeat, warm_up=False)[0],
             "target_step_s": TARGET_STEP_S}
 
 
@@ -79,7 +69,7 @@ def bench_inplane(repeat: int = 3, cells=None, grid=(32, 48)) -> list[dict]:
     for name in cells or list(list_demo_cells()):
         cell = load_cell(name)
         g = Grid(cell.geometry.width_m, cell.geometry.height_m, nx, ny)
-        build_s = _best(lambda g=g, cell=cell: CollectorNetwork(cell, g), repeat)
+        build_s = best_of(lambda g=g, cell=cell: CollectorNetwork(cell, g), repeat, warm_up=False)[0]
         net = CollectorNetwork(cell, g)
         rows.append({"section": "inplane", "cell": name, "part": "collector build",
                      "grid": f"{nx}x{ny}", "refine": net.refine, "wall_s": build_s,
