@@ -349,13 +349,9 @@ class ExplorerApp(widgets.VBox):
         Invalid inputs do not run (their errors are shown next to the fields). A run that raises
         or ends with status "failed" shows its reason and keeps the previous results.
         """
-        self._on_change()
-        if self.errors:
-            self.last_error = "inputs invalid: " + "; ".join(f"{k}: {v}" for k, v in self.errors.items())
-            self._busy = False
-            self._on_change()
+        values = self._valid_inputs()
+        if values is None:
             return None
-        values = self.inputs()
         self._busy = True
         self.run_button.disabled = True
         self.size_button.disabled = True
@@ -551,15 +547,21 @@ class ExplorerApp(widgets.VBox):
         self._thread = threading.Thread(target=self.size, name="explorer-app-size", daemon=True)
         self._thread.start()
 
-    def size(self):
-        """Size the current design for the chosen parameter (blocking); return the result or None."""
+    def _valid_inputs(self):
+        """The current inputs, or None (with the reason in ``last_error``) while any is invalid."""
         self._on_change()
         if self.errors:
             self.last_error = "inputs invalid: " + "; ".join(f"{k}: {v}" for k, v in self.errors.items())
             self._busy = False
             self._on_change()
             return None
-        values = self.inputs()
+        return self.inputs()
+
+    def size(self):
+        """Size the current design for the chosen parameter (blocking); return the result or None."""
+        values = self._valid_inputs()
+        if values is None:
+            return None
         t0 = time.perf_counter()
         self._busy = True
         self.run_button.disabled = self.size_button.disabled = True
