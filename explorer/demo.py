@@ -79,12 +79,20 @@ def run_demo(cell_name: str, out: Path, c_rate: float = 2.0) -> int:
     fig = key_figures(ds)
     print(f"done in {wall:.2f} s\n")
     print(format_figures(fig, ds))
+    # the data-sheet maximum, and a 5 K in-cell spread (a common design guideline, no single
+    # source): the limits a review would hold this run against first
+    limits = explorer.Limits(temperature_max_C=cell.temperature_max_C, spread_K=5.0)
+    check = limits.check(ds)
+    print("\nAgainst the data-sheet maximum and a 5 K spread guideline (common practice):")
+    for name, margin in check["margins"].items():
+        verdict = "met" if margin >= 0 else "NOT met"
+        print(f"  {name:26s} {verdict}, margin {margin:+.2f}")
     out = Path(out)
     stem = f"{Path(cell.source_path).stem or 'cell'}_{c_rate:g}C"
     nc = save(ds, out / f"{stem}.nc")
     from explorer.report import write_report
 
-    html = write_report(ds, out / f"{stem}_report.html",
+    html = write_report(ds, out / f"{stem}_report.html", limits=limits,
                         title=f"{cell.name}: {c_rate:g}C discharge on an edge cold plate")
     print(f"\nwrote {nc}\nwrote {html}\n")
     print(f"Caution: {CAUTION}")
