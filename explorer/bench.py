@@ -9,6 +9,7 @@ measured side by side in the same run. Sections:
 * ``rod_only``  the rod models alone at a fixed 20 s step (no stepper): the
                 compute ratio DFN/SPMe at the same mesh
 * ``averaged``  SPMe, averaged layout, 32 x 48 thermal grid, full 1C discharge
+* ``distributed`` the same on the default grid of rods (for scale; no target)
 * ``inplane``   collector network set-up and thermal steps on the 32 x 48 grid
 * ``sweep``     48-case sweep, serial against the local Dask cluster
 * ``app``       the notebook app's run-to-figure and time-slider update
@@ -78,11 +79,35 @@ def bench_averaged(repeat=3, cells=None):
     return rows
 
 
+def bench_distributed(repeat=1, cells=None):
+    """The distributed layout for scale: SPMe rods on the default rod grid, 32 x 48 field."""
+    import explorer
+    from explorer.cell import list_demo_cells
+
+    rows = []
+    for name in cells or list(list_demo_cells()):
+        cell = explorer.load_cell(name)
+
+        def once(cell=cell):
+            return explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0),
+                                     explorer.cooling.convection(10.0, 25.0),
+                                     electrochemistry="spme", layout="distributed", grid=(32, 48))
+        wall, ds = best_of(once, repeat, warm_up=False)
+        duration = float(ds.time[-1])
+        rows.append({"section": "distributed", "cell": name, "model": "spme", "grid": "32x48",
+                     "rods": "x".join(map(str, json.loads(ds.attrs["rods"]))), "wall_s": wall,
+                     "duration_s": duration, "real_time_factor": duration / wall,
+                     "steps": int(ds.attrs["steps_taken"]), "status": ds.attrs["status"]})
+    return rows
+
+
 def _section(name, quick):
     if name == "rods":
         return bench_simulate_rods(repeat=1 if quick else 3)
     if name == "averaged":
         return bench_averaged(repeat=1 if quick else 3)
+    if name == "distributed":
+        return bench_distributed()
     if name == "rod_only":
         from explorer.rod_bench import bench_rods as bench_rod_models
 
@@ -102,7 +127,7 @@ def _section(name, quick):
     raise ValueError(name)
 
 
-SECTIONS = ("rods", "rod_only", "averaged", "inplane", "sweep", "app")
+SECTIONS = ("rods", "rod_only", "averaged", "distributed", "inplane", "sweep", "app")
 
 
 def _table(rows) -> str:
