@@ -169,7 +169,6 @@ class _Stepper:
         self.t = 0.0
         self.T_state = self.thermal.initial_state(temperature_C)
         self.rod_state = self.rod.initial_state(soc, temperature_C + 273.15)
-        self.current = 0.0
         # a zero-current step of zero length would need the rod's OCV; take a tiny rest step
         res = self.rod.solve_step(self.rod_state, 1e-6, self._rod_temperature(),
                                   Control("current", 0.0), self.R)
@@ -412,7 +411,6 @@ class _Stepper:
         self.t += tr.dt
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
-        self.current = tr.rod.current_A
         self.rec.steps_taken += 1
         if record:
             self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected,
