@@ -92,6 +92,7 @@ class SPM(RodModel):
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
         self._ops: dict = {}
         self._ea = np.array(self._activation_energies())
+        self._blocks = None  # built on first use: subclasses finish their parts after this
 
     # ---- hooks the SPMe extends ------------------------------------------------------------
     def _extra_size(self) -> int:
@@ -147,16 +148,25 @@ class SPM(RodModel):
         return [n.diffusivity_activation_J_mol, p.diffusivity_activation_J_mol,
                 n.rate_activation_J_mol, p.rate_activation_J_mol]
 
-    def _blocks(self, dt, T, f):
-        """Linear step blocks ``(P, q_per_A)`` of the state parts, in state order.
+    def _modal_blocks(self):
+        """The linear state parts in state order: ``(slice, ModalEuler, forcing per A)``.
 
-        ``f`` holds the Arrhenius factors in the order of :meth:`_activation_energies`.
+        Each part obeys ``W dc/dt = -s K c + b I`` (``s`` from :meth:`_rates`), so one
+        backward-Euler step is applied in the part's eigenbasis (see
+        :class:`~explorer.rod.particle.ModalEuler`) without forming a propagator matrix.
         """
+        nr, modal = self.nr, self.shells._modal
         blocks = []
         for k, e in enumerate(self._electrodes):
-            pr = self.shells.propagator(e.diffusivity_m2_s * f[k], e.particle_radius_m, dt)
-            blocks.append((pr.P, pr.q * self._flux_per_A[k]))
+            force = np.zeros(nr)
+            force[nr - 1] = -3.0 / e.particle_radius_m  # outer-face flux (4 pi R^2)/(4/3 pi R^3)
+            blocks.append((slice(k * nr, (k + 1) * nr), modal, force * self._flux_per_A[k]))
         return blocks
+
+    def _rates(self, f):
+        """Each part's eigenvalue scale ``s`` at Arrhenius factors ``f``, in block order."""
+        return [e.diffusivity_m2_s * f[k] / e.particle_radius_m ** 2
+                for k, e in enumerate(self._electrodes)]
 
     def _constants(self, T, f):
         """Temperature-dependent constants of the voltage terms."""
@@ -170,22 +180,20 @@ class SPM(RodModel):
         if op is not None:
             return op
         f = arrhenius(self._ea, T, REFERENCE_K)  # all properties' factors in one call
-        blocks = self._blocks(dt, T, f)
-        m = sum(b[0].shape[0] for b in blocks)
-        P = np.zeros((m, m))
-        q = np.empty(m)
-        i = 0
-        for Pb, qb in blocks:
-            k = Pb.shape[0]
-            P[i:i + k, i:i + k] = Pb
-            q[i:i + k] = qb
-            i += k
+        if self._blocks is None:  # (slice, basis, V' b): forcing projected once per part
+            self._blocks = [(sl, m, m.V.T @ b) for sl, m, b in self._modal_blocks()]
+        parts = []
+        q = np.empty(self.size - 1)
+        for (sl, modal, Vtb), s_k in zip(self._blocks, self._rates(f), strict=True):
+            d = 1.0 / (1.0 + dt * s_k * modal.lam)
+            q[sl] = modal.V @ (dt * d * Vtb)
+            parts.append((sl, modal.V * d, modal._VtW))
         # surface = value of the outer shell minus the extrapolation to the surface
         surf_q = np.empty(2)
         for k, e in enumerate(self._electrodes):
             extra = e.particle_radius_m * self.shells.surface_distance / (e.diffusivity_m2_s * f[k])
             surf_q[k] = q[self._outer[k]] - extra * self._flux_per_A[k]
-        op = {"P": P, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
+        op = {"parts": parts, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
         if len(self._ops) >= CACHE_SIZE:
             self._ops.clear()
         self._ops[key] = op
@@ -193,7 +201,10 @@ class SPM(RodModel):
 
     def _linear_step(self, op, x, dt):
         """``(base, q)``: the step's new state (less the current entry) is ``base + I q``."""
-        return op["P"] @ x[:-1], op["q"]
+        base = np.empty(self.size - 1)
+        for sl, Vd, VtW in op["parts"]:
+            base[sl] = Vd @ (VtW @ x[sl])
+        return base, op["q"]
 
     def _electrolyte_terms(self, op, lin, I, cs):
         """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal electrolyte."""

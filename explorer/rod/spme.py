@@ -100,11 +100,11 @@ class SPMe(SPM):
         return super()._activation_energies() + [el.conductivity_activation_J_mol,
                                                  el.diffusivity_activation_J_mol]
 
-    def _blocks(self, dt, T, f):
-        blocks = super()._blocks(dt, T, f)
-        P, q = self._e_modal.operator(self._de0 * f[5], dt, self._source_per_A)
-        blocks.append((P, q))
-        return blocks
+    def _modal_blocks(self):
+        return super()._modal_blocks() + [(self._ce_slice, self._e_modal, self._source_per_A)]
+
+    def _rates(self, f):
+        return super()._rates(f) + [self._de0 * f[5]]
 
     def _constants(self, T, f):
         const = super()._constants(T, f)
