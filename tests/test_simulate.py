@@ -252,3 +252,19 @@ def test_adiabatic_averaged_run_stores_all_its_heat(cell):
                             grid=(12, 8), output_interval_s=10.0)
     drop = float(avg.current[1]) * avg.attrs["collector_resistance_ohm"]
     assert float(single.voltage[1] - avg.voltage[1]) == pytest.approx(drop, rel=0.05)
+
+
+def test_single_layout_with_a_fin_closes_the_energy_balance(cell):
+    """The lumped model with an edge plate and fin sheet: generated = stored (cell and fin) +
+    rejected within 0.5 % (first law)."""
+    plate = explorer.cooling.cold_plate(coolant="water", flow_L_min=1.0, inlet_C=20.0)
+    design = explorer.cooling.edge_plate(plate, edge="bottom", fin_mm=1.0)
+    ds = explorer.simulate(cell, duty.discharge(c_rate=2.0), design, layout="single")
+    generated = float(ds.heat_generated_energy[-1])
+    stored = float(ds.heat_stored[-1] - ds.heat_stored[0])
+    rejected = float(ds.heat_rejected_energy[-1])
+    assert rejected > 0.05 * generated
+    assert generated == pytest.approx(stored + rejected, rel=5e-3)
+    # the fin's capacity counts too: more than the cell's heat capacity times the change
+    change = float(ds.temperature_mean[-1] - ds.temperature_mean[0])
+    assert abs(stored) > ds.attrs["heat_capacity_J_per_K"] * abs(change)

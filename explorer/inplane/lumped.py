@@ -4,7 +4,7 @@ It meets the thermal-model contract of :mod:`explorer.inplane.base` on a
 1 x 1 grid, so the stepper drives it exactly like the 2-D field. Each sink of
 a :class:`~explorer.inplane.sinks.Sinks` becomes one conductance to its
 (area- or length-averaged) temperature; a fin sheet is taken in series with
-its contact; a coolant stream is met at its mean temperature along this cell,
+its contact, and its heat capacity joins the cell's (it warms with the cell); a coolant stream is met at its mean temperature along this cell,
 which for a lumped cell is solved in closed form (see ``_stream_factor``). The
 temperature is the through-thickness mean, as in the 2-D field: face paths
 carry the mean-to-face resistance of :mod:`explorer.inplane.throughplane`.
@@ -35,6 +35,7 @@ class LumpedThermal:
         g = cell.geometry
         self.grid = Grid.single(g.width_m, g.height_m)
         self.heat_capacity_J_per_K = cell.derived.heat_capacity_J_K
+        self._C = self.heat_capacity_J_per_K  # what the one temperature stores (fin included)
         self._thickness = g.stack_thickness_m
         self._k_through = cell.derived.throughplane_conductivity_W_mK
         self._paths = []  # (sink name, conductance W/K, sink temperature degC)
@@ -47,6 +48,8 @@ class LumpedThermal:
         self._d = (0.0, 0.0)
         if sinks is not None:
             fin = sinks.fin
+            if fin is not None:  # the fin sheet warms with the cell: its heat capacity joins in
+                self._C += (fin.density_kg_m3 * fin.specific_heat_J_kgK * fin.thickness_m * area)
             u = {f: _mean(s.h_W_m2K) for f, s in sinks.faces.items()}
             fin_edges = [e for e in sinks.edges.values() if e.layer == "fin"]
             if fin is not None and fin_edges:
@@ -85,7 +88,7 @@ class LumpedThermal:
 
     def step(self, state, heat_W, dt, tab_heat_W=None):
         q = float(np.sum(heat_W)) + (sum(tab_heat_W.values()) if tab_heat_W else 0.0)
-        C = self.heat_capacity_J_per_K
+        C = self._C
         T_new = (C * state[0] / dt + q + np.dot(self._G, self._Ts)) / (C / dt + self._G.sum())
         flows = self._G * (T_new - self._Ts)
         return np.array([T_new]), dict(zip(self._names, flows.tolist(), strict=True))
@@ -97,7 +100,7 @@ class LumpedThermal:
         return float(state[0])
 
     def stored_J(self, state) -> float:
-        return self.heat_capacity_J_per_K * float(state[0])
+        return self._C * float(state[0])
 
     def coolant_outlet_C(self, state) -> float | None:
         """Coolant leaving this cell: inlet plus what this and the upstream cells put in."""
