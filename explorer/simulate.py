@@ -31,8 +31,8 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
 
     Parameters
     ----------
-    cell : Cell
-        From :func:`explorer.load_cell`.
+    cell : Cell, or str / Path
+        From :func:`explorer.load_cell`, or a cell file or demo-cell name to load.
     duty : Step or list of Step
         From :mod:`explorer.duty`.
     cooling : cooling design or None
@@ -78,6 +78,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     """
     from explorer.rod import RodParameters, make_rod
 
+    cell = _cell(cell)
     electrochemistry = _choice("electrochemistry", electrochemistry, ELECTROCHEMISTRY)
     layout = _choice("layout", layout, LAYOUTS)
     start_soc = _number("start_soc", start_soc, 0.0, 1.0)
@@ -137,6 +138,21 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         "rods": list(rod_grid) if layout == "distributed" else [1, 1],
     }
     return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
+
+
+def _cell(cell):
+    """A Cell as given, or loaded from a cell file path or demo-cell name."""
+    from pathlib import Path
+
+    from explorer.cell import load_cell
+    from explorer.cell.model import Cell
+
+    if isinstance(cell, Cell):
+        return cell
+    if isinstance(cell, (str, Path)):
+        return load_cell(cell)
+    raise InputError(f"simulate: `cell` must be a Cell from explorer.load_cell (or a cell file "
+                     f"path or demo-cell name), got {type(cell).__name__} {cell!r:.60}")
 
 
 def _choice(name, value, choices):

@@ -268,3 +268,11 @@ def test_single_layout_with_a_fin_closes_the_energy_balance(cell):
     # the fin's capacity counts too: more than the cell's heat capacity times the change
     change = float(ds.temperature_mean[-1] - ds.temperature_mean[0])
     assert abs(stored) > ds.attrs["heat_capacity_J_per_K"] * abs(change)
+
+
+def test_cell_by_name_and_bad_cell():
+    ds = explorer.simulate("bus_power_12ah", duty.discharge(c_rate=1.0, end_time_s=60),
+                           layout="single")
+    assert ds.attrs["cell_name"].startswith("Hybrid bus")
+    with pytest.raises(explorer.validators.InputError, match="`cell` must be a Cell"):
+        explorer.simulate(42, duty.discharge(c_rate=1.0))
