@@ -276,3 +276,10 @@ def test_cell_by_name_and_bad_cell():
     assert ds.attrs["cell_name"].startswith("Hybrid bus")
     with pytest.raises(explorer.validators.InputError, match="`cell` must be a Cell"):
         explorer.simulate(42, duty.discharge(c_rate=1.0))
+
+
+def test_a_step_already_at_its_limit_ends_at_once_and_says_so(cell):
+    ds = explorer.simulate(cell, duty.charge(c_rate=1.0), layout="single", start_soc=1.0)
+    assert ds.attrs["status"] == "completed"
+    assert float(ds.time[-1]) < 1e-2
+    assert "ended at once: voltage was already above" in ds.attrs["status_message"]

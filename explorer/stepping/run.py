@@ -77,6 +77,7 @@ class Record:
     lithium_mol: list = field(default_factory=list)
     status: str = "completed"
     message: str = ""
+    notes: list = field(default_factory=list)  # what the user should know about the run
     wall_time_s: float = 0.0
     steps_taken: int = 0
     steps_rejected: int = 0
@@ -140,6 +141,8 @@ def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temp
         stepper.rec.message = f"interrupted by the user at t = {stepper.t:.1f} s"
     else:
         stepper.rec.message = f"all {len(steps)} duty step(s) ran to their end conditions"
+    if stepper.rec.notes:
+        stepper.rec.message = "; ".join([stepper.rec.message, *stepper.rec.notes])
     stepper.rec.wall_time_s = _time.perf_counter() - wall
     return stepper.rec
 
@@ -264,6 +267,12 @@ class _Stepper:
             if end is not None:
                 trial = self._locate(step, end, control, trial, t0, index)
                 self._accept(trial, index, boundary=True)
+                if self.t - t0 < 1e-2:  # e.g. a charge started at the upper voltage limit
+                    unit = {"voltage": " V", "temperature": " degC", "current": " A"}.get(
+                        end.quantity, "")
+                    self.rec.notes.append(
+                        f"duty step {step.step.label!r} ended at once: {end.quantity} was already "
+                        f"{end.direction} {end.threshold:g}{unit} when it started")
                 return
             last = self.t + trial.dt >= t_end - 1e-9
             on_base = s.output_interval_s is None or _on_grid(self.t + trial.dt - t0, interval)
