@@ -325,14 +325,17 @@ class _Stepper:
         if getattr(res, "heat_map_W", None) is not None:  # a grid of rods brings its own fields
             tr.heat_map, tr.tab_heat, tr.collector = res.heat_map_W, res.tab_heat_W, res.collector_W
         else:
-            I = res.current_A
+            I2 = res.current_A ** 2
             q_rod = sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS)
-            tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells) + I * I * self.joule
-            tr.tab_heat = {k: I * I * v for k, v in self.c.tab_joule_W_per_A2.items()}
-            tr.collector = I * I * self.joule_total
+            tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells)
+            if self.joule_total:
+                tr.heat_map += I2 * self.joule
+            tr.tab_heat = {k: I2 * v for k, v in self.c.tab_joule_W_per_A2.items()}
+            tr.collector = I2 * self.joule_total
         tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
                                                     tr.tab_heat or None)
-        tr.t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
+        if self.needs_field:
+            tr.t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
 
     def _value(self, end: End, tr: _Trial, t0: float) -> float:
         q = end.quantity
