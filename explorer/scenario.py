@@ -233,16 +233,21 @@ def _duty(where, path, steps) -> list:
     return out
 
 
+def _kind(where, name, table, key, choices):
+    """``(kind, other keys)`` of a table whose ``key`` names one of ``choices``."""
+    if not isinstance(table, dict):
+        raise ScenarioError(f"{where}: `{name}` must be a table, got {table!r}")
+    kind = table.get(key)
+    if kind not in choices:
+        raise ScenarioError(f"{where}: `{name}.{key}` = {kind!r}; expected one of "
+                            f"{', '.join(choices)}")
+    return kind, {k: v for k, v in table.items() if k != key}
+
+
 def _step(where, path, name, step) -> list:
     from explorer import duty as duty_mod
 
-    if not isinstance(step, dict):
-        raise ScenarioError(f"{where}: `{name}` must be a table, got {step!r}")
-    kind = step.get("step")
-    if kind not in DUTY_STEPS:
-        raise ScenarioError(f"{where}: `{name}.step` = {kind!r}; expected one of "
-                            f"{', '.join(DUTY_STEPS)}")
-    kwargs = {k: v for k, v in step.items() if k != "step"}
+    kind, kwargs = _kind(where, name, step, "step", DUTY_STEPS)
     if kind == "repeat":
         _unknown(where, name, kwargs, ("times", "steps"))
         inner = kwargs.get("steps")
@@ -277,13 +282,7 @@ def _cooling(where, table):
 def _design(where, name, table):
     from explorer import cooling as cooling_mod
 
-    if not isinstance(table, dict):
-        raise ScenarioError(f"{where}: `{name}` must be a table, got {table!r}")
-    kind = table.get("design")
-    if kind not in DESIGNS:
-        raise ScenarioError(f"{where}: `{name}.design` = {kind!r}; expected one of "
-                            f"{', '.join(DESIGNS)}")
-    kwargs = {k: v for k, v in table.items() if k != "design"}
+    kind, kwargs = _kind(where, name, table, "design", DESIGNS)
     if kind in ("face_plate", "edge_plate"):
         if "plate" not in kwargs:
             raise ScenarioError(f"{where}: `{name}.plate` is missing; a {kind} needs a "
