@@ -23,6 +23,7 @@ import numpy as np
 
 __all__ = [
     "InputError",
+    "OutputError",
     "CellFileError",
     "Problem",
     "check_positive",
@@ -32,11 +33,59 @@ __all__ = [
     "check_choice",
     "check_integer",
     "check_finite",
+    "clip",
+    "short_repr",
 ]
+
+#: Characters of a value (or a field name) an error message shows before cutting it short.
+VALUE_CHARS = 80
+#: Characters of one error message the command line prints at most.
+MESSAGE_CHARS = 2000
 
 
 class InputError(ValueError):
     """Bad user input: the message names the input, the value and what was expected."""
+
+
+class OutputError(InputError):
+    """A file or folder the tool cannot write: the message names the path and the reason."""
+
+
+def clip(text: str, limit: int = VALUE_CHARS) -> str:
+    """``text`` cut to its first ``limit`` characters, saying how long it was.
+
+    Every value echoed in an error goes through here (via :func:`short_repr`) so a
+    50 MB string in an input file makes a one-line message, not a 50 MB one.
+
+    Examples
+    --------
+    >>> clip("abc")
+    'abc'
+    >>> clip("x" * 1000, 5)
+    'xxxxx... (1000 characters)'
+    """
+    text = str(text)
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit]}... ({len(text)} characters)"
+
+
+def short_repr(value, limit: int = VALUE_CHARS) -> str:
+    """``repr(value)`` for an error message, cut to about ``limit`` characters.
+
+    Strings and bytes are cut before ``repr`` (no copy of a huge value); the
+    count is of the value's own characters (or items, for bytes).
+
+    Examples
+    --------
+    >>> short_repr(2.5)
+    '2.5'
+    >>> short_repr("a" * 100, 3)
+    "'aaa'... (100 characters)"
+    """
+    if isinstance(value, str | bytes) and len(value) > limit:
+        return f"{value[:limit]!r}... ({len(value)} characters)"
+    return clip(repr(value), limit)
 
 
 @dataclass(frozen=True)
@@ -61,10 +110,12 @@ class Problem:
     expected: str
 
     def __str__(self) -> str:
-        where = f"{self.file}: " if self.file else ""
+        where = f"{clip(self.file, 2 * VALUE_CHARS)}: " if self.file else ""
+        field = clip(self.field)
+        expected = clip(self.expected, MESSAGE_CHARS // 2)
         if self.value is _MISSING:
-            return f"{where}`{self.field}`: missing; expected {self.expected}"
-        return f"{where}`{self.field}`: expected {self.expected}, got {self.value!r}"
+            return f"{where}`{field}`: missing; expected {expected}"
+        return f"{where}`{field}`: expected {expected}, got {short_repr(self.value)}"
 
 
 class _Missing:
@@ -91,7 +142,7 @@ class CellFileError(InputError):
     def __init__(self, problems: Iterable[Problem], file: str = ""):
         self.problems = list(problems)
         self.file = file
-        head = f"cell file {file!s} has " if file else "cell definition has "
+        head = f"cell file {clip(file, 2 * VALUE_CHARS)} has " if file else "cell definition has "
         n = len(self.problems)
         lines = [f"{head}{n} problem{'s' if n != 1 else ''}:"]
         lines += [f"  - {p}" for p in self.problems]
@@ -104,13 +155,13 @@ class CellFileError(InputError):
 
 def _as_float(name: str, value) -> float:
     if isinstance(value, bool) or value is None:
-        raise InputError(f"`{name}`: expected a number, got {value!r}")
+        raise InputError(f"`{name}`: expected a number, got {short_repr(value)}")
     if isinstance(value, np.ndarray) and value.ndim == 0:
         value = value.item()
     try:
         out = float(value)
     except (TypeError, ValueError):
-        raise InputError(f"`{name}`: expected a number, got {value!r}") from None
+        raise InputError(f"`{name}`: expected a number, got {short_repr(value)}") from None
     return out
 
 
@@ -118,7 +169,8 @@ def check_finite(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a finite float or raise :class:`InputError`."""
     v = _as_float(name, value)
     if not math.isfinite(v):
-        raise InputError(f"`{name}`: expected a finite number{_u(unit)}, got {value!r}")
+        raise InputError(f"`{name}`: expected a finite number{_u(unit)}, "
+                         f"got {short_repr(value)}")
     return v
 
 
@@ -136,7 +188,7 @@ def check_positive(name: str, value, unit: str = "") -> float:
     """
     v = check_finite(name, value, unit)
     if not v > 0:
-        raise InputError(f"`{name}`: expected a value > 0{_u(unit)}, got {value!r}")
+        raise InputError(f"`{name}`: expected a value > 0{_u(unit)}, got {short_repr(value)}")
     return v
 
 
@@ -144,7 +196,7 @@ def check_nonnegative(name: str, value, unit: str = "") -> float:
     """Return ``value`` as a float if it is finite and >= 0."""
     v = check_finite(name, value, unit)
     if v < 0:
-        raise InputError(f"`{name}`: expected a value >= 0{_u(unit)}, got {value!r}")
+        raise InputError(f"`{name}`: expected a value >= 0{_u(unit)}, got {short_repr(value)}")
     return v
 
 
@@ -155,7 +207,8 @@ def check_fraction(name: str, value, *, open_low: bool = False, open_high: bool 
     hi_ok = v < 1 if open_high else v <= 1
     if not (lo_ok and hi_ok):
         interval = f"{'(' if open_low else '['}0, 1{')' if open_high else ']'}"
-        raise InputError(f"`{name}`: expected a fraction in {interval}, got {value!r}")
+        raise InputError(f"`{name}`: expected a fraction in {interval}, "
+                         f"got {short_repr(value)}")
     return v
 
 
@@ -178,25 +231,27 @@ def check_range(name: str, value, low=None, high=None, unit: str = "",
             want = f"a value {'>=' if inclusive else '>'} {low:g}"
         else:
             want = f"a value {'<=' if inclusive else '<'} {high:g}"
-        raise InputError(f"`{name}`: expected {want}{_u(unit)}, got {value!r}")
+        raise InputError(f"`{name}`: expected {want}{_u(unit)}, got {short_repr(value)}")
     return v
 
 
 def check_integer(name: str, value, low: int | None = None, high: int | None = None) -> int:
     """Return ``value`` as an int if it is a whole number within the optional bounds."""
     if isinstance(value, bool):
-        raise InputError(f"`{name}`: expected a whole number, got {value!r}")
+        raise InputError(f"`{name}`: expected a whole number, got {short_repr(value)}")
     try:
         f = float(value)
     except (TypeError, ValueError):
-        raise InputError(f"`{name}`: expected a whole number, got {value!r}") from None
+        raise InputError(f"`{name}`: expected a whole number, "
+                         f"got {short_repr(value)}") from None
     if not math.isfinite(f) or f != int(f):
-        raise InputError(f"`{name}`: expected a whole number, got {value!r}")
+        raise InputError(f"`{name}`: expected a whole number, got {short_repr(value)}")
     i = int(f)
     if (low is not None and i < low) or (high is not None and i > high):
         lo = "" if low is None else f"{low} <= "
         hi = "" if high is None else f" <= {high}"
-        raise InputError(f"`{name}`: expected a whole number {lo}value{hi}, got {value!r}")
+        raise InputError(f"`{name}`: expected a whole number {lo}value{hi}, "
+                         f"got {short_repr(value)}")
     return i
 
 
@@ -212,8 +267,10 @@ def check_choice(name: str, value, choices: Iterable[str]) -> str:
     if value not in choices:
         import difflib
 
-        close = difflib.get_close_matches(str(value), [str(c) for c in choices], n=1)
+        text = str(value)  # a near miss only for a short value: difflib is slow on a long one
+        close = (difflib.get_close_matches(text, [str(c) for c in choices], n=1)
+                 if len(text) <= VALUE_CHARS else [])
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         valid = ", ".join(repr(c) for c in choices)
-        raise InputError(f"`{name}`: expected one of {valid}, got {value!r}{hint}")
+        raise InputError(f"`{name}`: expected one of {valid}, got {short_repr(value)}{hint}")
     return value
