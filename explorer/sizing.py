@@ -1,29 +1,40 @@
 """Size one cooling design parameter against the design limits.
 
 :func:`size_cooling` finds, for one design parameter (``vary``, any name of
-``cooling.parameters()``: a flow, an inlet temperature, a fin or TIM
-thickness...), the value inside ``bounds`` at the boundary of the region
-where every limit is met: the smallest flow, the highest inlet, the thinnest
-fin that still meets the limits.
+``cooling.parameters()``: a flow, an inlet temperature, a fin or interface
+thickness...), the cheapest value inside ``bounds`` that meets every limit.
+
+What is cheap is declared, not inferred: :data:`DESIGN_PARAMETERS` gives
+every design parameter the direction that costs less (less flow, a warmer
+inlet, a thinner fin or interface layer, fewer channels, a lower interface
+conductivity...), its default bounds with their unit and the resolution its
+answer is rounded to. The margins of the figures only say where the limits
+are met; a spread that grows with flow, say, does not make more flow cheaper.
 
 The search (:func:`find_boundary`) works on the worst scaled margin of all
-limits (positive = every limit met):
+limits (positive = every limit met), on the values the resolution allows
+(whole multiples of it inside the bounds, so every evaluated value is a
+rounded one and every reported margin is that of a run at the answer):
 
-1. evaluate a few points across the bounds (the ends included; geometric
+1. evaluate a few values across the bounds (the ends included; geometric
    spacing when the bounds span a factor of four or more, since thermal
    figures tend to vary with the reciprocal of a flow or a conductance);
-2. decide from these samples which way the margin grows (more flow helps,
-   a warmer inlet hurts — read from the data, not assumed);
-3. starting from the best end, walk to the first sample that fails: that
-   pair brackets the boundary of the feasible region that contains the best
-   end (the conservative choice when the figures are not monotone);
-4. shrink the bracket by false position with the Illinois modification and
-   a bisection safeguard until it is narrower than ``rtol`` of the value, and
-   return the bracket's feasible end, so a re-run at the returned value meets
-   the limits.
+2. walk them from the cheap end toward the expensive end to the first one
+   that meets the limits. If it is the cheap end itself, that is the answer
+   ("limited by the lower/upper bound"); if none does, the answer is the
+   best evaluated value ("none met");
+3. otherwise that value and the cheaper one before it bracket the boundary;
+   shrink the bracket (linear interpolation, rounded to the feasible side,
+   with a bisection safeguard) until the two are one resolution step apart.
+   The answer meets the limits and one step cheaper does not.
 
-Figures that do not change monotonically over the evaluated points are
-reported (``SizingResult.monotone`` and ``.turning_points``), never hidden.
+Figures that do not change monotonically over the evaluated values are
+reported (``SizingResult.monotone`` and ``.turning_points``), and feasible
+values more expensive than a failing stretch are named, never hidden.
+
+A design whose coolant serves several cells one after another is judged as a
+module (:func:`explorer.simulate_module`, when present): the worst cell and
+the cell-to-cell figure of the whole module, every evaluation.
 """
 
 from __future__ import annotations
@@ -44,10 +55,131 @@ log = logging.getLogger(__name__)
 # Changes of a scaled margin smaller than this (1 mK, or 1e-3 of a hydraulic
 # limit) are noise of the time stepping, not a change of trend.
 TREND_ATOL = 1e-3
+BOUND_NAMES = {"lower": "lower bound", "higher": "upper bound"}
 
 
 class SizingError(InputError):
-    """A sizing request that cannot be carried out (bad bounds, failed runs)."""
+    """A sizing request that cannot be carried out (bad bounds, a plate that does not fit,
+    failed runs)."""
+
+
+# --------------------------------------------------------------------------- design parameters
+
+
+def _check_cheaper(cheaper, where) -> str:
+    if cheaper not in ("lower", "higher"):
+        raise InputError(f"{where}: `cheaper` must be 'lower' or 'higher', got {cheaper!r}")
+    return cheaper
+
+
+@dataclass(frozen=True)
+class DesignParameter:
+    """What sizing needs to know about one design parameter.
+
+    Attributes
+    ----------
+    name : str
+        The parameter's name in ``cooling.parameters()``.
+    unit : str
+        Its unit in words (``"L/min"``, ``"degC"``, ``"mm"``...).
+    cheaper : {"lower", "higher"}
+        Which direction costs less.
+    bounds : (float, float)
+        Default sizing bounds, in ``unit``.
+    resolution : float
+        The step the answer is rounded to, in ``unit`` (in the safe direction:
+        the answer meets the limits, one step cheaper does not).
+    label : str
+        A short description for tables and the app.
+    """
+
+    name: str
+    unit: str
+    cheaper: str
+    bounds: tuple[float, float]
+    resolution: float
+    label: str
+
+    def __post_init__(self):
+        _check_cheaper(self.cheaper, self.name)
+        lo, hi = self.bounds
+        if not (lo < hi and self.resolution > 0):
+            raise InputError(f"DesignParameter {self.name!r}: expected lo < hi and a "
+                             f"resolution > 0, got bounds {self.bounds!r}, resolution "
+                             f"{self.resolution!r}")
+
+    @property
+    def cheap_bound(self) -> float:
+        """The default bound that costs less."""
+        return self.bounds[0] if self.cheaper == "lower" else self.bounds[1]
+
+
+def _p(name, unit, cheaper, bounds, resolution, label):
+    return DesignParameter(name, unit, cheaper, (float(bounds[0]), float(bounds[1])),
+                           float(resolution), label)
+
+
+# Cheaper directions: less flow, a warmer coolant or sink, thinner and fewer parts, a lower
+# (cheaper) interface conductivity, fewer plates per module (common practice; the first five
+# are those the design brief names). Bounds and resolutions are typical design ranges for pouch
+# modules (common practice, order of magnitude).
+DESIGN_PARAMETERS: dict[str, DesignParameter] = {p.name: p for p in (
+    # cold plate
+    _p("flow_L_min", "L/min", "lower", (0.1, 20.0), 0.05, "coolant flow through the plate"),
+    _p("inlet_C", "degC", "higher", (5.0, 45.0), 0.5, "coolant inlet temperature"),
+    _p("channels", "channels", "lower", (1, 40), 1, "parallel channels in the plate"),
+    _p("channel_width_mm", "mm", "lower", (2.0, 30.0), 0.5, "channel width"),
+    _p("channel_height_mm", "mm", "lower", (1.0, 10.0), 0.5, "channel height (plate depth)"),
+    _p("rib_mm", "mm", "lower", (0.5, 10.0), 0.5, "rib between channels"),
+    _p("wall_mm", "mm", "lower", (0.5, 5.0), 0.1, "top wall over the channels"),
+    _p("length_mm", "mm", "lower", (100.0, 2000.0), 10.0, "channel flow length"),
+    _p("roughness_um", "um", "higher", (0.0, 50.0), 0.5, "channel roughness (rougher: "
+       "less finishing)"),
+    _p("cells_per_plate", "cells", "higher", (1, 24), 1, "cells one plate serves (more: "
+       "fewer plates)"),
+    _p("bends", "bends", "lower", (0, 10), 1, "return bends along each channel"),
+    _p("pump_efficiency", "1", "lower", (0.2, 0.9), 0.05, "pump efficiency"),
+    # fixed sink, convection
+    _p("temperature_C", "degC", "higher", (5.0, 45.0), 0.5, "sink temperature"),
+    _p("h_W_m2K", "W/(m2 K)", "lower", (5.0, 5000.0), 1.0, "heat transfer coefficient"),
+    _p("conductance_W_mK", "W/(m K)", "lower", (1.0, 1000.0), 0.5,
+       "sink conductance per metre of edge"),
+    _p("ambient_C", "degC", "higher", (5.0, 45.0), 0.5, "ambient temperature"),
+    # interface and fin
+    _p("tim_W_mK", "W/(m K)", "lower", (0.5, 10.0), 0.1, "interface conductivity"),
+    _p("tim_mm", "mm", "lower", (0.05, 3.0), 0.05, "interface layer thickness"),
+    _p("faces_per_plate", "faces", "higher", (1, 2), 1, "cell faces one plate serves"),
+    _p("fin_mm", "mm", "lower", (0.1, 3.0), 0.05, "fin thickness"),
+    _p("fin_contact_W_m2K", "W/(m2 K)", "lower", (200.0, 20000.0), 50.0,
+       "cell face to fin contact coefficient"),
+    _p("foot_mm", "mm", "lower", (1.0, 30.0), 0.5, "contact width on the plate"),
+    # tab cooling
+    _p("conductance_W_K", "W/K", "lower", (0.1, 20.0), 0.05, "tab to busbar conductance"),
+    _p("busbar_C", "degC", "higher", (5.0, 45.0), 0.5, "busbar temperature"),
+)}
+
+
+def design_parameter(name: str) -> DesignParameter:
+    """The :class:`DesignParameter` of ``name``.
+
+    A combined design's prefixed name (``"edge_plate.tim_mm"``) gives the
+    entry of its own name (``"tim_mm"``), renamed.
+
+    >>> design_parameter("flow_L_min").cheaper
+    'lower'
+    >>> design_parameter("edge_plate.tim_mm").name
+    'edge_plate.tim_mm'
+    """
+    if not isinstance(name, str):
+        raise InputError(f"design_parameter: expected a parameter name, got {name!r}")
+    own = name.rsplit(".", 1)[-1]
+    if own not in DESIGN_PARAMETERS:
+        raise InputError(f"design_parameter: no sizing entry for `{name}`; known parameters: "
+                         f"{', '.join(sorted(DESIGN_PARAMETERS))} (or give `cheaper`, `bounds` "
+                         "and `resolution` to size_cooling)")
+    p = DESIGN_PARAMETERS[own]
+    return p if own == name else DesignParameter(name, p.unit, p.cheaper, p.bounds,
+                                                 p.resolution, p.label)
 
 
 # --------------------------------------------------------------------------- the 1-D search
@@ -57,19 +189,44 @@ class SizingError(InputError):
 class Boundary:
     """Outcome of :func:`find_boundary`.
 
-    ``kind`` is "boundary" (a bracket was found and refined), "all_met" (every
-    evaluated value meets the limits: the boundary lies outside the bounds)
-    or "none_met" (no evaluated value does).
+    ``kind`` is "limits" (the limits decide: ``value`` meets them, one step
+    cheaper does not), "lower bound" / "upper bound" (the cheap end meets the
+    limits: the bound decides) or "none met" (no evaluated value does;
+    ``value`` is the best evaluated).
     """
 
     value: float
     feasible: bool
     kind: str
-    increasing: bool  # the margin grows with the value
+    cheaper: str
+    increasing: bool  # the margin grows with the value (read from the samples; for reports)
     values: np.ndarray  # every evaluated value, sorted
     margins: np.ndarray  # the margin at each
-    bracket: tuple[float, float] | None = None  # (feasible, failing) after refinement
-    islands: list = field(default_factory=list)  # other feasible intervals seen (non-monotone)
+    bracket: tuple[float, float] | None = None  # (answer, the failing value one step cheaper)
+    islands: list = field(default_factory=list)  # other feasible stretches seen (not monotone)
+    resolution: float = 0.0
+
+
+class _Lattice:
+    """The values a parameter can take: whole multiples of ``step`` inside ``[lo, hi]``."""
+
+    def __init__(self, lo: float, hi: float, step: float):
+        if not (math.isfinite(step) and step > 0):
+            raise InputError(f"size_cooling: `resolution` must be a number > 0, got {step!r}")
+        self.step = step
+        self.k_lo = math.ceil(lo / step - 1e-9)
+        self.k_hi = math.floor(hi / step + 1e-9)
+        if self.k_hi <= self.k_lo:
+            raise InputError(f"size_cooling: the bounds [{lo:g}, {hi:g}] hold fewer than two "
+                             f"values at resolution {step:g}; widen them or give a finer "
+                             "`resolution`")
+        self.digits = max(0, -math.floor(math.log10(step))) + 3
+
+    def value(self, k: int) -> float:
+        return round(k * self.step, self.digits)
+
+    def index(self, x: float) -> int:
+        return min(max(int(round(x / self.step)), self.k_lo), self.k_hi)
 
 
 def sample_points(lo: float, hi: float, samples: int, spacing: str = "auto") -> np.ndarray:
@@ -106,10 +263,10 @@ def turning_points(values, y, atol: float = TREND_ATOL) -> list[float]:
     return points
 
 
-def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float = 0.005,
-                  spacing: str = "auto", max_evaluations: int = 40,
-                  on_sampled=None, integer: bool = False) -> Boundary:
-    """Find the boundary of the feasible region of ``margin(value) >= 0`` in ``[lo, hi]``.
+def find_boundary(margin, lo: float, hi: float, *, cheaper: str, resolution: float,
+                  samples: int = 5, spacing: str = "auto", max_evaluations: int = 40,
+                  on_sampled=None) -> Boundary:
+    """The cheapest value in ``[lo, hi]`` with ``margin(value) >= 0``, to ``resolution``.
 
     Parameters
     ----------
@@ -117,131 +274,115 @@ def find_boundary(margin, lo: float, hi: float, *, samples: int = 5, rtol: float
         ``margin(value) -> float``, positive where the limits are met.
     lo, hi : float
         The bounds, ``lo < hi``.
+    cheaper : {"lower", "higher"}
+        Which end costs less.
+    resolution : float
+        Only whole multiples of it inside the bounds are evaluated; the answer
+        is one of them and, when the limits decide it, one step cheaper fails.
     samples : int
-        Points evaluated first (ends included), at least 3.
-    rtol : float
-        Relative width of the final bracket (0.005 = 0.5 % of the value).
+        Values evaluated first (ends included), at least 3.
     max_evaluations : int
         Hard cap on evaluations of ``margin``.
     on_sampled : callable, optional
         Called with no arguments once the first samples are evaluated (the
         sizing uses it to narrow the cell positions it runs while refining).
-    integer : bool
-        The value is a whole number (a count of channels or cells): samples
-        are rounded and the bracket is refined to neighbouring integers.
 
     Returns
     -------
     Boundary
-        See the class. In the "boundary" case ``value`` is the feasible end of
-        a bracket narrower than ``rtol * |value|``.
 
     Examples
     --------
-    >>> b = find_boundary(lambda q: 45.0 - (25.0 + 30.0 / q), 0.5, 10.0)
-    >>> round(b.value, 2), b.feasible, b.increasing
-    (1.5, True, True)
+    >>> b = find_boundary(lambda q: 45.0 - (25.0 + 30.0 / q), 0.5, 10.0, cheaper="lower",
+    ...                   resolution=0.05)
+    >>> b.value, b.kind, b.bracket
+    (1.5, 'limits', (1.5, 1.45))
     """
+    _check_cheaper(cheaper, "find_boundary")
     if samples < 3:
         raise InputError(f"size_cooling: `samples` must be >= 3, got {samples!r}")
-    if not rtol > 0:
-        raise InputError(f"size_cooling: `rtol` must be > 0, got {rtol!r}")
-    seen: dict[float, float] = {}
+    lat = _Lattice(lo, hi, resolution)
+    seen: dict[int, float] = {}
 
-    def f(x: float) -> float:
-        x = float(x)
-        if x not in seen:
+    def f(k: int) -> float:
+        if k not in seen:
             if len(seen) >= max_evaluations:
-                raise SizingError(f"size_cooling: no convergence within {max_evaluations} "
-                                  "evaluations; raise `max_evaluations` or `rtol`")
-            value = float(margin(x))
+                raise SizingError(f"size_cooling: no answer within {max_evaluations} "
+                                  "evaluations; raise `max_evaluations` or `resolution`")
+            value = float(margin(lat.value(k)))
             if math.isnan(value):
-                raise SizingError(f"size_cooling: the margin at {x:g} is NaN")
-            seen[x] = value
-        return seen[x]
+                raise SizingError(f"size_cooling: the margin at {lat.value(k):g} is NaN")
+            seen[k] = value
+        return seen[k]
 
-    xs = sample_points(lo, hi, samples, spacing)
-    if integer:
-        xs = np.unique(np.round(xs))
-        if xs.size < 2:
-            raise InputError(f"size_cooling: an integer parameter needs bounds at least 1 "
-                             f"apart, got [{lo:g}, {hi:g}]")
-    ms = np.array([f(x) for x in xs])
+    xs = sample_points(lat.value(lat.k_lo), lat.value(lat.k_hi), samples, spacing)
+    ks = sorted({lat.index(x) for x in xs} | {lat.k_lo, lat.k_hi})
+    for k in ks:
+        f(k)
     if on_sampled is not None:
         on_sampled()
-    # Direction from the data: compare the ends, fall back on the overall slope.
-    increasing = bool(ms[-1] > ms[0]) if ms[-1] != ms[0] else bool(np.polyfit(xs, ms, 1)[0] >= 0)
+    ms = [seen[k] for k in ks]
+    increasing = bool(ms[-1] > ms[0]) if ms[-1] != ms[0] else bool(np.polyfit(ks, ms, 1)[0] >= 0)
+    order = ks if cheaper == "lower" else ks[::-1]  # cheap -> expensive
 
-    def outcome(value, feasible, kind, bracket=None, islands=()):
-        vals = np.array(sorted(seen))
-        return Boundary(float(value), feasible, kind, increasing, vals,
-                        np.array([seen[v] for v in vals]), bracket, list(islands))
+    def outcome(k, kind, bracket=None, islands=()):
+        done = sorted(seen)
+        return Boundary(lat.value(k), seen[k] >= 0.0, kind, cheaper, increasing,
+                        np.array([lat.value(j) for j in done]), np.array([seen[j] for j in done]),
+                        bracket, list(islands), resolution)
 
-    met = ms >= 0.0
-    if met.all():
-        # Everything meets: the cheapest end (the smaller margin) is the answer.
-        return outcome(xs[0] if increasing else xs[-1], True, "all_met")
-    if not met.any():
-        return outcome(xs[int(np.argmax(ms))], False, "none_met")
-
-    # Anchor at the feasible sample nearest the best end; walk toward the cheap side.
-    order = list(range(len(xs)))[::-1] if increasing else list(range(len(xs)))
-    anchor = next(i for i in order if met[i])
-    step = -1 if increasing else 1
-    i = anchor
-    while 0 <= i + step < len(xs) and met[i + step]:
-        i += step
-    a, b = float(xs[i]), float(xs[i + step])  # a meets, b fails
-    islands = _islands(xs, met, skip=(min(i, anchor), max(i, anchor)))
-    a, b = _refine_integer(f, a, b) if integer else _refine(f, seen, a, b, rtol)
-    return outcome(a, True, "boundary", bracket=(a, b), islands=islands)
+    met = [seen[k] >= 0.0 for k in order]
+    if met[0]:
+        return outcome(order[0], BOUND_NAMES[cheaper], islands=_islands(order, met, order[0], lat))
+    if not any(met):
+        return outcome(max(order, key=lambda k: seen[k]), "none met")
+    j = met.index(True)
+    fail, ok = _refine(f, order[j - 1], order[j])
+    return outcome(ok, "limits", bracket=(lat.value(ok), lat.value(fail)),
+                   islands=_islands(order, met, order[j], lat))
 
 
-def _islands(xs, met, skip) -> list[tuple[float, float]]:
-    """Feasible runs of samples other than the one the boundary was taken from."""
+def _islands(order, met, anchor, lat) -> list[tuple[float, float]]:
+    """Feasible stretches of samples other than the one holding ``anchor`` (sorted values)."""
+    pairs = sorted(zip(order, met))
     runs, start = [], None
-    for k, m in enumerate(list(met) + [False]):
+    for n, (_, m) in enumerate(pairs + [(None, False)]):
         if m and start is None:
-            start = k
+            start = n
         if not m and start is not None:
-            if not (start <= skip[0] <= k - 1 or start <= skip[1] <= k - 1):
-                runs.append((float(xs[start]), float(xs[k - 1])))
+            run = [pairs[i][0] for i in range(start, n)]
+            if anchor not in run:
+                runs.append((lat.value(run[0]), lat.value(run[-1])))
             start = None
     return runs
 
 
-def _refine_integer(f, a: float, b: float) -> tuple[float, float]:
-    """Bisect a bracket of whole numbers (``a`` meets, ``b`` fails) to neighbours."""
-    while abs(b - a) > 1:
-        m = float(math.floor(0.5 * (a + b)))
-        m = m if m != a else m + 1.0
-        if f(m) >= 0.0:
-            a = m
-        else:
-            b = m
-    return a, b
+def _refine(f, fail: int, ok: int) -> tuple[int, int]:
+    """Shrink a bracket of lattice indices (``fail`` fails, ``ok`` meets) to neighbours.
 
-
-def _refine(f, seen: dict, a: float, b: float, rtol: float) -> tuple[float, float]:
-    """Shrink the bracket (``a`` meets, ``b`` fails) to ``rtol`` of the value.
-
-    Brent's method locates the root of the margin; the tightest pair of
-    evaluated points around it is then taken from ``seen`` (feasible end
-    nearest the failing side), bisected further if still too wide.
+    Linear interpolation of the margin gives the next index, rounded to the
+    feasible side of the estimated root so the following probe, one step
+    cheaper, usually closes the bracket; a step that does not halve the
+    bracket is followed by a bisection (guaranteed progress).
     """
-    from scipy.optimize import brentq
-
-    lo, hi = sorted((a, b))
-    brentq(f, lo, hi, xtol=1e-12 * (hi - lo), rtol=0.25 * rtol, full_output=True, disp=False)
-    toward_b = 1.0 if b > a else -1.0
-    while True:
-        inside = [x for x in seen if lo <= x <= hi]
-        a = max((x for x in inside if seen[x] >= 0.0), key=lambda x: toward_b * x)
-        fails = [x for x in inside if seen[x] < 0.0 and toward_b * (x - a) > 0]
-        b = min(fails, key=lambda x: toward_b * x)
-        if abs(b - a) <= rtol * max(abs(a), abs(b), 1e-12):
-            return a, b
-        f(0.5 * (a + b))
+    f_fail, f_ok = f(fail), f(ok)
+    bisect = False
+    while abs(ok - fail) > 1:
+        width = abs(ok - fail)
+        lo, hi = sorted((fail, ok))
+        if bisect:
+            k = (fail + ok) // 2
+        else:
+            root = fail + (ok - fail) * (-f_fail) / (f_ok - f_fail)
+            k = math.ceil(root) if ok > fail else math.floor(root)
+        k = min(max(k, lo + 1), hi - 1)
+        m = f(k)
+        if m >= 0.0:
+            ok, f_ok = k, m
+        else:
+            fail, f_fail = k, m
+        bisect = abs(ok - fail) > width / 2
+    return fail, ok
 
 
 # --------------------------------------------------------------------------- sizing a design
@@ -254,26 +395,46 @@ class SizingResult:
     Attributes
     ----------
     value : float
-        The design value found (in the unit of ``vary``).
+        The design value found (in the unit of ``vary``), a whole multiple of
+        ``resolution``: the cheapest that meets every limit, the cheap bound,
+        or (``limited_by == "none met"``) the best value evaluated.
     feasible : bool
         Whether ``value`` meets every limit.
+    limited_by : str
+        "limits" (one resolution step cheaper fails), "lower bound" / "upper
+        bound" (the cheap bound meets the limits) or "none met".
+    resolution, unit, cheaper
+        The step of the answer, its unit, and which direction costs less.
     dataset : xarray.Dataset
-        The run at ``value`` (the cell position with the worst margin).
+        The run at ``value``: the worst cell (of the module run, or of the
+        cell positions run).
+    module : xarray.Dataset or None
+        The whole module run at ``value`` (dimension ``cell``), when the
+        design was judged as a module.
     curve : xarray.Dataset
         Every evaluated value (dimension ``value``) with ``temperature_max_C``,
         ``spread_K``, each limit's figure, each margin and ``worst_margin``.
     margins : dict
-        Limit name -> margin at ``value`` (limit minus figure, positive = met).
+        Limit name -> margin at ``value`` (limit minus figure, positive =
+        met), from the run at ``value`` itself.
     figures : dict
-        Figure name -> value at ``value`` (worst over the checked positions).
+        Figure name -> value at ``value`` (worst over cells).
     hydraulics : dict
-        ``design.hydraulics()`` at ``value`` ({} for designs without a plate).
+        ``design.hydraulics()`` at ``value`` ({} for designs without a plate);
+        the plate's channels only (no manifolds, pipes or connectors).
     increasing : bool
-        Whether larger values help (the margin grows with the value), read from the runs.
+        Whether larger values help (the margin grows with the value), read
+        from the runs; reported, not used to decide what is cheap.
     monotone : bool
         Whether every limit's figure changed monotonically over the evaluated values.
     turning_points : dict
         Figure name -> values where its trend reverses (empty when monotone).
+    position : int or None
+        The worst cell (0 = first along the coolant).
+    cells : int or None
+        Cells in the module run (None when positions were run one at a time).
+    warnings : list of str
+        What a reviewer must see beside the answer (the run at ``value``).
     message : str
         What was found, in words.
     """
@@ -293,35 +454,55 @@ class SizingResult:
     monotone: bool
     turning_points: dict
     message: str
-    kind: str
+    limited_by: str
+    resolution: float
+    unit: str
+    cheaper: str
     position: int | None
     evaluations: int
+    module: xr.Dataset | None = None
+    cells: int | None = None
+    warnings: list = field(default_factory=list)
+
+    @property
+    def kind(self) -> str:
+        """Deprecated name of :attr:`limited_by`."""
+        return self.limited_by
 
     def table(self) -> str:
         """A plain-text table: the design value, each limit with figure and margin, hydraulics."""
-        lines = [f"{self.vary} = {self.value:.4g}  "
-                 f"({'meets the limits' if self.feasible else 'DOES NOT meet the limits'})"]
+        state = "meets the limits" if self.feasible else "DOES NOT meet the limits"
+        lines = [f"{self.vary} = {self.value:.6g} {self.unit}  ({state}; limited by the "
+                 f"{self.limited_by})" if self.limited_by != "none met" else
+                 f"{self.vary} = {self.value:.6g} {self.unit}  ({state}; none met, best value)",
+                 f"bounds {self.bounds[0]:g} to {self.bounds[1]:g} {self.unit}, resolution "
+                 f"{self.resolution:g} {self.unit}, {self.cheaper} values cost less"]
         lines.append(f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  unit")
         for name, margin in self.margins.items():
             lines.append(f"{name:<24}{getattr(self.limits, name):>12.4g}"
-                         f"{self.figures[name]:>12.4g}{margin:>12.4g}  {UNITS[name]}")
+                         f"{self.figures[name]:>12.4g}{margin:>12.4g}  {UNITS.get(name, '')}")
         dp = self.hydraulics.get("pressure_drop_Pa")
         pump = self.hydraulics.get("pump_power_W")
         if dp is not None:
-            lines.append(f"{'pressure drop':<24}{dp / 1e3:>36.4g}  kPa")
+            lines.append(f"{'pressure drop':<24}{dp / 1e3:>36.4g}  kPa (channels only)")
         if pump is not None:
-            lines.append(f"{'pump power':<24}{pump:>36.4g}  W")
-        for warning in self.hydraulics.get("warnings", []) or []:
+            lines.append(f"{'pump power':<24}{pump:>36.4g}  W (channels only)")
+        for warning in [*(self.hydraulics.get("warnings", []) or []), *self.warnings]:
             lines.append(f"warning: {warning}")
-        where = "" if self.position is None else f"; worst cell position {self.position}"
-        lines.append(f"{self.evaluations} runs{where}")
+        if self.cells is not None:
+            where = f"{self.evaluations} module runs of {self.cells} cells"
+            where += "" if self.position is None else f"; worst cell {self.position}"
+        else:
+            where = f"{self.evaluations} runs"
+            where += "" if self.position is None else f"; worst cell position {self.position}"
+        lines.append(where)
         lines.append(self.message)
         return "\n".join(lines)
 
     def __repr__(self) -> str:
         state = "feasible" if self.feasible else "infeasible"
-        return (f"<SizingResult {self.vary}={self.value:.4g} ({state}, {self.evaluations} runs, "
-                f"monotone={self.monotone})>")
+        return (f"<SizingResult {self.vary}={self.value:.6g} {self.unit} ({state}, limited by "
+                f"the {self.limited_by}, {self.evaluations} runs, monotone={self.monotone})>")
 
     def _repr_html_(self) -> str:
         import html
@@ -329,11 +510,12 @@ class SizingResult:
         return f"<pre>{html.escape(self.table())}</pre>"
 
 
-def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, positions=None,
-                 samples: int = 5, rtol: float = 0.005, spacing: str = "auto",
-                 max_evaluations: int = 40, strict: bool = False,
-                 **simulate_kwargs) -> SizingResult:
-    """Find the value of one design parameter at the boundary of the limits.
+def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | None = None, *,
+                 positions=None, samples: int = 5, resolution: float | None = None,
+                 cheaper: str | None = None, spacing: str = "auto", max_evaluations: int = 40,
+                 strict: bool = False, module: bool | None = None, on_evaluation=None,
+                 rtol=None, **simulate_kwargs) -> SizingResult:
+    """Find the cheapest value of one design parameter that meets the limits.
 
     Parameters
     ----------
@@ -345,27 +527,47 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
         From :mod:`explorer.cooling`; ``vary`` must be one of its ``parameters()``.
     vary : str
         The parameter to size, e.g. ``"flow_L_min"``, ``"inlet_C"``, ``"fin_mm"``.
-    bounds : (float, float)
-        ``(lo, hi)`` in the unit of ``vary``, ``lo < hi``.
+    bounds : (float, float), optional
+        ``(lo, hi)`` in the unit of ``vary``, ``lo < hi``; default the
+        parameter's bounds in :data:`DESIGN_PARAMETERS`.
     limits : Limits
         What must be met.
     positions : list of int, optional
-        Cell positions along the coolant path to check (default:
-        ``cooling.positions_to_check()``). All are run at the first samples;
-        only the positions that are worst next to the boundary are run while
-        refining, and the answer is re-checked at every position (searching
-        again with all of them if another one fails there).
-    samples, rtol, spacing, max_evaluations
+        Deprecated. With a module run, restricts the limits check to these
+        cells (the whole module still runs: each cell warms the next one's
+        coolant). Without one, the cell positions along the coolant path to
+        run one at a time (default ``cooling.positions_to_check()``): all at
+        the first samples, the worst next to the boundary while refining, all
+        again at the answer (searching again if another one fails there).
+    samples, spacing, max_evaluations
         Search settings, see :func:`find_boundary`.
+    resolution, cheaper : optional
+        Override the parameter's entry in :data:`DESIGN_PARAMETERS` (needed
+        for a parameter that has none).
     strict : bool
-        Raise :class:`SizingError` when the bounds do not bracket the boundary
-        (all values meet, or none does) instead of reporting it in the result.
+        Raise :class:`SizingError` unless the limits decide the answer (the
+        cheap bound meets them, or nothing does).
+    module : bool, optional
+        Judge the whole module with :func:`explorer.simulate_module` (default:
+        when it is available and the coolant serves more than one cell);
+        False runs cell positions one at a time.
+    on_evaluation : callable, optional
+        Called after every run as ``on_evaluation(value, met, worst_margin)``.
+    rtol
+        No longer used (the answer is refined to ``resolution``); accepted so
+        older callers keep working.
     **simulate_kwargs
         Passed to :func:`explorer.simulate` (electrochemistry, layout, grid...).
 
     Returns
     -------
     SizingResult
+
+    Raises
+    ------
+    SizingError
+        Bad search settings, a plate too short for the cells it serves, or a
+        failed run (naming the value).
 
     Examples
     --------
@@ -375,7 +577,6 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
     >>> plate = cooling.cold_plate("eg50", flow_L_min=4.0, inlet_C=30.0, cells_per_plate=12)
     >>> design = cooling.edge_plate(plate, edge="bottom", fin_mm=1.0)
     >>> res = explorer.size_cooling(cell, duty.discharge(c_rate=1.5), design, vary="fin_mm",
-    ...                             bounds=(0.2, 3.0),
     ...                             limits=explorer.Limits(temperature_max_C=45, spread_K=5),
     ...                             grid=(12, 8))                             # doctest: +SKIP
     >>> print(res.table())                                                  # doctest: +SKIP
@@ -383,64 +584,90 @@ def size_cooling(cell, duty, cooling, vary: str, bounds, limits: Limits, *, posi
     if not isinstance(limits, Limits):
         raise InputError(f"size_cooling: `limits` must be an explorer.Limits, got "
                          f"{type(limits).__name__}")
-    lo, hi = _check_bounds(bounds)
     params = _parameters(cooling)
     if vary not in params:
         raise InputError(f"size_cooling: `vary` = {vary!r} is not a parameter of this cooling "
                          f"design; expected one of {sorted(params)}")
-    if positions is None:
-        positions = list(cooling.positions_to_check()) if hasattr(cooling, "positions_to_check") \
-            else [None]
-    positions = list(positions) or [None]
-    # Both ends must be valid designs (the design validates its own inputs).
-    for end in (lo, hi):
-        _replace(cooling, vary, end)
+    entry = _entry(vary, bounds, cheaper, resolution)
+    lo, hi = _check_bounds(entry.bounds if bounds is None else bounds)
+    lattice = _Lattice(lo, hi, entry.resolution)
+    ends = (lattice.value(lattice.k_lo), lattice.value(lattice.k_hi))
+    for end in ends:  # both ends must be valid designs that fit the cells they serve
+        _check_fits(cell, _replace(cooling, vary, end), vary, end)
     limits.check_reachable(_coldest_sink(cooling, vary, lo, hi), where="size_cooling")
+    as_module = _use_module(cooling, module)
+    positions, cells = _positions(cooling, positions, as_module)
 
-    runner = _Runner(cell, duty, cooling, vary, limits, positions, simulate_kwargs)
-    integer = _is_integer(cooling, vary, lo, hi)
-    search = {"samples": samples, "rtol": rtol, "spacing": spacing,
-              "max_evaluations": max_evaluations, "integer": integer}
+    runner = _Runner(cell, duty, cooling, vary, limits, positions, simulate_kwargs,
+                     as_module=as_module, cells=cells, on_evaluation=on_evaluation)
+    search = {"cheaper": entry.cheaper, "resolution": entry.resolution, "samples": samples,
+              "spacing": spacing, "max_evaluations": max_evaluations}
     outcome = find_boundary(runner.margin, lo, hi, on_sampled=runner.choose_positions, **search)
     if len(runner.active) < len(positions):
         outcome = _recheck_all_positions(runner, outcome, lo, hi, search)
-    if strict and outcome.kind != "boundary":
-        raise SizingError(_message(outcome, vary, lo, hi, runner, limits))
-    worst = runner.worst(outcome.value, positions)
-    design = _replace(cooling, vary, outcome.value)
+    if strict and outcome.kind != "limits":
+        raise SizingError(_message(outcome, vary, lo, hi, runner, limits, entry))
+    return _result(runner, outcome, entry, (lo, hi))
+
+
+def _result(runner, outcome, entry, bounds) -> SizingResult:
+    vary, limits, value = runner.vary, runner.limits, outcome.value
+    worst = runner.worst(value, runner.positions)
     curve = runner.curve()
+    curve.attrs.update({"cheaper": entry.cheaper, "resolution": entry.resolution,
+                        "limited_by": outcome.kind, "unit": entry.unit})
     names = ["temperature_max_C", "spread_K", *limits.names()]
     tps = {name: turning_points(curve["value"].values, curve[name].values)
            for name in dict.fromkeys(names) if name in curve}
+    ds = runner.dataset(value, worst["position"])
+    module_ds, position = None, worst["position"]
+    if runner.as_module:
+        module_ds, position = ds, _worst_cell(ds, runner.cells)
+        ds = ds.isel(cell=position) if position is not None else ds
     return SizingResult(
-        vary=vary, bounds=(lo, hi), limits=limits, value=outcome.value, feasible=worst["met"],
-        dataset=runner.dataset(outcome.value, worst["position"]), curve=curve, margins=worst["margins"],
-        figures=worst["figures"], hydraulics=runner.hydraulics(outcome.value), design=design,
-        increasing=outcome.increasing, monotone=not any(tps.values()), turning_points={k: v for k, v in tps.items() if v},
-        message=_message(outcome, vary, lo, hi, runner, limits, tps),
-        kind=outcome.kind, position=worst["position"], evaluations=runner.runs)
+        vary=vary, bounds=bounds, limits=limits, value=value, feasible=worst["met"],
+        dataset=ds, curve=curve, margins=worst["margins"], figures=worst["figures"],
+        hydraulics=runner.hydraulics(value), design=_replace(runner.cooling, vary, value),
+        increasing=outcome.increasing, monotone=not any(tps.values()),
+        turning_points={k: v for k, v in tps.items() if v},
+        message=_message(outcome, vary, *bounds, runner, limits, entry, tps),
+        limited_by=outcome.kind, resolution=entry.resolution, unit=entry.unit,
+        cheaper=entry.cheaper, position=position, evaluations=runner.runs, module=module_ds,
+        cells=runner.module_cells if runner.as_module else None, warnings=worst["warnings"])
+
+
+def _entry(vary, bounds, cheaper, resolution) -> DesignParameter:
+    """The parameter's sizing entry, with the caller's overrides."""
+    try:
+        entry = design_parameter(vary)
+    except InputError:
+        if cheaper is None or resolution is None or bounds is None:
+            raise InputError(f"size_cooling: `{vary}` has no entry in DESIGN_PARAMETERS; give "
+                             "`cheaper` ('lower' or 'higher'), `bounds` and `resolution`") \
+                from None
+        entry = DesignParameter(vary, parameter_unit(vary), "lower", (0.0, 1.0), 1.0, vary)
+    cheaper = _check_cheaper(entry.cheaper if cheaper is None else cheaper, "size_cooling")
+    if resolution is not None:
+        try:
+            resolution = float(resolution)
+        except (TypeError, ValueError):
+            raise InputError(f"size_cooling: `resolution` must be a number > 0, got "
+                             f"{resolution!r}") from None
+        if not (math.isfinite(resolution) and resolution > 0):
+            raise InputError(f"size_cooling: `resolution` must be a number > 0, got "
+                             f"{resolution!r}")
+    return DesignParameter(entry.name, entry.unit, cheaper, entry.bounds,
+                           entry.resolution if resolution is None else resolution, entry.label)
 
 
 def _recheck_all_positions(runner, outcome, lo, hi, search):
-    """After refining at one position, confirm the answer at all; search again if it fails."""
+    """After refining at some positions, confirm the answer at all; search again if it fails."""
     runner.active = list(runner.positions)
     if runner.margin(outcome.value) >= 0.0 or not outcome.feasible:
         return outcome
     log.info("another cell position is worse at %g; searching again with all positions",
              outcome.value)
     return find_boundary(runner.margin, lo, hi, **search)
-
-
-def _is_integer(cooling, vary, lo, hi) -> bool:
-    """A whole-number parameter: integer bounds and value, and the design refuses a fraction."""
-    current = cooling.parameters()[vary]
-    if not all(float(v).is_integer() for v in (lo, hi, current)) or hi - lo < 1:
-        return False
-    try:
-        cooling.replace(**{vary: lo + 0.5})
-    except (ValueError, TypeError):
-        return True
-    return False
 
 
 def _check_bounds(bounds) -> tuple[float, float]:
@@ -471,6 +698,25 @@ def _replace(cooling, vary, value):
                          f"{exc}") from None
 
 
+def _check_fits(cell, design, vary, value) -> None:
+    """A plate too short for the cells it serves is an error for sizing, not a warning."""
+    fits = getattr(design, "check_fits", None)
+    if fits is None:
+        return
+    try:
+        problems = fits(cell)
+    except SizingError:
+        raise
+    except InputError as exc:
+        raise SizingError(f"size_cooling: at `{vary}` = {value:g} the design does not fit the "
+                          f"cells it serves: {exc}") from None
+    if isinstance(problems, str):
+        problems = [problems]
+    if problems:
+        raise SizingError(f"size_cooling: at `{vary}` = {value:g} the design does not fit the "
+                          f"cells it serves: {'; '.join(map(str, problems))}")
+
+
 def _coldest_sink(cooling, vary, lo, hi) -> float:
     """Coldest coolant inlet, ambient or busbar temperature over the bounds (degC)."""
     temps = [v for k, v in cooling.parameters().items()
@@ -480,27 +726,94 @@ def _coldest_sink(cooling, vary, lo, hi) -> float:
     return min(temps) if temps else -math.inf
 
 
+def _cells_in_series(cooling) -> int:
+    if hasattr(cooling, "cells_in_series"):
+        return int(cooling.cells_in_series())
+    if hasattr(cooling, "positions_to_check"):
+        return max(cooling.positions_to_check()) + 1
+    return 1
+
+
+def _use_module(cooling, module) -> bool:
+    if module is False:
+        return False
+    if module is True and _module_simulator() is None:
+        raise InputError("size_cooling: `module=True` needs explorer.simulate_module, which "
+                         "this version does not have")
+    return _module_simulator() is not None and (module is True or _cells_in_series(cooling) > 1)
+
+
+def _positions(cooling, positions, as_module):
+    """(positions run one at a time, cells the module check keeps or None for all)."""
+    if as_module:
+        if positions is None:
+            return [None], None
+        n = _cells_in_series(cooling)
+        cells = sorted({int(p) for p in positions})
+        if not cells or cells[0] < 0 or cells[-1] >= n:
+            raise InputError(f"size_cooling: `positions` = {positions!r}; expected cells "
+                             f"0..{n - 1} of the module")
+        return [None], cells
+    if positions is None:
+        positions = list(cooling.positions_to_check()) if hasattr(cooling, "positions_to_check") \
+            else [None]
+    return list(positions) or [None], None
+
+
 def _simulate(cell, duty, **kwargs):
     from explorer.simulate import simulate
 
     return simulate(cell, duty, **kwargs)
 
 
-def _call_simulate(cell, duty, design, position, kwargs):
+# A stand-in may be set here (tests); otherwise explorer.simulate_module once it exists.
+_simulate_module = None
+
+
+def _module_simulator():
+    if _simulate_module is not None:
+        return _simulate_module
+    try:
+        from explorer.module import simulate_module
+    except ImportError:
+        return None
+    return simulate_module
+
+
+def _call_simulate(cell, duty, design, position, kwargs, as_module=False):
     kw = dict(kwargs)
+    if as_module:
+        kw.pop("position", None)  # the module runs every cell
+        return _module_simulator()(cell, duty, cooling=design, **kw)
     if position is not None:
         kw["position"] = position
     return _simulate(cell, duty, cooling=design, **kw)
 
 
+def _worst_cell(ds, cells=None) -> int | None:
+    """The cell of a module run with the hottest point (among ``cells``)."""
+    if "cell" not in ds.dims:
+        return None
+    name = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
+    peak = ds[name].max("time")
+    ids = list(range(ds.sizes["cell"]))
+    if cells is not None:
+        peak, ids = peak.isel(cell=cells), list(cells)
+    return ids[int(peak.argmax("cell"))]
+
+
 class _Runner:
     """Runs the simulation per (value, position), caches figures, scores margins."""
 
-    def __init__(self, cell, duty, cooling, vary, limits, positions, simulate_kwargs):
+    def __init__(self, cell, duty, cooling, vary, limits, positions, simulate_kwargs, *,
+                 as_module=False, cells=None, on_evaluation=None):
         self.cell, self.duty, self.cooling, self.vary = cell, duty, cooling, vary
         self.limits, self.positions = limits, list(positions)
         self.active = list(positions)
         self.kwargs = simulate_kwargs
+        self.as_module, self.cells = as_module, cells
+        self.module_cells = _cells_in_series(cooling) if as_module else None
+        self.on_evaluation = on_evaluation
         self.results: dict = {}  # (value, position) -> limits check
         self.datasets: dict = {}  # (value, position) -> Dataset, pruned as the search goes
         self._hydraulics: dict = {}
@@ -514,21 +827,38 @@ class _Runner:
             self._hydraulics[value] = dict(h or {})
         return self._hydraulics[value]
 
+    def _where(self, position) -> str:
+        return "module run" if self.as_module else f"position {position}"
+
     def _simulate(self, value, position):
         design = _replace(self.cooling, self.vary, value)
         try:
-            ds = _call_simulate(self.cell, self.duty, design, position, self.kwargs)
+            ds = _call_simulate(self.cell, self.duty, design, position, self.kwargs,
+                                self.as_module)
         except InputError:
             raise
         except Exception as exc:  # report which design failed, not where inside
             raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
-                              f"(position {position}) failed: {exc}") from exc
+                              f"({self._where(position)}) failed: {exc}") from exc
         self.runs += 1
         if ds.attrs.get("status") == "failed":
             raise SizingError(f"size_cooling: the run at `{self.vary}` = {value:g} "
-                              f"(position {position}) failed: "
+                              f"({self._where(position)}) failed: "
                               f"{ds.attrs.get('status_message', '')}")
         return ds
+
+    def _check(self, ds, value) -> dict:
+        """The limits check of one run; a limit the run cannot judge stops the sizing."""
+        if self.cells is not None and "cell" in ds.dims:
+            ds = ds.isel(cell=self.cells)
+        check = self.limits.check(ds, self.hydraulics(value))
+        missing = [n for n in self.limits.names() if check["margins"].get(n) is None]
+        if missing:
+            reasons = check.get("reasons", {})
+            raise SizingError("size_cooling: cannot size against "
+                              + "; ".join(f"`{n}` ({reasons.get(n, 'not evaluated')})"
+                                          for n in missing))
+        return check
 
     def run(self, value, position) -> dict:
         """The limits check of one run (simulated once, then cached)."""
@@ -538,9 +868,12 @@ class _Runner:
             recorded = run_hydraulics(ds)
             if recorded is not None:
                 self._hydraulics.setdefault(value, recorded)
-            self.results[key] = self.limits.check(ds, self.hydraulics(value))
+            check = self._check(ds, value)
+            self.results[key] = check
             self.datasets[key] = ds
             self._prune()
+            if self.on_evaluation is not None:
+                self.on_evaluation(value, bool(check["met"]), float(check["worst_margin"]))
         return self.results[key]
 
     def dataset(self, value, position):
@@ -572,15 +905,17 @@ class _Runner:
         figures = {}
         for check in checks.values():
             for name, v in check["figures"].items():
-                if v is not None:
+                if isinstance(v, (int, float)) and not isinstance(v, bool):
                     figures[name] = max(v, figures.get(name, -math.inf))
                 else:
                     figures.setdefault(name, None)
         margins = {name: getattr(self.limits, name) - figures[name] for name in self.limits.names()}
         scaled = self.limits.scaled_margins(margins)
         worst_position = min(checks, key=lambda p: checks[p]["worst_margin"])
+        warnings = list(dict.fromkeys(w for c in checks.values() for w in c.get("warnings", [])))
         return {"figures": figures, "margins": margins, "scaled": min(scaled.values()),
-                "met": min(scaled.values()) >= 0.0, "position": worst_position}
+                "met": min(scaled.values()) >= 0.0, "position": worst_position,
+                "warnings": warnings}
 
     def margin(self, value) -> float:
         return self.worst(value)["scaled"]
@@ -596,8 +931,8 @@ class _Runner:
         values = sorted({v for v, _ in self.results})
         rows = {v: self.worst(v, self.positions) for v in values}
         met = [rows[v]["met"] for v in values]
-        edges = [v for k, v in enumerate(values)
-                 if (k > 0 and met[k] != met[k - 1]) or (k + 1 < len(values) and met[k] != met[k + 1])]
+        edges = [v for k, v in enumerate(values) if (k > 0 and met[k] != met[k - 1])
+                 or (k + 1 < len(values) and met[k] != met[k + 1])]
         nearest = edges or sorted(values, key=lambda v: abs(rows[v]["scaled"]))[:2]
         self.active = sorted({rows[v]["position"] for v in nearest},
                              key=self.positions.index)
@@ -621,18 +956,18 @@ class _Runner:
             if all(c is None for c in col):
                 continue
             data[name] = ("value", np.array([np.nan if c is None else c for c in col]),
-                          {"units": UNITS[name], "long_name": name.replace("_", " ")})
+                          {"units": UNITS.get(name, "1"), "long_name": name.replace("_", " ")})
         for name in self.limits.names():
             data[f"margin_{name}"] = ("value", np.array([r["margins"][name] for r in rows]),
-                                      {"units": UNITS[name].replace("degC", "K"),
+                                      {"units": UNITS.get(name, "1").replace("degC", "K"),
                                        "long_name": f"margin on {name} (positive = met)"})
         data["worst_margin"] = ("value", np.array([r["scaled"] for r in rows]),
                                 {"units": "1", "long_name": "worst scaled margin "
                                  "(K for temperatures, fraction for hydraulics)"})
         data["feasible"] = ("value", np.array([int(r["met"]) for r in rows], dtype="int8"),
                             {"units": "1", "long_name": "all limits met (1) or not (0)"})
-        data["position"] = ("value", np.array([-1 if r["position"] is None else r["position"]
-                                               for r in rows]),
+        data["position"] = ("value", np.array([self._worst_position(v, r) for v, r in
+                                               zip(values, rows)]),
                             {"units": "1", "long_name": "worst cell position (-1: single)"})
         data["positions_checked"] = ("value", np.array([len(ran[v]) for v in values]),
                                      {"units": "1", "long_name": "cell positions run"})
@@ -640,15 +975,23 @@ class _Runner:
                                                    {"long_name": self.vary,
                                                     "units": parameter_unit(self.vary)})})
         curve.attrs.update({"vary": self.vary, "positions": json.dumps(common),
+                            "module": int(self.as_module),
                             **{f"limit_{k}": v for k, v in self.limits.as_dict().items()}})
         return curve
+
+    def _worst_position(self, value, row) -> int:
+        if self.as_module:
+            ds = self.datasets.get((value, None))
+            cell = None if ds is None else _worst_cell(ds, self.cells)
+            return -1 if cell is None else cell
+        return -1 if row["position"] is None else row["position"]
 
 
 def parameter_unit(name: str) -> str:
     """The CF-style unit of a design parameter, read from its name's suffix."""
     for suffix, unit in (("_L_min", "L min-1"), ("_W_m2K", "W m-2 K-1"), ("_W_mK", "W m-1 K-1"),
-                         ("_W_K", "W K-1"), ("_mm", "mm"), ("_kPa", "kPa"), ("_C", "degC"),
-                         ("_K", "K"), ("_W", "W")):
+                         ("_W_K", "W K-1"), ("_mm", "mm"), ("_um", "um"), ("_kPa", "kPa"),
+                         ("_C", "degC"), ("_K", "K"), ("_W", "W")):
         if name.endswith(suffix):
             return unit
     return "1"
@@ -666,36 +1009,38 @@ def run_hydraulics(ds) -> dict | None:
     return value if isinstance(value, dict) else None
 
 
-def _message(outcome, vary, lo, hi, runner, limits, tps=None) -> str:
-    value = outcome.value
+def _message(outcome, vary, lo, hi, runner, limits, entry, tps=None) -> str:
+    value, unit = outcome.value, entry.unit
     worst = runner.worst(value, runner.positions)
-    figs = ", ".join(f"{n} {worst['figures'][n]:.4g} {UNITS[n]} (limit {getattr(limits, n):g}, "
-                     f"margin {worst['margins'][n]:+.3g})" for n in limits.names())
-    if outcome.kind == "none_met":
-        msg = (f"no value of `{vary}` in [{lo:g}, {hi:g}] meets the limits; the best evaluated "
-               f"is {value:.4g}: {figs}")
-    elif outcome.kind == "all_met":
-        end = "lo" if outcome.increasing else "hi"
-        msg = (f"every evaluated value of `{vary}` in [{lo:g}, {hi:g}] meets the limits; the "
-               f"boundary lies beyond the {end} bound, so the bound {value:.4g} is returned "
-               f"(widen the bounds to find the boundary): {figs}")
+    figs = ", ".join(f"{n} {worst['figures'][n]:.4g} {UNITS.get(n, '')} (limit "
+                     f"{getattr(limits, n):g}, margin {worst['margins'][n]:+.3g})"
+                     for n in limits.names())
+    if outcome.kind == "none met":
+        msg = (f"none met: no value of `{vary}` in [{lo:g}, {hi:g}] {unit} meets the limits; "
+               f"the best evaluated is {value:.6g} {unit}: {figs}")
+    elif outcome.kind == "limits":
+        _, fail = outcome.bracket
+        msg = (f"`{vary}` = {value:.6g} {unit} is the cheapest value that meets the limits "
+               f"({entry.cheaper} values cost less); one step cheaper, {fail:.6g} {unit}, does "
+               f"not: {figs}")
+        if value == (max if entry.cheaper == "lower" else min)(outcome.values):
+            msg += "; it sits on the expensive bound (nothing beyond it was tried)"
     else:
-        a, b = outcome.bracket
-        better = "larger" if outcome.increasing else "smaller"
-        msg = (f"`{vary}` = {value:.4g} meets the limits ({better} values help); "
-               f"{b:.4g} does not: {figs}")
+        msg = (f"the limits are met at the cheap end: `{vary}` = {value:.6g} {unit}, limited by "
+               f"the {outcome.kind} (the limits would allow cheaper; widen the bounds to find "
+               f"how much): {figs}")
     if outcome.islands:
-        spans = ", ".join(f"{a:.4g}..{b:.4g}" for a, b in outcome.islands)
-        msg += f"; the limits are also met at {spans} (separate region, not monotone)"
+        spans = ", ".join(f"{a:.6g}..{b:.6g}" for a, b in outcome.islands)
+        msg += f"; the limits are also met at {spans} {unit} (separate region, not monotone)"
     sheet = getattr(runner.cell, "temperature_max_C", None)
     for name in ("temperature_max_C", "core_temperature_max_C"):
-        value = getattr(limits, name)
-        if value is not None and sheet is not None and value > sheet:
-            msg += (f"; note: `{name}` = {value:g} degC is above the cell's data-sheet maximum "
+        limit = getattr(limits, name)
+        if limit is not None and sheet is not None and limit > sheet:
+            msg += (f"; note: `{name}` = {limit:g} degC is above the cell's data-sheet maximum "
                     f"{sheet:g} degC")
     if tps:
         bad = {k: v for k, v in tps.items() if v}
         if bad:
             msg += "; not monotone: " + ", ".join(
-                f"{k} turns at {', '.join(f'{x:.4g}' for x in v)}" for k, v in bad.items())
+                f"{k} turns at {', '.join(f'{x:.6g}' for x in v)}" for k, v in bad.items())
     return msg

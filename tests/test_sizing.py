@@ -137,8 +137,10 @@ class Counter:
 
 @pytest.fixture
 def standin(monkeypatch):
+    """The stand-in simulation, cell positions one at a time (no module run)."""
     counter = Counter()
     monkeypatch.setattr(sizing, "_simulate", counter)
+    monkeypatch.setattr(sizing, "_module_simulator", lambda: None)
     return counter
 
 
@@ -148,45 +150,57 @@ DUTY = duty.discharge(c_rate=1.0, end_time_s=1200.0)
 
 
 def test_boundary_of_a_reciprocal_law():
-    # margin = 45 - (25 + 30/q) is zero at q = 1.5 (algebra)
-    b = find_boundary(lambda q: 45.0 - (25.0 + 30.0 / q), 0.5, 10.0, rtol=0.005)
-    assert b.kind == "boundary" and b.feasible and b.increasing
-    assert 1.5 <= b.value <= 1.5 * 1.005
-    a, fail = b.bracket
-    assert fail < a and abs(a - fail) <= 0.005 * a
+    # margin = 45 - (25 + 31/q) is zero at q = 1.55 (algebra); on steps of 0.02 L/min the
+    # cheapest value that meets is 1.56 and one step less, 1.54, fails
+    b = find_boundary(lambda q: 45.0 - (25.0 + 31.0 / q), 0.5, 10.0, cheaper="lower",
+                      resolution=0.02)
+    assert b.kind == "limits" and b.feasible and b.increasing
+    assert b.value == pytest.approx(1.56)
+    assert b.bracket[1] == pytest.approx(1.54)
 
 
 def test_boundary_of_a_decreasing_law():
-    # a warmer inlet hurts: margin = 45 - (T + 10) is zero at T = 35
-    b = find_boundary(lambda T: 45.0 - (T + 10.0), 10.0, 40.0, rtol=0.005)
-    assert not b.increasing
-    assert 35.0 * (1 - 0.005) <= b.value <= 35.0
+    # a warmer inlet is cheaper and hurts: margin = 45 - (T + 10) is zero at T = 35;
+    # on steps of 0.3 K the warmest that meets is 34.8 and 35.1 fails
+    b = find_boundary(lambda T: 45.0 - (T + 10.0), 10.0, 40.0, cheaper="higher", resolution=0.3)
+    assert not b.increasing and b.kind == "limits"
+    assert b.value == pytest.approx(34.8)
+    assert b.bracket[1] == pytest.approx(35.1)
 
 
 def test_all_met_returns_the_cheap_end_and_none_met_the_best():
-    b = find_boundary(lambda q: 10.0 - 1.0 / q, 1.0, 5.0)
-    assert b.kind == "all_met" and b.value == 1.0 and b.feasible
-    b = find_boundary(lambda q: -10.0 + 1.0 * q, 1.0, 5.0)
-    assert b.kind == "none_met" and b.value == 5.0 and not b.feasible
+    b = find_boundary(lambda q: 10.0 - 1.0 / q, 1.0, 5.0, cheaper="lower", resolution=0.1)
+    assert b.kind == "lower bound" and b.value == 1.0 and b.feasible
+    b = find_boundary(lambda q: 10.0 - 1.0 / q, 1.0, 5.0, cheaper="higher", resolution=0.1)
+    assert b.kind == "upper bound" and b.value == 5.0 and b.feasible
+    b = find_boundary(lambda q: -10.0 + 1.0 * q, 1.0, 5.0, cheaper="lower", resolution=0.1)
+    assert b.kind == "none met" and b.value == 5.0 and not b.feasible
 
 
-def test_non_monotone_margin_takes_the_region_of_the_best_sample():
-    # feasible only on [2, 4]: both ends fail; the bracket starts at the best sample
-    b = find_boundary(lambda x: 1.0 - (x - 3.0) ** 2, 0.0, 10.0, spacing="linear")
-    assert b.kind == "boundary" and b.feasible
-    assert 4.0 * (1 - 0.005) <= b.value <= 4.0
+def test_non_monotone_margin_takes_the_cheapest_region():
+    # feasible only on [2, 4]: both ends fail; the walk from the cheap end finds its edge.
+    # Steps of 0.15: 1.95 fails, 2.1 meets; 3.9 meets, 4.05 fails (algebra)
+    def margin(x):
+        return 1.0 - (x - 3.0) ** 2
+
+    b = find_boundary(margin, 0.0, 10.0, cheaper="lower", resolution=0.15, spacing="linear")
+    assert b.kind == "limits" and b.value == pytest.approx(2.1)
     assert turning_points(b.values, b.margins) != []
+    b = find_boundary(margin, 0.0, 10.0, cheaper="higher", resolution=0.15, spacing="linear")
+    assert b.kind == "limits" and b.value == pytest.approx(3.9)
 
 
 def test_separate_feasible_region_is_reported():
-    # met on [0, 1.2] and on [7.5, 10] (from the samples at 0, 2.5, 5, 7.5, 10)
+    # met on [0, 1.2] and on [7.4, 10] (from the samples at 0, 2.5, 5, 7.5, 10)
     def margin(x):
         return max(1.2 - x, x - 7.4, -1.0)
 
-    b = find_boundary(margin, 0.0, 10.0, spacing="linear")
-    assert b.kind == "boundary" and b.islands
-    lo, hi = b.islands[0]
-    assert lo == 0.0
+    b = find_boundary(margin, 0.0, 10.0, cheaper="lower", resolution=0.1, spacing="linear")
+    assert b.kind == "lower bound" and b.value == 0.0
+    assert b.islands == [(7.5, 10.0)]
+    b = find_boundary(margin, 0.0, 10.0, cheaper="higher", resolution=0.1, spacing="linear")
+    assert b.kind == "upper bound" and b.value == 10.0
+    assert b.islands == [(0.0, 0.0)]
 
 
 def test_turning_points_and_flat_noise():
@@ -203,12 +217,19 @@ def test_sample_points_geometric_for_wide_bounds():
 
 
 def test_search_bad_settings():
+    kw = {"cheaper": "lower", "resolution": 0.1}
     with pytest.raises(InputError, match="samples"):
-        find_boundary(lambda x: x, 0.0, 1.0, samples=2)
+        find_boundary(lambda x: x, 0.0, 1.0, samples=2, **kw)
     with pytest.raises(InputError, match="spacing"):
-        find_boundary(lambda x: x, 0.0, 1.0, spacing="log")
+        find_boundary(lambda x: x, 0.0, 1.0, spacing="log", **kw)
     with pytest.raises(InputError, match="geometric"):
-        find_boundary(lambda x: x, -1.0, 1.0, spacing="geometric")
+        find_boundary(lambda x: x, -1.0, 1.0, spacing="geometric", **kw)
+    with pytest.raises(InputError, match="cheaper"):
+        find_boundary(lambda x: x, 0.0, 1.0, cheaper="less", resolution=0.1)
+    with pytest.raises(InputError, match="fewer than two values"):
+        find_boundary(lambda x: x, 0.01, 0.09, **kw)
+    with pytest.raises(InputError, match="resolution"):
+        find_boundary(lambda x: x, 0.0, 1.0, cheaper="lower", resolution=0.0)
 
 # --------------------------------------------------------------------------- Limits
 
@@ -242,18 +263,24 @@ def test_limits_check_margins():
 
 
 def test_size_flow_is_self_consistent(standin):
-    """Re-running at the value meets the limits; 5 % less flow does not (common practice)."""
+    """Re-running at the value meets the limits; one resolution step less flow does not
+    (self-consistency of sizing: common practice)."""
     lim = Limits(temperature_max_C=40.0, spread_K=5.0)
     plate = StandInPlate()
     res = size_cooling(STANDIN_CELL, DUTY, plate, "flow_L_min", (0.2, 10.0), lim)
-    assert res.feasible and res.kind == "boundary" and res.monotone and res.increasing
+    assert res.feasible and res.limited_by == "limits" and res.monotone and res.increasing
+    assert res.resolution == 0.05 and res.unit == "L/min" and res.cheaper == "lower"
+    assert res.value == pytest.approx(round(res.value / 0.05) * 0.05)  # on the resolution
     for k in plate.positions_to_check():
         ok = lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(flow_L_min=res.value),
                                         position=k))
         assert ok["met"]
     less = lim.check(standin_simulate(STANDIN_CELL, DUTY,
-                                      plate.replace(flow_L_min=0.95 * res.value)))
+                                      plate.replace(flow_L_min=res.value - 0.05)))
     assert not less["met"]
+    # the margins reported are those of the run at the answer itself
+    at = lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(flow_L_min=res.value)))
+    assert res.margins["temperature_max_C"] == pytest.approx(at["margins"]["temperature_max_C"])
     # the last cell (warmest coolant) is the worst; the curve spans the bounds
     assert res.position == plate.positions_to_check()[-1]
     assert res.curve["value"].min() == 0.2 and res.curve["value"].max() == 10.0
@@ -269,18 +296,19 @@ def test_size_inlet_is_self_consistent(standin):
     lim = Limits(temperature_max_C=40.0)
     plate = StandInPlate(flow_L_min=4.0)
     res = size_cooling(STANDIN_CELL, DUTY, plate, "inlet_C", (10.0, 35.0), lim)
-    assert res.feasible and res.kind == "boundary" and not res.increasing
+    assert res.feasible and res.limited_by == "limits" and not res.increasing
+    assert res.cheaper == "higher"
     assert lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(inlet_C=res.value)))["met"]
-    warmer = plate.replace(inlet_C=1.05 * res.value)
+    warmer = plate.replace(inlet_C=res.value + res.resolution)
     assert not lim.check(standin_simulate(STANDIN_CELL, DUTY, warmer))["met"]
 
 
 def test_size_whole_number_parameter(standin):
     """A count (channels) is sized to neighbouring whole numbers: n meets, n - 1 does not."""
-    lim = Limits(temperature_max_C=40.0)
+    lim = Limits(temperature_max_C=42.0)
     plate = StandInPlate(flow_L_min=2.0)
     res = size_cooling(STANDIN_CELL, DUTY, plate, "channels", (2.0, 40.0), lim)
-    assert res.feasible and res.kind == "boundary"
+    assert res.feasible and res.limited_by == "limits"
     assert float(res.value).is_integer()
     worst = plate.positions_to_check()[-1]
     assert lim.check(standin_simulate(STANDIN_CELL, DUTY, plate.replace(channels=res.value),
@@ -293,9 +321,9 @@ def test_size_whole_number_parameter(standin):
 def test_size_infeasible_reports_best(standin):
     lim = Limits(temperature_max_C=26.0)
     res = size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (0.5, 2.0), lim)
-    assert not res.feasible and res.kind == "none_met"
+    assert not res.feasible and res.limited_by == "none met"
     assert res.value == 2.0
-    assert "no value of `flow_L_min`" in res.message
+    assert "none met" in res.message and "no value of `flow_L_min`" in res.message
     assert res.margins["temperature_max_C"] < 0
 
 
@@ -305,8 +333,8 @@ def test_size_all_met_and_strict(standin):
     assert "above the cell's data-sheet maximum 55" in res.message
     lim = Limits(temperature_max_C=54.0)
     res = size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (2.0, 8.0), lim)
-    assert res.feasible and res.kind == "all_met" and res.value == 2.0
-    assert "widen the bounds" in res.message
+    assert res.feasible and res.limited_by == "lower bound" and res.value == 2.0
+    assert "widen the bounds" in res.message and "limited by the lower bound" in res.table()
     with pytest.raises(sizing.SizingError, match="widen the bounds"):
         size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (2.0, 8.0), lim,
                      strict=True)
@@ -379,13 +407,15 @@ def _real_met(van, design, lim):
 
 
 def test_real_fin_sizing_is_self_consistent(van):
-    """Re-run at the value meets the limits; a 5 % thinner fin does not (common practice)."""
+    """Re-run at the value meets the limits; one resolution step (0.05 mm) thinner does not
+    (self-consistency of sizing: common practice)."""
     lim = Limits(temperature_max_C=40.0)
     design = _plate_design()
     res = size_cooling(van, REAL_DUTY, design, "fin_mm", (0.2, 3.0), lim, **REAL)
-    assert res.feasible and res.kind == "boundary", res.message
+    assert res.feasible and res.limited_by == "limits", res.message
+    assert res.resolution == 0.05
     assert _real_met(van, design.replace(fin_mm=res.value), lim)
-    assert not _real_met(van, design.replace(fin_mm=0.95 * res.value), lim)
+    assert not _real_met(van, design.replace(fin_mm=res.value - res.resolution), lim)
     # the hydraulic figures of the found design are reported
     assert res.hydraulics["pressure_drop_Pa"] > 0 and res.hydraulics["pump_power_W"] > 0
     assert res.dataset.attrs["status"] == "completed"
@@ -394,18 +424,20 @@ def test_real_fin_sizing_is_self_consistent(van):
 
 
 def test_real_inlet_sizing_is_self_consistent(van):
-    """Re-run at the value meets the limits; a 5 % warmer inlet does not (common practice)."""
+    """Re-run at the value meets the limits; one resolution step (0.5 K) warmer does not
+    (self-consistency of sizing: common practice)."""
     lim = Limits(temperature_max_C=45.0)
     design = _plate_design()
     res = size_cooling(van, REAL_DUTY, design, "inlet_C", (10.0, 40.0), lim, **REAL)
-    assert res.feasible and res.kind == "boundary", res.message
+    assert res.feasible and res.limited_by == "limits" and res.cheaper == "higher", res.message
     assert _real_met(van, design.replace(inlet_C=res.value), lim)
-    assert not _real_met(van, design.replace(inlet_C=1.05 * res.value), lim)
+    assert not _real_met(van, design.replace(inlet_C=res.value + res.resolution), lim)
 
 
 def test_real_flow_sizing_is_self_consistent():
-    """Four LFP cells in series on a face plate's coolant: the smallest flow meets the limit at
-    every cell position and 5 % less flow does not (self-consistency; common practice)."""
+    """Four LFP cells in series on a face plate's coolant, run one position at a time
+    (module=False): the smallest flow meets the limit at every cell position and one
+    resolution step less does not (self-consistency; common practice)."""
     from explorer import cooling
     from explorer.cell import load_cell
     from explorer.simulate import simulate
@@ -417,12 +449,13 @@ def test_real_flow_sizing_is_self_consistent():
     kw = {**REAL, "grid": (4, 6), "start_temperature_C": 35.0}
     lim = Limits(temperature_max_C=38.0)
     d = duty.discharge(c_rate=2.0)
-    res = size_cooling(cell, d, design, "flow_L_min", (0.05, 2.0), lim, **kw)
-    assert res.feasible and res.kind == "boundary", res.message
+    res = size_cooling(cell, d, design, "flow_L_min", (0.05, 2.0), lim, module=False,
+                       resolution=0.01, **kw)
+    assert res.feasible and res.limited_by == "limits", res.message
     at = design.replace(flow_L_min=res.value)
     for k in design.positions_to_check():
         assert lim.check(simulate(cell, d, at, position=k, **kw))["met"]
-    less = design.replace(flow_L_min=0.95 * res.value)
+    less = design.replace(flow_L_min=res.value - 0.01)
     assert not lim.check(simulate(cell, d, less, position=res.position, **kw))["met"]
     # the warmest coolant is at the last cell along the flow
     assert res.position == design.positions_to_check()[-1]
@@ -434,7 +467,8 @@ def test_real_coolant_energy_balance_at_the_design(van):
     Transfer, 6th ed. 2007, eq. 8.34: q = m_dot c_p (T_m,o - T_m,i))."""
     lim = Limits(temperature_max_C=40.0)
     design = _plate_design()
-    res = size_cooling(van, REAL_DUTY, design, "fin_mm", (0.2, 3.0), lim, rtol=0.02, **REAL)
+    res = size_cooling(van, REAL_DUTY, design, "fin_mm", (0.2, 3.0), lim, resolution=0.1,
+                       **REAL)
     ds = res.dataset
     hyd = res.hydraulics
     rate = hyd["mass_flow_kg_s"] * hyd["specific_heat_J_kgK"]  # one cell on the plate
@@ -453,6 +487,7 @@ def test_size_reports_non_monotone_figures(monkeypatch):
         return ds.assign(temperature_max=ds["temperature_max"] + bump)
 
     monkeypatch.setattr(sizing, "_simulate", wavy)
+    monkeypatch.setattr(sizing, "_module_simulator", lambda: None)
     res = size_cooling(STANDIN_CELL, DUTY, StandInPlate(), "flow_L_min", (0.5, 10.0),
                        Limits(temperature_max_C=40.0), spacing="linear", samples=9)
     assert not res.monotone
