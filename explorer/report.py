@@ -17,9 +17,7 @@ import datetime as _dt
 import html
 import json
 import logging
-import os
 import sys
-import tempfile
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 
@@ -392,33 +390,21 @@ def write_report(ds_or_list, path, inputs=None, title: str = DEFAULT_TITLE, limi
     sizing : the result of explorer.size_cooling, optional
         Adds the sizing curve.
     """
+    from explorer.fileio import atomic_write_text
+    from explorer.validators import OutputError
+
     path = Path(path)
     if path.is_dir():
-        raise ValueError(f"write_report: `path` {str(path)!r} is a folder; expected a file name such as "
-                         "report.html")
+        raise OutputError(f"write_report: `path` {str(path)!r} is a folder; expected a file name such as "
+                          "report.html")
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
-        raise ValueError(f"write_report: the folder {str(folder)!r} of `path` does not exist; create it "
-                         "first or choose another path")
+        raise OutputError(f"write_report: the folder {str(folder)!r} of `path` does not exist; create it "
+                          "first or choose another path")
     text = render_report(ds_or_list, inputs=inputs, title=title, limits=limits, sizing=sizing)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.chmod(tmp, _default_mode())  # mkstemp makes it private; a report is meant to be shared
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    atomic_write_text(path, text)
     logger.info("report written to %s", path)
     return path
-
-
-def _default_mode() -> int:
-    """The mode a newly created file gets under the current umask (0o644 under the usual 022)."""
-    mask = os.umask(0)
-    os.umask(mask)
-    return 0o666 & ~mask
 
 
 def cmd_report(path: str, out: str | None = None) -> int:

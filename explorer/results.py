@@ -43,8 +43,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -200,26 +198,11 @@ def _total(ds, running, rate, scale=1.0) -> float:
 
 def save(ds: xr.Dataset, path) -> Path:
     """Write ``ds`` to netCDF atomically (temporary file in the same folder, then rename)."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    os.close(fd)
-    try:
-        out = ds.copy()
-        out.attrs = {k: _attr(v) for k, v in ds.attrs.items()}
-        out.to_netcdf(tmp, engine="netcdf4")
-        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes it private; results are shared files
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    from explorer.fileio import atomic_write
 
-
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
+    out = ds.copy()
+    out.attrs = {k: _attr(v) for k, v in ds.attrs.items()}
+    return atomic_write(path, lambda tmp: out.to_netcdf(tmp, engine="netcdf4"), parents=True)
 
 
 def _attr(v):

@@ -396,3 +396,126 @@ def test_energy_with_cooling_designs(design):
     assert abs(model.stored_J(x) - e0 + rejected - generated) / generated < 1e-9
     if model.has_coolant:
         assert model.coolant_outlet_C(x) > model.coolant_inlet_C(x) >= 25.0
+
+
+class TestThroughThickness:
+    """Face temperatures and the hottest/coldest point through the thickness.
+
+    Reference: the plane wall with uniform generation and convection on its
+    faces (Incropera & DeWitt, Fundamentals of Heat and Mass Transfer, §3.5,
+    eqs. 3.42-3.46 form): with half-thickness (or, one face insulated, the
+    full thickness) ``d``, ``T_s = T_inf + q''' d / h`` and
+    ``T(x) = T_s + q''' (d**2 - x**2) / (2 k)``, x from the adiabatic plane.
+    Uniform generation and face cooling with adiabatic edges leave no in-plane
+    gradient, so every point of the face is this wall.
+    """
+
+    grid = Grid(W, H, 4, 6)
+    q_W = 12.0
+    q3 = q_W / (W * H * L)
+    h, T_inf, k = 150.0, 20.0, 0.6
+
+    def _steady(self, faces):
+        model = PlaneThermal(make_cell(k_through=self.k), self.grid, Sinks(faces=faces))
+        x = model.steady_state(uniform(self.grid, self.q_W))
+        return model, x, model.through_thickness_C(x, uniform(self.grid, self.q_W))
+
+    def test_two_faces_cooled(self):
+        model, x, tt = self._steady({f: FaceSink(self.h, self.T_inf) for f in ("front", "back")})
+        d = L / 2
+        surface = self.T_inf + self.q3 * d / self.h
+        core = surface + self.q3 * d**2 / (2 * self.k)
+        mean = surface + self.q3 * d**2 / (3 * self.k)  # the parabola's mean over [0, d]
+        assert np.allclose(model.temperature_C(x), mean, rtol=1e-9)
+        for face in ("front", "back"):
+            assert np.allclose(tt[face], surface, rtol=1e-9)
+        assert np.allclose(tt["hottest"], core, rtol=1e-9)
+        assert np.allclose(tt["coldest"], surface, rtol=1e-9)
+        flux = model.face_flux_W_m2(x)
+        assert np.allclose(flux["front"], self.q3 * d, rtol=1e-9)  # half the heat each way
+
+    def test_one_face_cooled_free_face_is_the_core(self):
+        model, x, tt = self._steady({"back": FaceSink(self.h, self.T_inf)})
+        surface = self.T_inf + self.q3 * L / self.h
+        core = surface + self.q3 * L**2 / (2 * self.k)
+        assert np.allclose(tt["back"], surface, rtol=1e-9)
+        assert np.allclose(tt["front"], core, rtol=1e-9)  # the insulated face
+        assert np.allclose(tt["hottest"], core, rtol=1e-9)
+        assert np.allclose(tt["coldest"], surface, rtol=1e-9)
+        # the same as the core estimate from the local generation
+        heat = uniform(self.grid, self.q_W)
+        assert np.allclose(model.core_temperature_C(x, heat), core, rtol=1e-9)
+
+    def test_heat_entering_makes_the_faces_hottest(self):
+        """A cold cell between warm sinks, no generation: the faces are warmer than the mean
+        and the coldest point is inside (the parabola's vertex)."""
+        model = PlaneThermal(make_cell(), self.grid,
+                             Sinks(faces={f: FaceSink(self.h, 40.0) for f in ("front", "back")}))
+        x, _ = model.step(model.initial_state(20.0), np.zeros(self.grid.shape), 30.0)
+        tt = model.through_thickness_C(x, np.zeros(self.grid.shape))
+        mean = model.temperature_C(x)
+        assert np.all(tt["front"] > mean) and np.all(tt["back"] > mean)
+        assert np.allclose(tt["hottest"], tt["front"])
+        assert np.all(tt["coldest"] < mean)
+        # symmetric parabola: mean - vertex = (face - mean) / 2 (mean of x**2 over [0, d] is d**2/3)
+        assert np.allclose(mean - tt["coldest"], (tt["front"] - mean) / 2, rtol=1e-9)
+
+    def test_face_flux_adds_up_to_the_sink_flows(self):
+        """Fin on the back, coolant under the fin's edge, a face sink in front: the face
+        fluxes times the area are what the model reports into the front sink, and what
+        enters the fin (at steady state: what the fin's edge sink takes)."""
+        model = PlaneThermal(make_cell(), Grid(W, H, 8, 12), _full_sinks(0))
+        grid = model.grid
+        x = model.steady_state(uniform(grid, 8.0), {"negative": 0.5, "positive": 0.8})
+        flux = model.face_flux_W_m2(x)
+        flows = model.heat_flows_W(x)
+        area = grid.cell_area_m2
+        assert flux["front"].sum() * area == pytest.approx(flows["front"], rel=1e-9)
+        assert flux["back"].sum() * area == pytest.approx(flows["back"] + flows["bottom"],
+                                                          rel=1e-9)
+
+    def test_face_flux_into_a_coolant_on_both_faces(self):
+        faces = {f: FaceSink(300.0, 0.0) for f in ("front", "back")}
+        sinks = Sinks(faces=faces, coolant=CoolantStream(("front", "back"), "+y", 2.0, 20.0))
+        model = PlaneThermal(make_cell(), self.grid, sinks)
+        x = model.steady_state(uniform(self.grid, self.q_W))
+        flux = model.face_flux_W_m2(x)
+        total = (flux["front"] + flux["back"]).sum() * self.grid.cell_area_m2
+        assert total == pytest.approx(model.heat_flows_W(x)["front+back"], rel=1e-9)
+        assert total == pytest.approx(self.q_W, rel=1e-9)
+
+    @pytest.mark.parametrize("faces", [("front", "back"), ("back",)])
+    def test_lumped_model_agrees(self, faces):
+        """The single-temperature model gives the same wall (a steady state by one long step)."""
+        from explorer.inplane.lumped import LumpedThermal
+
+        sinks = Sinks(faces={f: FaceSink(self.h, self.T_inf) for f in faces})
+        cell = make_cell(k_through=self.k)
+        lumped = LumpedThermal(cell, sinks)
+        heat = np.full((1, 1), self.q_W)
+        x, _ = lumped.step(lumped.initial_state(20.0), heat, 1e12)
+        tt = lumped.through_thickness_C(x, heat)
+        d = L / len(faces)
+        surface = self.T_inf + self.q3 * d / self.h
+        assert tt["coldest"][0, 0] == pytest.approx(surface, rel=1e-6)
+        assert tt["hottest"][0, 0] == pytest.approx(surface + self.q3 * d**2 / (2 * self.k),
+                                                    rel=1e-6)
+
+
+def test_slab_profile_reproduces_its_inputs():
+    """The parabola returned has the given mean and face fluxes (checked on a fine sampling
+    of the profile rebuilt from the faces and the vertex)."""
+    from explorer.inplane.throughplane import slab_profile
+
+    k, Lz = 0.8, 0.012
+    for T_m, qf, qb in ((30.0, 400.0, 150.0), (30.0, -200.0, 50.0), (25.0, -80.0, -120.0)):
+        p = slab_profile(T_m, qf, qb, Lz, k)
+        # rebuild T(z) = a + b z + c z^2 from the front face, its slope and the curvature
+        c = -(qf + qb) / (2 * k * Lz)
+        z = np.linspace(0.0, Lz, 20001)
+        T = float(p["front"]) + qf / k * z + c * z**2
+        assert np.trapezoid(T, z) / Lz == pytest.approx(T_m, abs=1e-6)
+        assert T[-1] == pytest.approx(float(p["back"]), abs=1e-9)
+        assert -k * (T[-1] - T[-2]) / (z[1] - z[0]) == pytest.approx(qb, rel=1e-3)
+        assert float(p["max"]) == pytest.approx(T.max(), abs=1e-6)
+        assert float(p["min"]) == pytest.approx(T.min(), abs=1e-6)

@@ -457,9 +457,6 @@ class InputsFileError(ValueError):
 
 def save_inputs(values: dict, path) -> Path:
     """Write the inputs to ``path`` (``.json`` or ``.toml``) atomically and return the path."""
-    import os
-    import tempfile
-
     path = Path(path)
     values = {**defaults(), **values}
     unknown = sorted(set(values) - set(FIELDS))
@@ -476,18 +473,9 @@ def save_inputs(values: dict, path) -> Path:
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
         raise InputsFileError(f"{path}: the folder {str(folder)!r} does not exist")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        mask = os.umask(0)
-        os.umask(mask)
-        os.chmod(tmp, 0o666 & ~mask)  # mkstemp makes it private; the file is meant to be shared
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return path
+    from explorer.fileio import atomic_write_text
+
+    return atomic_write_text(path, text)
 
 
 def _toml_value(value) -> str:

@@ -21,6 +21,7 @@ from explorer.inplane.throughplane import (
     core_surface_factor,
     face_depths,
     mean_to_face_resistance,
+    slab_profile,
 )
 
 
@@ -43,6 +44,8 @@ class LumpedThermal:
         edge_length = {"bottom": g.width_m, "top": g.width_m, "left": g.height_m,
                        "right": g.height_m}
         self._stream = None
+        self._area = area
+        self._faces_of = {}  # path name -> [(face, share of its heat flow through that face)]
         # through-plane: the lumped temperature is the stack's mean, so each face path gets
         # the mean-to-face resistance d/(3k) in series (explorer.inplane.throughplane)
         self._d = (0.0, 0.0)
@@ -62,10 +65,12 @@ class LumpedThermal:
                 h = _mean(f.h_W_m2K)
                 self._paths.append((name, area / (1.0 / h + r_face[name]) if h > 0 else 0.0,
                                     _mean(f.temperature_C)))
+                self._faces_of[name] = [(name, 1.0)]
             for name, e in sinks.edges.items():
                 G = _mean(e.conductance_W_mK) * edge_length[name]
                 if e.layer == "fin" and fin is not None:
                     G = 1.0 / (1.0 / G + (1.0 / fin.contact_W_m2K + r_face[fin.face]) / area)
+                    self._faces_of[name] = [(fin.face, 1.0)]  # into the fin through its face
                 self._paths.append((name, G, _mean(e.temperature_C)))
             for name, t in sinks.tabs.items():
                 self._paths.append((name, t.conductance_W_K, t.temperature_C))
@@ -76,6 +81,9 @@ class LumpedThermal:
             self._paths = [p for p in self._paths if p[0] not in stream.sink_names]
             G = sum(p[1] for p in on)
             self._paths.append((stream.name, G * _stream_factor(G, stream), stream.inlet_C))
+            # one coolant temperature for all its sinks: they share its flow as their conductances
+            self._faces_of[stream.name] = [(face, share * p[1] / G) for p in on if G > 0
+                                           for face, share in self._faces_of.get(p[0], [])]
         self._names = [p[0] for p in self._paths]
         self._G = np.array([p[1] for p in self._paths], dtype=float)
         self._Ts = np.array([p[2] for p in self._paths], dtype=float)
@@ -109,6 +117,30 @@ class LumpedThermal:
         i = self._names.index(self._stream.name)
         into_stream = self._G[i] * (float(state[0]) - self._Ts[i])
         return self._stream.inlet_C + self._outlet_rise_per_W * into_stream
+
+    def face_flux_W_m2(self, state) -> dict:
+        """Heat flux leaving the cell through each face (W m-2), as 1 x 1 arrays."""
+        flows = self._G * (float(state[0]) - self._Ts)
+        out = {face: 0.0 for face in FACES}
+        for name, w in zip(self._names, flows.tolist(), strict=True):
+            for face, share in self._faces_of.get(name, []):
+                out[face] += share * w / self._area
+        return {face: np.full((1, 1), q) for face, q in out.items()}
+
+    def through_thickness_C(self, state, heat_W) -> dict:
+        """Face temperatures and the extremes through the thickness (degC), 1 x 1 arrays.
+
+        As :meth:`explorer.inplane.thermal.PlaneThermal.through_thickness_C`:
+        the parabolic profile through the thickness from the one (mean)
+        temperature and the face heat flows, the hottest point never below the
+        core estimate. There is no in-plane variation to see.
+        """
+        flux = self.face_flux_W_m2(state)
+        prof = slab_profile(self.temperature_C(state), flux["front"], flux["back"],
+                            self._thickness, self._k_through)
+        core = self.core_temperature_C(state, heat_W)
+        return {"front": prof["front"], "back": prof["back"],
+                "hottest": np.maximum(prof["max"], core), "coldest": prof["min"]}
 
     def _q_volumetric(self, heat_W) -> float:
         return float(np.sum(heat_W)) / (self.grid.area_m2 * self._thickness)

@@ -207,6 +207,9 @@ class PlaneThermal:
         self._N = grid.nx * grid.ny
         self._flows: list[_SinkFlow] = []
         self._attach = {}  # face/edge sink name -> (kind, nodes, G, sink temperature)
+        # what each cell face exchanges with, per cell volume: face -> (G W/K, other node
+        # indices or None, fixed temperature or None); for the surface temperatures
+        self._face_links = {}
         sys = _System()
         self._cell_nodes = sys.nodes(self._N)
         capacity = [np.full(self._N, self.heat_capacity_J_per_K / self._N)]
@@ -283,6 +286,7 @@ class PlaneThermal:
         Gc = self._face_conductance("sinks.fin.contact_W_m2K", face_u[fin.face],
                                     self._r_face[fin.face])
         sys.link(self._cell_nodes, self._fin_nodes, Gc)
+        self._face_links[fin.face] = (Gc, self._fin_nodes, None)
         rho_c_t = fin.density_kg_m3 * fin.specific_heat_J_kgK * fin.thickness_m
         return np.full(self._N, rho_c_t * self.grid.cell_area_m2)
 
@@ -297,6 +301,8 @@ class PlaneThermal:
             r = np.zeros(self.grid.shape) if on_fin else self._r_face[face]
             G = self._face_conductance(f"sinks.faces[{face!r}].h_W_m2K", face_h[face], r)
             self._attach[face] = ("face", nodes, G, T)
+            if not on_fin:
+                self._face_links[face] = (G, None, T)
 
     def _add_edges(self, sinks: Sinks) -> None:
         """Edge sinks, in series with the half control volume next to the edge."""
@@ -427,6 +433,12 @@ class PlaneThermal:
             sys.add(bnd[0], bnd[-1], -float(n_up))
         sys.s_terms.append((np.array([bnd[0]]), np.array([float(inlet)])))
         self._flows.append(_SinkFlow(stream.name, nodes, G, m_nodes=m, Gm=Gk))
+        if kind == "face":  # a cell face on the coolant exchanges with its strip's coolant
+            for k, name in enumerate(names):
+                link = self._face_links.get(name)
+                if link is not None and link[1] is None:
+                    self._face_links[name] = (link[0], m[strip[k * self._N:(k + 1) * self._N]],
+                                              None)
         return {"sink": stream.name, "sinks": names, "strip_nodes": m, "boundary_nodes": bnd,
                 "capacity_rate_W_K": C, "direction": stream.direction}
 
@@ -543,6 +555,42 @@ class PlaneThermal:
     def core_temperature_C(self, state, heat_W) -> np.ndarray:
         """Core (hottest through-plane) temperature per grid cell: mean + core - mean."""
         return self.temperature_C(state) + np.asarray(heat_W, dtype=float) * self._core_mean
+
+    def face_flux_W_m2(self, state) -> dict:
+        """Heat flux leaving the cell through each face (W m-2), ``grid.shape`` arrays.
+
+        Into the face sink, the fin sheet or the coolant, from ``state``; zero
+        where a face has no heat path.
+        """
+        T = state[: self._N]
+        out = {}
+        for face in FACES:
+            link = self._face_links.get(face)
+            if link is None:
+                out[face] = np.zeros(self.grid.shape)
+                continue
+            G, other, fixed = link
+            T_other = state[other] if other is not None else fixed
+            out[face] = (G * (T - T_other) / self.grid.cell_area_m2).reshape(self.grid.shape)
+        return out
+
+    def through_thickness_C(self, state, heat_W) -> dict:
+        """Temperatures through the thickness at each point of the face (degC).
+
+        ``front`` and ``back``: the face temperatures; ``hottest`` and
+        ``coldest``: the extremes through the thickness, faces included. The
+        faces follow from the mean field and the face heat flows with the
+        parabolic profile of :func:`explorer.inplane.throughplane.slab_profile`;
+        ``hottest`` also takes in the core estimate of
+        :meth:`core_temperature_C` (from the local generation), whichever is
+        higher, so the hottest point never reads below the core estimate.
+        """
+        flux = self.face_flux_W_m2(state)
+        prof = tp.slab_profile(self.temperature_C(state), flux["front"], flux["back"],
+                               self.thickness_m, self.k_through_W_mK)
+        core = self.core_temperature_C(state, heat_W)
+        return {"front": prof["front"], "back": prof["back"],
+                "hottest": np.maximum(prof["max"], core), "coldest": prof["min"]}
 
     # -- coolant outputs --
     @property

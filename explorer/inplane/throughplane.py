@@ -81,3 +81,57 @@ def core_mean_factor(d_front, d_back, thickness_m: float, k_through_W_mK: float)
     ``sum_f (d_f / L) d_f**2 / (6 k)``.
     """
     return (d_front**3 + d_back**3) / (6.0 * k_through_W_mK * thickness_m)
+
+
+def slab_profile(mean_C, q_front_W_m2, q_back_W_m2, thickness_m: float,
+                 k_through_W_mK: float) -> dict:
+    """Face temperatures and extremes of the through-plane profile at each point of the face.
+
+    The 1-D slab of thickness ``L`` with a uniform volumetric source (Incropera &
+    DeWitt, plane wall with generation, §3.5) has a parabolic profile; with the
+    source taken as what leaves through the two faces, ``(q_front + q_back) / L``
+    (generation less what is stored or carried in the plane, both spread
+    through the thickness like the generation), the parabola is fixed by its
+    mean and the two face fluxes:
+
+    * ``T_front = T_mean - (2 q_front - q_back) L / (6 k)``
+    * ``T_back  = T_mean - (2 q_back - q_front) L / (6 k)``
+    * the vertex, ``q_front L / (q_front + q_back)`` below the front face,
+      lies inside the slab when both faces carry heat the same way; it is
+      ``T_front + q_front**2 L / (2 k (q_front + q_back))``.
+
+    Symmetric cooling at steady state gives the mean-to-face difference
+    ``q''' L**2 / 12 k`` and core-to-face ``q''' L**2 / 8 k``; one face cooled
+    gives ``q''' L**2 / 3 k`` and ``q''' L**2 / 2 k`` with the free face at the
+    core temperature -- the same numbers as :func:`core_mean_factor` and
+    :func:`mean_to_face_resistance`.
+
+    Parameters
+    ----------
+    mean_C : scalar or ndarray
+        Through-thickness mean temperature.
+    q_front_W_m2, q_back_W_m2 : scalar or ndarray
+        Heat flux leaving the cell through each face (negative when heat enters).
+    thickness_m, k_through_W_mK : float
+        Stack thickness and through-plane conductivity.
+
+    Returns
+    -------
+    dict
+        ``front``, ``back`` (face temperatures), ``max`` and ``min`` (hottest
+        and coldest point through the thickness), arrays broadcast together.
+    """
+    T, qf, qb = np.broadcast_arrays(*(np.asarray(v, dtype=float)
+                                      for v in (mean_C, q_front_W_m2, q_back_W_m2)))
+    scale = thickness_m / (6.0 * k_through_W_mK)
+    front = T - (2.0 * qf - qb) * scale
+    back = T - (2.0 * qb - qf) * scale
+    total = qf + qb
+    inside = qf * qb > 0.0  # same sign, both nonzero: the vertex is between the faces
+    safe = np.where(inside, total, 1.0)
+    vertex = front + 3.0 * scale * qf**2 / safe  # q_f^2 L / (2 k (q_f + q_b))
+    hot = np.maximum(front, back)
+    cold = np.minimum(front, back)
+    return {"front": front, "back": back,
+            "max": np.where(inside & (total > 0), np.maximum(hot, vertex), hot),
+            "min": np.where(inside & (total < 0), np.minimum(cold, vertex), cold)}
