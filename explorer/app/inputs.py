@@ -24,6 +24,8 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from explorer.validators import InputError
+
 logger = logging.getLogger(__name__)
 
 __all__ = [
@@ -99,6 +101,10 @@ FIELDS: dict[str, Field] = {
                         when={"cooling": _PLATES}, group="Cooling"),
     "inlet_C": Field("Coolant inlet", "number", 25.0, "°C", -30.0, 80.0,
                      when={"cooling": _PLATES}, group="Cooling"),
+    "cells_per_plate": Field("Cells sharing the coolant", "number", 1, "", 1.0, 200.0,
+                             when={"cooling": _PLATES}, group="Cooling",
+                             help="cells one after another along the plate's coolant path; more "
+                                  "than one runs the whole module"),
     "plate_face": Field("Plate face", "choice", "back", when={"cooling": ("face_plate",)},
                         group="Cooling", choices=(("back", "back"), ("front", "front"),
                                                   ("both", "both faces"))),
@@ -132,6 +138,10 @@ FIELDS: dict[str, Field] = {
     "limit_temperature_C": Field("Max temperature", "number", 45.0, "°C", -40.0, 150.0,
                                  group="Limits"),
     "limit_spread_K": Field("Max spread", "number", 5.0, "K", 0.0, 100.0, True, group="Limits"),
+    "limit_cell_to_cell_K": Field("Max cell-to-cell difference, 0 = none", "number", 0.0, "K",
+                                  0.0, 100.0, group="Limits",
+                                  help="largest difference between the cells' mean temperatures "
+                                       "at one time (a module figure)"),
     "size_vary": Field("Size", "choice", "flow_L_min", group="Sizing", choices=(
         ("flow_L_min", "coolant flow (L/min)"), ("inlet_C", "coolant inlet (°C)"),
         ("fin_mm", "fin thickness (mm)"), ("tim_W_mK", "TIM conductivity (W/(m K))"),
@@ -259,6 +269,9 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
         errors["limit_temperature_C"] = (
             f"the limit {float(values['limit_temperature_C']):g} °C is not above the coldest coolant/"
             f"ambient ({min(sinks):g} °C); no cooling can meet it")
+    if applies("cells_per_plate", values) and not float(values["cells_per_plate"]).is_integer():
+        errors["cells_per_plate"] = (f"expected a whole number of cells, got "
+                                     f"{float(values['cells_per_plate']):g}")
     if float(values["size_low"]) >= float(values["size_high"]):
         errors["size_high"] = (f"expected `to` > `from` ({float(values['size_low']):g}), got "
                                f"{float(values['size_high']):g}")
@@ -319,11 +332,19 @@ class Call:
     limits: object
     inputs: dict
 
-    def run(self, progress=None):
-        """Run ``explorer.simulate`` with these objects (blocking) and return the Dataset."""
-        from explorer import simulate
+    @property
+    def module(self) -> bool:
+        """Whether more than one cell shares the coolant path (the run is the whole module)."""
+        v = self.inputs
+        return applies("cells_per_plate", v) and int(float(v["cells_per_plate"])) > 1
 
-        return simulate(self.cell, self.duty, self.cooling, progress=progress, **self.simulate_kwargs)
+    def run(self, progress=None):
+        """Run ``explorer.simulate`` (one cell) or ``explorer.simulate_module`` (the cells sharing
+        the coolant path) with these objects (blocking) and return the Dataset."""
+        import explorer
+
+        run = explorer.simulate_module if self.module else explorer.simulate
+        return run(self.cell, self.duty, self.cooling, progress=progress, **self.simulate_kwargs)
 
     def size(self, vary: str, bounds: tuple[float, float], **kwargs):
         """Run ``explorer.size_cooling`` for ``vary`` within ``bounds`` against :attr:`limits`."""
@@ -343,7 +364,7 @@ class Call:
         return None
 
 
-class InputsError(ValueError):
+class InputsError(InputError):
     """The inputs are not valid; ``.errors`` maps field name -> message."""
 
     def __init__(self, errors: dict[str, str], where: str = "app inputs"):
@@ -394,10 +415,18 @@ def inputs_to_call(values: dict, check_files: bool = True) -> Call:
             "start_soc": float(values["start_soc_pct"]) / 100.0,
             "start_temperature_C": float(values["start_temperature_C"]),
         },
-        limits=Limits(temperature_max_C=float(values["limit_temperature_C"]),
-                      spread_K=float(values["limit_spread_K"])),
+        limits=_make_limits(Limits, values),
         inputs=values,
     )
+
+
+def _make_limits(limits_class, v: dict):
+    """``explorer.Limits`` from the limit inputs; a cell-to-cell limit of 0 means none."""
+    extra = {}
+    if float(v["limit_cell_to_cell_K"]) > 0.0:
+        extra["cell_to_cell_K"] = float(v["limit_cell_to_cell_K"])
+    return limits_class(temperature_max_C=float(v["limit_temperature_C"]),
+                        spread_K=float(v["limit_spread_K"]), **extra)
 
 
 GRID_CELLS = {"coarse": 200, "fine": 6000}  # target control volumes; "standard" = simulate's own
@@ -432,7 +461,8 @@ def _make_cooling(v: dict):
         design = cooling.convection(float(v["h_W_m2K"]), float(v["ambient_C"]))
     elif kind in _PLATES:
         plate = cooling.cold_plate(coolant=v["coolant"], flow_L_min=float(v["flow_L_min"]),
-                                   inlet_C=float(v["inlet_C"]))
+                                   inlet_C=float(v["inlet_C"]),
+                                   cells_per_plate=int(float(v["cells_per_plate"])))
         tim = {"tim_W_mK": float(v["tim_W_mK"]), "tim_mm": float(v["tim_mm"])}
         if kind == "face_plate":
             design = cooling.face_plate(plate, face=v["plate_face"], **tim)
@@ -451,7 +481,7 @@ def _make_cooling(v: dict):
 # the app's scenario file (our own format: a header and one flat table of inputs)
 
 
-class InputsFileError(ValueError):
+class InputsFileError(InputError):
     """A scenario file of the app that cannot be read; the message names the file and field."""
 
 

@@ -3,6 +3,11 @@
 :class:`ExplorerApp` is an ``ipywidgets.VBox``; display it in a notebook cell. It calls only the
 public API through :mod:`explorer.app.inputs`. In a notebook the Run button works in a background
 thread; :meth:`ExplorerApp.run` runs the current inputs now and blocks (for scripts and tests).
+
+Verdicts come from ``explorer.Limits.check``: each limit is "met", "NOT met" or "not evaluated"
+(with the reason), labelled with the figure that governs it, and the run's warnings (a duty cut
+short) stand beside them. When several cells share the plate's coolant the run is the whole module
+(``explorer.simulate_module``); the Module tab shows it and the other tabs show one of its cells.
 """
 
 from __future__ import annotations
@@ -24,7 +29,8 @@ from explorer.app.live import LiveFigure
 
 logger = logging.getLogger(__name__)
 
-__all__ = ["ExplorerApp"]
+__all__ = ["ExplorerApp", "cell_view", "limits_html", "module_html", "sizing_bounds",
+           "sizing_html"]
 
 _GROUPS = ("Cell and duty", "Cooling", "Model", "Limits")
 _ERROR_STYLE = "color:#B2182B;font-size:0.9em;white-space:pre-wrap"
@@ -172,9 +178,17 @@ class ExplorerApp(widgets.VBox):
         self.fig_heat = LiveFigure("Run to see the heat split", height=440)
         self.fig_compare = LiveFigure("Pin two or more runs to compare them", height=640)
         self.fig_sizing = LiveFigure("Size the cooling to see the curve", height=520)
+        self.fig_module = LiveFigure("Run with more than one cell sharing the coolant (Cooling tab) "
+                                     "to see the module", height=820)
         self.summary = widgets.HTML("")
         self.compare_table = widgets.HTML("")
         self.sizing_text = widgets.HTML("")
+        self.module_text = widgets.HTML("")
+        self.cell_select = widgets.Dropdown(options=[], description="cell shown in the other tabs",
+                                            style={"description_width": "initial"},
+                                            layout=widgets.Layout(width="340px", display="none"))
+        self.cell_select.observe(lambda ch: self._select_cell(ch["new"]), names="value")
+        self._view = None  # the single-cell Dataset the field, trace and heat figures show
 
         # scenarios and files
         self.scenario_name = widgets.Text(value="", placeholder="scenario name",
@@ -207,8 +221,11 @@ class ExplorerApp(widgets.VBox):
 
         for row in self.rows.values():
             row.control.observe(self._on_change, names="value")
+        self.rows["size_vary"].control.observe(lambda ch: self._vary_changed(), names="value")
 
         super().__init__(children=self._layout(), layout=widgets.Layout(width="100%"))
+        if "size_low" not in initial and "size_high" not in initial:
+            self._apply_size_defaults(initial.get("size_vary", FIELDS["size_vary"].default))
         if initial:
             self.set_inputs(**initial)
         else:
@@ -240,6 +257,7 @@ class ExplorerApp(widgets.VBox):
             "SOC and heat": widgets.VBox([self.fig_soc.widget, self.fig_heat_flux.widget]),
             "Traces": self.fig_traces.widget,
             "Heat split": self.fig_heat.widget,
+            "Module": widgets.VBox([self.module_text, self.cell_select, self.fig_module.widget]),
             "Compare": widgets.VBox([self.compare_table, self.fig_compare.widget]),
             "Sizing": widgets.VBox([*sizing_rows, self.size_button, self.sizing_text,
                                     self.fig_sizing.widget]),
@@ -248,8 +266,8 @@ class ExplorerApp(widgets.VBox):
         for k, name in enumerate(panels):
             self.output_tabs.set_title(k, name)
         self._tab_figures = [[], [self.fig_temperature], [self.fig_soc, self.fig_heat_flux],
-                             [self.fig_traces], [self.fig_heat], [self.fig_compare],
-                             [self.fig_sizing]]
+                             [self.fig_traces], [self.fig_heat], [self.fig_module],
+                             [self.fig_compare], [self.fig_sizing]]
         self.output_tabs.observe(lambda ch: self._tab_changed(ch["new"]), names="selected_index")
         self.output_tabs.selected_index = 1
         self._tab_changed(1)
@@ -284,6 +302,8 @@ class ExplorerApp(widgets.VBox):
                 self.rows[name].set(value)
         finally:
             self._suspend = False
+        if "size_vary" in values and "size_low" not in values and "size_high" not in values:
+            self._apply_size_defaults(values["size_vary"])
         self._on_change()
 
     def _on_change(self, change=None) -> None:
@@ -293,6 +313,7 @@ class ExplorerApp(widgets.VBox):
         for name, row in self.rows.items():
             row.visible(applies(name, values))
         self._update_size_menu(values)
+        self._size_units(self.rows["size_vary"].get())
         self.errors = validate(self.inputs())
         for name, row in self.rows.items():
             row.show_error(self.errors.get(name))
@@ -326,6 +347,31 @@ class ExplorerApp(widgets.VBox):
                 control.value = current if current in [o[1] for o in options] else options[0][1]
             finally:
                 self._suspend = False
+            if control.value != current:
+                self._apply_size_defaults(control.value)
+
+    def _vary_changed(self) -> None:
+        if not self._suspend:  # typed by the user; set_inputs and the menu handle their own
+            self._apply_size_defaults(self.rows["size_vary"].get())
+            self._on_change()
+
+    def _apply_size_defaults(self, name: str) -> None:
+        """Put the varied parameter's default bounds into the `from`/`to` fields."""
+        low, high, _, _ = sizing_bounds(name)
+        suspended, self._suspend = self._suspend, True
+        try:
+            self.rows["size_low"].set(low)
+            self.rows["size_high"].set(high)
+        finally:
+            self._suspend = suspended
+        self._size_units(name)
+
+    def _size_units(self, name: str) -> None:
+        unit = sizing_bounds(name)[2]
+        for key in ("size_low", "size_high"):
+            text = f"{_esc(FIELDS[key].label)}{f' ({_esc(unit)})' if unit else ''}"
+            if self.rows[key].label.value != text:
+                self.rows[key].label.value = text
 
     # -----------------------------------------------------------------------------------------
     # running
@@ -420,8 +466,43 @@ class ExplorerApp(widgets.VBox):
     # showing a result
 
     def show(self, ds) -> None:
-        """Show ``ds`` in every panel (figures updated in place) and make it the current result."""
+        """Show ``ds`` in every panel (figures updated in place) and make it the current result.
+
+        A module result (dimension ``cell``) fills the Module tab; the other tabs show its hottest
+        cell (another can be picked in the Module tab).
+        """
         self.dataset = ds
+        view, cell = cell_view(ds)
+        self._show_module(ds, cell)
+        self._show_view(view)
+
+    def _show_module(self, ds, cell) -> None:
+        if cell is None:
+            self.cell_select.layout.display = "none"
+            self.module_text.value = ("<p style='color:#555'>One cell was run. Set more than one cell "
+                                      "sharing the coolant (Cooling tab) to run the module along "
+                                      "the plate.</p>")
+            return
+        self.fig_module.replace(plots.module_figure(ds, limits=self._limits))
+        self.module_text.value = module_html(ds, self._limits)
+        options = [(f"cell {c}" + (" (the hottest)" if k == cell else ""), k)
+                   for k, c in enumerate(ds["cell"].values)]
+        suspended, self._suspend = self._suspend, True
+        try:
+            self.cell_select.options = options
+            self.cell_select.value = cell
+        finally:
+            self._suspend = suspended
+        self.cell_select.layout.display = None
+
+    def _select_cell(self, k) -> None:
+        if self._suspend or k is None or self.dataset is None or "cell" not in self.dataset.dims:
+            return
+        self._show_view(cell_view(self.dataset, int(k))[0])
+
+    def _show_view(self, ds) -> None:
+        """Fill the single-cell panels (fields, traces, heat, summary) from ``ds``."""
+        self._view = ds
         n = int(ds.sizes["time"])
         index = int(np.argmax(ds["temperature_max"].values)) if n else 0
         self.fig_temperature.replace(plots.field_figure(ds, "temperature", index=index,
@@ -436,7 +517,7 @@ class ExplorerApp(widgets.VBox):
         self._marker_shape = [k for k, s in enumerate(traces.layout.shapes) if s.name == _TIME_MARKER]
         self.fig_traces.replace(traces)
         self.fig_heat.replace(plots.heat_split_figure(ds))
-        self.summary.value = self._summary_html(ds)
+        self.summary.value = self._summary_html(ds, self.dataset)
         self.play.max = max(0, n - 1)
         self.time_slider.max = max(0, n - 1)
         self.play.value = index  # jslink makes the front end copy the play value onto the slider
@@ -448,7 +529,7 @@ class ExplorerApp(widgets.VBox):
 
     def set_time(self, index: int) -> None:
         """Move every field picture (and the traces' time marker) to time ``index`` in place."""
-        ds = self.dataset
+        ds = self._view
         if ds is None:
             return
         index = int(np.clip(index, 0, ds.sizes["time"] - 1))
@@ -476,40 +557,30 @@ class ExplorerApp(widgets.VBox):
             self.fig_traces.refresh()
         self.time_label.value = f"t = {t:.0f} s"
 
-    def _summary_html(self, ds) -> str:
-        from explorer.report import format_figure, hydraulics_rows, limits_rows
+    def _summary_html(self, ds, whole) -> str:
+        """Key figures of the shown cell ``ds``, the verdicts on the whole result ``whole``."""
+        from explorer.report import format_figure
 
         figures = _results().key_figures(ds)
         rows = "".join(f"<tr><td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td></tr>"
                        for label, text in (format_figure(k, v) for k, v in figures.items()))
-        checks = ""
-        if self._limits is not None:
-            try:
-                lim = limits_rows(ds, self._limits)
-            except ValueError as exc:
-                checks = f"<p style='{_ERROR_STYLE}'>{_esc(exc)}</p>"
-            else:
-                not_met = "<b style='color:#B2182B'>NOT met</b>"
-                lines = "".join(
-                    f"<tr><td>{_esc(name)}</td><td style='text-align:right'>{_esc(limit)}</td>"
-                    f"<td style='text-align:right'>{_esc(fig)}</td>"
-                    f"<td style='text-align:right'>{_esc(margin)}</td>"
-                    f"<td>{'met' if verdict == 'met' else not_met}</td></tr>"
-                    for name, limit, fig, margin, verdict in lim)
-                checks = ("<h4>Limits (margin = limit − figure)</h4><table><tr><th>limit</th>"
-                          f"<th>value</th><th>figure</th><th>margin</th><th></th></tr>{lines}</table>")
-        hyd = hydraulics_rows(ds)
+        checks = limits_html(whole, self._limits) if self._limits is not None else ""
+        hyd = hydraulics_html(whole)
         if hyd:
-            checks += "<h4>Cold plate hydraulics</h4><table>" + "".join(
-                f"<tr><td>{_esc(a)}</td><td>{_esc(b)}</td></tr>" for a, b in hyd) + "</table>"
+            checks += f"<h4>Cold plate hydraulics</h4>{hyd}"
+        which = ""
+        if "cell" in whole.dims:
+            which = (f" — cell {_esc(ds['cell'].values)} of the {whole.sizes['cell']} sharing the "
+                     "coolant (Module tab for all)")
         status = ds.attrs.get("status", "")
         return (f"<style>.pte-sum td,.pte-sum th{{padding:1px 10px;line-height:1.35}}</style>"
-                f"<p><b>{_esc(ds.attrs.get('cell_name', ''))}</b> · "
+                f"<p><b>{_esc(whole.attrs.get('cell_name', ''))}</b> · "
                 f"{_esc(str(ds.attrs.get('electrochemistry', '')).upper())} · "
                 f"{_esc(ds.attrs.get('layout', ''))} · status {_esc(status)}: "
                 f"{_esc(ds.attrs.get('status_message', ''))}</p>"
                 "<div class='pte-sum' style='display:flex;gap:3em;flex-wrap:wrap'>"
-                f"<div><h4>Key figures</h4><table>{rows}</table></div><div>{checks}</div></div>")
+                f"<div><h4>Key figures{which}</h4><table>{rows}</table></div>"
+                f"<div>{checks}</div></div>")
 
     # -----------------------------------------------------------------------------------------
     # scenarios
@@ -533,7 +604,7 @@ class ExplorerApp(widgets.VBox):
         if not self.pinned:
             self.compare_table.value = ""
             return
-        named = {name: ds for name, (ds, _) in self.pinned.items()}
+        named = {name: cell_view(ds)[0] for name, (ds, _) in self.pinned.items()}
         self.fig_compare.replace(plots.comparison_figure(named, limits=self._limits))
         self.compare_table.value = _compare_html(named)
 
@@ -597,11 +668,13 @@ class ExplorerApp(widgets.VBox):
         self.sizing = result
         self._limits = call.limits
         self.fig_sizing.replace(plots.sizing_figure(result, limits=call.limits))
-        table = result.table() if hasattr(result, "table") else str(result)
-        self.sizing_text.value = f"<pre>{_esc(table)}</pre>"
+        self.sizing_text.value = sizing_html(result, call.limits)
         self.status.value = f"sized in {time.perf_counter() - t0:.1f} s"
         if getattr(result, "dataset", None) is not None:
-            self.inputs_used = {**values, values["size_vary"]: float(result.value)}
+            vary = values["size_vary"]
+            sized = float(f"{float(result.value):.10g}")  # no float noise in the input box
+            self.inputs_used = {**values, vary: sized}
+            self.set_inputs(**{vary: sized})  # Run now repeats the sized design
             self.show(result.dataset)
         return result
 
@@ -672,3 +745,237 @@ def _compare_html(named: dict) -> str:
             cells.append(f"<td style='text-align:right'>{_esc(vtext)}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
     return f"<table>{head}{''.join(rows)}</table>"
+
+
+# ---------------------------------------------------------------------------------------------
+# what the panels show, as plain functions of the results (testable without a widget)
+
+_NOT_MET = "<b style='color:#B2182B'>NOT met</b>"
+_NOT_EVALUATED_STYLE = "color:#8A5A00"
+_WARNING_STYLE = ("background:#FFF4E0;border-left:4px solid #E69F00;padding:0.3em 0.6em;"
+                  "margin:0.3em 0;white-space:pre-wrap")
+_DISPLAY_UNITS = {"degC": "°C"}
+_CHANNELS_ONLY = ("pressure_drop", "pump_power", "Pressure drop", "Pump power")
+
+
+def cell_view(ds, cell: int | None = None):
+    """``(Dataset of one cell, its position)``; ``(ds, None)`` for a single-cell result.
+
+    A module result (dimension ``cell``) is seen through cell ``cell`` (a position along the
+    ``cell`` dimension; default the one whose hottest point anywhere gets hottest).
+    """
+    if "cell" not in ds.dims:
+        return ds, None
+    if cell is None:
+        name = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
+        cell = int(np.nanargmax(ds[name].max("time").values))
+    view = ds.isel(cell=cell)
+    label = ds["cell"].values[cell]
+    view.attrs = {**ds.attrs, "cell_name": f"{ds.attrs.get('cell_name', 'cell')} · cell {label} "
+                                           f"of {ds.sizes['cell']}"}
+    return view, cell
+
+
+def _run_hydraulics(ds) -> dict | None:
+    import json
+
+    raw = ds.attrs.get("hydraulics")
+    try:
+        value = json.loads(raw) if isinstance(raw, str) else dict(raw or {})
+    except (TypeError, ValueError):
+        return None
+    return value or None
+
+
+def _channels_only(label: str) -> str:
+    """Hydraulic figures cover the plate's channels only (no manifolds, pipes or fittings)."""
+    if label.startswith(_CHANNELS_ONLY) and "channels only" not in label:
+        return f"{label} — channels only"
+    return label
+
+
+def _limit_label(name: str) -> str:
+    from explorer import limits as limits_module
+
+    return _channels_only(limits_module.LONG_NAMES.get(name, name))
+
+
+def _unit(name: str) -> str:
+    from explorer import limits as limits_module
+
+    unit = limits_module.UNITS.get(name, "")
+    return _DISPLAY_UNITS.get(unit, unit)
+
+
+def _warnings_html(warnings) -> str:
+    if not warnings:
+        return ""
+    items = "".join(f"<li>{_esc(w)}</li>" for w in warnings)
+    return (f"<div style='{_WARNING_STYLE}'><b>⚠ Every verdict on this run carries this "
+            f"warning:</b><ul style='margin:0.2em 0'>{items}</ul></div>")
+
+
+def limits_html(ds, limits) -> str:
+    """The verdict on every set limit from ``limits.check(ds)``, with the run's warnings.
+
+    Each row names the figure that governs the limit, the limit, the figure, the margin and the
+    verdict: "met", "NOT met" or "not evaluated (reason)". The warnings (``check["warnings"]``: a
+    duty cut short ...) stand above the table and are marked beside every verdict.
+    """
+    try:
+        check = limits.check(ds, hydraulics=_run_hydraulics(ds))
+    except ValueError as exc:  # InputError: a limit the run cannot be checked against
+        return f"<p style='{_ERROR_STYLE}'>{_esc(exc)}</p>"
+    if "verdicts" not in check:  # TEMPORARY until Limits.check returns verdicts (contracts B)
+        check["verdicts"] = {n: "met" if m >= 0 else "not met" for n, m in check["margins"].items()}
+    warnings = list(check.get("warnings") or ())
+    tip = _esc("; ".join(warnings))
+    mark = f" <span title='{tip}' style='color:#E69F00'>⚠ see warning</span>" if warnings else ""
+    lines = []
+    for name in limits.names():
+        unit = _unit(name)
+        delta = "K" if unit == "°C" else unit  # a margin on a temperature is a difference
+        verdict = check["verdicts"][name]
+        figure, margin = check["figures"].get(name), check["margins"].get(name)
+        reason = check.get("reasons", {}).get(name, "")
+        why = f" ({_esc(reason)})" if reason else ""
+        if verdict == "met":
+            text = "met"
+        elif verdict == "not met":
+            text = f"{_NOT_MET}{why}"
+        else:
+            text = f"<span style='{_NOT_EVALUATED_STYLE}'>not evaluated{why}</span>"
+        cell = (check.get("cells") or {}).get(name)
+        where = f" (cell {_esc(cell)})" if cell is not None else ""
+        lines.append(
+            f"<tr><td>{_esc(_limit_label(name))}</td>"
+            f"<td style='text-align:right'>{getattr(limits, name):.4g} {_esc(unit)}</td>"
+            f"<td style='text-align:right'>"
+            f"{'—' if figure is None else f'{figure:.4g} {_esc(unit)}{where}'}</td>"
+            f"<td style='text-align:right'>"
+            f"{'—' if margin is None else f'{margin:+.3g} {_esc(delta)}'}</td>"
+            f"<td>{text}{mark}</td></tr>")
+    if check["met"]:
+        overall = "every limit met"
+    elif any(v == "not met" for v in check["verdicts"].values()):
+        overall = f"<b style='color:#B2182B'>NOT met</b> (worst: {_esc(_limit_label(check['worst']))})"
+    else:
+        overall = (f"<span style='{_NOT_EVALUATED_STYLE}'>not every limit could be evaluated; no "
+                   "verdict on those</span>")
+    return (f"<h4>Limits (margin = limit − figure): {overall}</h4>{_warnings_html(warnings)}"
+            "<table><tr><th>limit on</th><th>limit</th><th>figure</th><th>margin</th><th>verdict"
+            f"</th></tr>{''.join(lines)}</table>")
+
+
+def hydraulics_html(ds) -> str:
+    """The plate's hydraulic figures recorded with the run (pressure drop and pump power are for
+    the channels only); empty for designs without a plate."""
+    from explorer.report import hydraulics_rows
+
+    rows = hydraulics_rows(ds)
+    if not rows:
+        return ""
+    return "<table>" + "".join(f"<tr><td>{_esc(_channels_only(a))}</td><td>{_esc(b)}</td></tr>"
+                               for a, b in rows) + "</table>"
+
+
+def module_html(ds, limits=None) -> str:
+    """The module in words: each cell's peak and coolant outlet, and the cell-to-cell figure."""
+    hottest = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
+    peaks = ds[hottest].max("time").values
+    outlet = ds["coolant_outlet"].max("time").values if "coolant_outlet" in ds else None
+    worst = int(np.nanargmax(peaks))
+    rows = []
+    for k, c in enumerate(ds["cell"].values):
+        out = "—" if outlet is None else f"{outlet[k]:.2f}"
+        bold = " style='font-weight:bold'" if k == worst else ""
+        rows.append(f"<tr{bold}><td>{_esc(c)}</td><td style='text-align:right'>{peaks[k]:.2f}</td>"
+                    f"<td style='text-align:right'>{out}</td></tr>")
+    c2c = limit = None
+    if limits is not None:
+        try:
+            check = limits.check(ds, hydraulics=_run_hydraulics(ds))
+        except ValueError:
+            check = {}
+        c2c = check.get("figures", {}).get("cell_to_cell_K")
+        limit = getattr(limits, "cell_to_cell_K", None)
+    if c2c is None:  # the figure by its definition (contracts B), for display without a limit
+        means = ds["temperature_mean"]
+        c2c = float((means.max("cell") - means.min("cell")).max())
+    if limit is None:
+        against = ("no cell-to-cell limit set (Limits tab: Max cell-to-cell difference)")
+    else:
+        verdict = check["verdicts"]["cell_to_cell_K"]
+        text = {"met": "met", "not met": _NOT_MET}.get(
+            verdict, f"not evaluated ({_esc(check.get('reasons', {}).get('cell_to_cell_K', ''))})")
+        against = f"limit {limit:g} K: {text}"
+    warnings = []
+    if limits is not None:
+        warnings = list(check.get("warnings") or ())
+    return (f"<h4>Module: {ds.sizes['cell']} cells along the coolant (cell 0 meets it first)</h4>"
+            f"{_warnings_html(warnings)}"
+            f"<p>Cell-to-cell difference (largest minus smallest cell mean temperature at one "
+            f"time): <b>{c2c:.3g} K</b> — {against}</p>"
+            "<table><tr><th>cell</th><th>peak, hottest point anywhere (°C)</th>"
+            f"<th>coolant outlet, highest (°C)</th></tr>{''.join(rows)}</table>")
+
+
+# sizing bounds used until explorer.sizing.DESIGN_PARAMETERS is available (same shape)
+_FALLBACK_BOUNDS = {
+    "flow_L_min": (0.2, 10.0, "L/min", None),
+    "inlet_C": (10.0, 40.0, "°C", None),
+    "fin_mm": (0.1, 3.0, "mm", None),
+    "tim_W_mK": (0.5, 10.0, "W/(m K)", None),
+    "h_W_m2K": (2.0, 200.0, "W/(m² K)", None),
+}
+
+
+def sizing_bounds(name: str) -> tuple[float, float, str, float | None]:
+    """``(low, high, unit, resolution)`` the sizing of ``name`` starts from.
+
+    From ``explorer.sizing.design_parameter(name)`` (its default bounds, unit and resolution).
+    """
+    try:
+        from explorer.sizing import design_parameter
+    except ImportError:
+        low, high, unit, res = _FALLBACK_BOUNDS.get(name, (0.2, 5.0, FIELDS.get(name).unit, None))
+        return low, high, unit, res
+    p = design_parameter(name)
+    return float(p.bounds[0]), float(p.bounds[1]), str(p.unit), p.resolution
+
+
+_LIMITED_BY = {
+    "limits": "the limits decided it: the cheapest value within the bounds that meets them",
+    "lower bound": "the lower bound decided it, not a limit: every value up to it meets the "
+                   "limits (widen the bounds to look further)",
+    "upper bound": "the upper bound decided it, not a limit: every value up to it meets the "
+                   "limits (widen the bounds to look further)",
+    "none met": "no value within the bounds meets the limits; the best one evaluated is shown",
+}
+
+
+def sizing_html(result, limits) -> str:
+    """The sizing answer: the rounded value with its step and unit, what decided it, the verdicts
+    at that value (with the run's warnings) and the hydraulics there (channels only)."""
+    vary = result.vary
+    _, _, unit, res = sizing_bounds(vary)
+    res = getattr(result, "resolution", None) or res
+    u = f" {unit}" if unit else ""
+    label = FIELDS[vary].label if vary in FIELDS else vary
+    step = f" (rounded in the safe direction to a step of {res:g}{u})" if res else ""
+    verdict = "meets the limits" if result.feasible else _NOT_MET
+    limited = getattr(result, "limited_by", None)
+    why = _LIMITED_BY.get(limited, limited or "")
+    parts = [f"<h4>{_esc(label)} = {float(result.value):.6g}{_esc(u)}{_esc(step)}: {verdict}</h4>",
+             f"<p><b>limited by {_esc(limited)}</b>: {_esc(why)}</p>" if limited else ""]
+    if getattr(result, "dataset", None) is not None and limits is not None:
+        parts.append(limits_html(result.dataset, limits))
+    hyd = getattr(result, "hydraulics", None) or {}
+    for key, name, scale, fmt in (("pressure_drop_Pa", "Pressure drop (kPa)", 1e-3, "{:.3g}"),
+                                  ("pump_power_W", "Pump power (W)", 1.0, "{:.3g}")):
+        if hyd.get(key) is not None:
+            parts.append(f"<p>{_esc(_channels_only(name))}: {fmt.format(hyd[key] * scale)}</p>")
+    message = getattr(result, "message", "")
+    if message:
+        parts.append(f"<p style='color:#555;font-size:0.9em'>{_esc(message)}</p>")
+    return "".join(parts)
