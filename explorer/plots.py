@@ -529,3 +529,98 @@ def _run_title(ds) -> str:
     if status and status != "completed":
         parts.append(f"status: {status}")
     return " · ".join(p for p in parts if p)
+
+
+def _module_hottest(ds) -> str:
+    """The per-cell figure that governs a temperature limit: hottest anywhere, else the face max."""
+    return "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
+
+
+def _module_coolant(ds, index: int) -> np.ndarray | None:
+    """Coolant temperature at the cell boundaries along the plate at time ``index`` (None: none).
+
+    Point 0 is the inlet of the first cell, point k+1 the outlet of cell k (the inlet of k+1).
+    """
+    if "coolant_outlet" not in ds:
+        return None
+    outlet = np.asarray(ds["coolant_outlet"].isel(time=index).values, dtype=float)
+    if "coolant_inlet" in ds:
+        first = float(ds["coolant_inlet"].isel(time=index, cell=0).values)
+    else:
+        first = np.nan
+    return np.concatenate([[first], outlet])
+
+
+def module_figure(ds, limits=None) -> go.Figure:
+    """A module along the coolant path: each cell's peak, the coolant along the plate, cell-to-cell.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        A module result (dimension ``cell``, 0 = the first cell the coolant meets), as returned by
+        :func:`explorer.simulate_module`.
+    limits : explorer.Limits or mapping, optional
+        ``temperature_max_C`` is drawn on the peak panel, ``cell_to_cell_K`` on the last one.
+
+    Panels: (1) each cell's peak of the hottest point anywhere in it (core included) over the
+    duty; (2) the coolant temperature at each cell boundary along the plate, at the time of the
+    module's peak and the highest over the run; (3) the cell-to-cell difference (largest minus
+    smallest cell mean temperature) against time.
+    """
+    if not hasattr(ds, "dims") or "cell" not in ds.dims:
+        raise ValueError("module_figure: expected a module result with a `cell` dimension (from "
+                         "explorer.simulate_module), got a Dataset without one")
+    hottest = _module_hottest(ds)
+    _require(ds, [hottest, "temperature_mean"], "module_figure")
+    cells = np.asarray(ds["cell"].values)
+    peaks = np.asarray(ds[hottest].max("time").values, dtype=float)
+    module_peak = np.asarray(ds[hottest].max("cell").values, dtype=float)
+    i_peak = int(np.nanargmax(module_peak))
+    t, t_label, divisor = time_axis(ds)
+    fig = make_subplots(rows=3, cols=1, vertical_spacing=0.11, row_heights=[0.36, 0.32, 0.32])
+    fig.add_trace(go.Scatter(x=cells, y=peaks, mode="lines+markers", name="peak of each cell "
+                             "(hottest point anywhere)", line=dict(color=PALETTE[1])), row=1, col=1)
+    lim = limit_values(ds, limits)
+    if "datasheet_C" in lim:
+        fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=1, col=1,
+                      annotation_text=f"data-sheet max {lim['datasheet_C']:g} °C",
+                      annotation_position="top left")
+    if "temperature_max_C" in lim:
+        fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=1, col=1,
+                      annotation_text=f"design limit {lim['temperature_max_C']:g} °C",
+                      annotation_position="bottom left")
+    at_peak = _module_coolant(ds, i_peak)
+    if at_peak is not None:
+        edges = np.arange(cells.size + 1)
+        highest = np.nanmax(np.stack([_module_coolant(ds, k) for k in range(ds.sizes["time"])]),
+                            axis=0)
+        fig.add_trace(go.Scatter(x=edges, y=at_peak, mode="lines+markers",
+                                 name=f"coolant at the module's peak (t = {t[i_peak]:.4g} "
+                                      f"{'min' if divisor == 60.0 else 's'})",
+                                 line=dict(color=PALETTE[0])), row=2, col=1)
+        fig.add_trace(go.Scatter(x=edges, y=highest, mode="lines", name="coolant, highest over "
+                                 "the run", line=dict(color=PALETTE[0], dash="dash")), row=2, col=1)
+    spread = np.asarray((ds["temperature_mean"].max("cell") - ds["temperature_mean"].min("cell"))
+                        .values, dtype=float)
+    fig.add_trace(go.Scatter(x=t, y=spread, name="cell-to-cell (largest − smallest cell mean)",
+                             line=dict(color=PALETTE[3])), row=3, col=1)
+    c2c = None
+    if limits is not None:
+        c2c = limits.get("cell_to_cell_K") if isinstance(limits, Mapping) else \
+            getattr(limits, "cell_to_cell_K", None)
+    if c2c is not None:
+        fig.add_hline(y=float(c2c), line=_LIMIT_STYLE, row=3, col=1,
+                      annotation_text=f"cell-to-cell limit {float(c2c):g} K",
+                      annotation_position="top left")
+    fig.update_layout(**_LAYOUT)
+    fig.update_layout(title=dict(text=f"Module of {cells.size} cells along the coolant · "
+                                      f"{_run_title(ds)}"), height=820, hovermode="closest")
+    fig.update_xaxes(title_text="Cell along the coolant path (0 = first the coolant meets)",
+                     tickmode="array", tickvals=cells, row=1, col=1)
+    fig.update_yaxes(title_text="Peak temperature (°C)", row=1, col=1)
+    fig.update_xaxes(title_text="Position along the plate (cell boundaries; 0 = inlet)",
+                     tickmode="array", tickvals=np.arange(cells.size + 1), row=2, col=1)
+    fig.update_yaxes(title_text="Coolant (°C)", row=2, col=1)
+    fig.update_xaxes(title_text=t_label, row=3, col=1)
+    fig.update_yaxes(title_text="Cell-to-cell (K)", rangemode="tozero", row=3, col=1)
+    return fig
