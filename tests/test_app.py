@@ -281,12 +281,21 @@ def test_save_results_netcdf(tmp_path, fake_simulate):
     np.testing.assert_allclose(back["temperature"].values, app.dataset["temperature"].values)
 
 
+class _Sized(SyntheticSizing):
+    """The synthetic sizing answer with the fields of explorer.sizing.SizingResult the app shows."""
+
+    def __init__(self, vary="flow_L_min"):
+        super().__init__(vary=vary)
+        self.unit, self.resolution, self.limited_by = "L/min", 0.05, "limits"
+        self.warnings, self.module, self.hydraulics = [], None, {}
+
+
 def test_sizing_tab(monkeypatch, fake_simulate):
     seen = {}
 
     def size_cooling(cell, duty, cooling, vary, bounds, limits, **kwargs):
         seen.update(vary=vary, bounds=bounds, limits=limits, kwargs=kwargs)
-        return SyntheticSizing()
+        return _Sized()
 
     monkeypatch.setattr(explorer, "size_cooling", size_cooling, raising=False)
     app = explorer.explore(size_vary="flow_L_min", size_low=0.5, size_high=4.0)

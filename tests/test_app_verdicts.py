@@ -285,14 +285,12 @@ def test_sizing_bounds_follow_the_parameter():
 
 
 def test_sizing_answer_and_the_input_box(monkeypatch, fake_runs):
-    class Sized(SyntheticSizing):
+    class Sized(SyntheticSizing):  # the fields of explorer.sizing.SizingResult the app shows
         def __init__(self):
             super().__init__(vary="inlet_C")
-            self.value = 31.5
-            self.resolution = 0.5
-            self.limited_by = "limits"
+            self.value, self.unit, self.resolution, self.limited_by = 31.5, "degC", 0.5, "limits"
             self.hydraulics = {"pressure_drop_Pa": 1800.0, "pump_power_W": 0.06}
-            self.limits = None
+            self.limits, self.module, self.warnings = None, None, []
 
     result = Sized()
     monkeypatch.setattr(explorer, "size_cooling", lambda *a, **k: result, raising=False)
@@ -303,8 +301,13 @@ def test_sizing_answer_and_the_input_box(monkeypatch, fake_runs):
     text = _text(app.sizing_text.value)
     unit = app_widget.sizing_bounds("inlet_C")[2]
     assert f"= 31.5 {unit}" in text and f"step of 0.5 {unit}" in text
-    assert "limited by limits" in text
+    assert "limited by the limits" in text
     assert "Pressure drop (kPa) — channels only: 1.8" in text
     assert "Pump power (W) — channels only" in text
     result.limited_by = "upper bound"
     assert "not a limit" in _text(app_widget.sizing_html(result, None))
+    # a design judged as a module: the figures show the whole module at the sized value
+    result.module = module_dataset(cells=3)
+    app.set_inputs(cells_per_plate=3)
+    app.size()
+    assert app.dataset is result.module and "3 cells along the coolant" in app.module_text.value

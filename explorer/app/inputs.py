@@ -145,7 +145,7 @@ FIELDS: dict[str, Field] = {
     "size_vary": Field("Size", "choice", "flow_L_min", group="Sizing", choices=(
         ("flow_L_min", "coolant flow (L/min)"), ("inlet_C", "coolant inlet (°C)"),
         ("fin_mm", "fin thickness (mm)"), ("tim_W_mK", "TIM conductivity (W/(m K))"),
-        ("h_W_m2K", "heat transfer coefficient (W/(m² K))"))),
+        ("tim_mm", "TIM thickness (mm)"), ("h_W_m2K", "heat transfer coefficient (W/(m² K))"))),
     "size_low": Field("from", "number", 0.2, "", None, None, group="Sizing"),
     "size_high": Field("to", "number", 5.0, "", None, None, group="Sizing"),
 }
@@ -155,8 +155,8 @@ FIELDS: dict[str, Field] = {
 SIZE_CHOICES = {
     "adiabatic": (),
     "convection": ("h_W_m2K",),
-    "face_plate": ("flow_L_min", "inlet_C", "tim_W_mK"),
-    "edge_plate": ("flow_L_min", "inlet_C", "fin_mm", "tim_W_mK"),
+    "face_plate": ("flow_L_min", "inlet_C", "tim_W_mK", "tim_mm"),
+    "edge_plate": ("flow_L_min", "inlet_C", "fin_mm", "tim_W_mK", "tim_mm"),
 }
 
 
@@ -167,7 +167,12 @@ def defaults() -> dict:
 
 def applies(name: str, values: dict) -> bool:
     """Whether input ``name`` matters for the current ``values``."""
-    return all(values.get(other) in allowed for other, allowed in FIELDS[name].when.items())
+    return all(_among(values.get(other), allowed) for other, allowed in FIELDS[name].when.items())
+
+
+def _among(value, allowed) -> bool:
+    """``value in allowed`` for a text or flag value; False for anything else (an array, a list)."""
+    return isinstance(value, str | bool) and value in allowed
 
 
 # ---------------------------------------------------------------------------------------------
@@ -175,7 +180,7 @@ def applies(name: str, values: dict) -> bool:
 
 
 def _number_error(name: str, f: Field, value) -> str | None:
-    if isinstance(value, bool) or value is None or value == "":
+    if isinstance(value, bool) or value is None or (isinstance(value, str) and not value.strip()):
         return f"expected a number{f' in {f.unit}' if f.unit else ''}, got {value!r}"
     try:
         v = float(value)
@@ -240,7 +245,7 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
             message = _number_error(name, f, value)
         elif f.kind == "choice":
             valid = [c[0] for c in f.choices]
-            message = None if value in valid else \
+            message = None if _among(value, valid) else \
                 f"expected one of {', '.join(map(repr, valid))}, got {value!r}"
         elif f.kind == "flag":
             message = None if isinstance(value, bool) else f"expected true or false, got {value!r}"
@@ -253,7 +258,7 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
             message = _cell_error(values["cell"])
             if message:
                 errors["cell"] = message
-        if values["duty"] == "profile" and "profile_path" not in errors:
+        if "duty" not in errors and values["duty"] == "profile" and "profile_path" not in errors:
             message = _profile_error(values["profile_path"])
             if message:
                 errors["profile_path"] = message
@@ -275,7 +280,29 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
     if float(values["size_low"]) >= float(values["size_high"]):
         errors["size_high"] = (f"expected `to` > `from` ({float(values['size_low']):g}), got "
                                f"{float(values['size_high']):g}")
+    if not errors:
+        errors.update(_design_errors(values))
     return errors
+
+
+# constructor argument -> the app input it comes from, where the names differ
+_ARGUMENT_FIELDS = {"conductance_W_K": "tab_conductance_W_K", "face": "plate_face",
+                    "edge": "plate_edge", "c_rate": "discharge_c_rate"}
+
+
+def _design_errors(values) -> dict[str, str]:
+    """The public constructors' own checks (a coolant's liquid range...), on the field they name,
+    so that inputs :func:`validate` accepts also build."""
+    try:
+        if values["duty"] != "profile":
+            _make_duty(values)
+        _make_cooling(values)
+    except (ValueError, TypeError) as exc:  # InputError, or a constructor's own slip
+        message = str(exc) or type(exc).__name__
+        named = [n for n in FIELDS if f"`{n}`" in message]
+        named += [f for a, f in _ARGUMENT_FIELDS.items() if f"`{a}`" in message]
+        return {(named[0] if named else "cooling"): message}
+    return {}
 
 
 def _sink_fields(values) -> list[str]:

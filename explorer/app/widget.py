@@ -670,12 +670,13 @@ class ExplorerApp(widgets.VBox):
         self.fig_sizing.replace(plots.sizing_figure(result, limits=call.limits))
         self.sizing_text.value = sizing_html(result, call.limits)
         self.status.value = f"sized in {time.perf_counter() - t0:.1f} s"
-        if getattr(result, "dataset", None) is not None:
+        run = sized_run(result)
+        if run is not None:
             vary = values["size_vary"]
             sized = float(f"{float(result.value):.10g}")  # no float noise in the input box
             self.inputs_used = {**values, vary: sized}
             self.set_inputs(**{vary: sized})  # Run now repeats the sized design
-            self.show(result.dataset)
+            self.show(run)
         return result
 
     # -----------------------------------------------------------------------------------------
@@ -754,7 +755,7 @@ _NOT_MET = "<b style='color:#B2182B'>NOT met</b>"
 _NOT_EVALUATED_STYLE = "color:#8A5A00"
 _WARNING_STYLE = ("background:#FFF4E0;border-left:4px solid #E69F00;padding:0.3em 0.6em;"
                   "margin:0.3em 0;white-space:pre-wrap")
-_DISPLAY_UNITS = {"degC": "°C"}
+_DISPLAY_UNITS = {"degC": "°C", "W/(m2 K)": "W/(m² K)", "um": "µm", "1": ""}
 _CHANNELS_ONLY = ("pressure_drop", "pump_power", "Pressure drop", "Pump power")
 
 
@@ -803,8 +804,7 @@ def _limit_label(name: str) -> str:
 def _unit(name: str) -> str:
     from explorer import limits as limits_module
 
-    unit = limits_module.UNITS.get(name, "")
-    return _DISPLAY_UNITS.get(unit, unit)
+    return _display_unit(limits_module.UNITS.get(name, ""))
 
 
 def _warnings_html(warnings) -> str:
@@ -920,56 +920,53 @@ def module_html(ds, limits=None) -> str:
             f"<th>coolant outlet, highest (°C)</th></tr>{''.join(rows)}</table>")
 
 
-# sizing bounds used until explorer.sizing.DESIGN_PARAMETERS is available (same shape)
-_FALLBACK_BOUNDS = {
-    "flow_L_min": (0.2, 10.0, "L/min", None),
-    "inlet_C": (10.0, 40.0, "°C", None),
-    "fin_mm": (0.1, 3.0, "mm", None),
-    "tim_W_mK": (0.5, 10.0, "W/(m K)", None),
-    "h_W_m2K": (2.0, 200.0, "W/(m² K)", None),
-}
+def sizing_bounds(name: str) -> tuple[float, float, str, float]:
+    """``(low, high, unit, resolution)`` the sizing of ``name`` starts from (its default bounds,
+    from ``explorer.sizing.design_parameter``); the unit as the app shows it."""
+    from explorer.sizing import design_parameter
 
-
-def sizing_bounds(name: str) -> tuple[float, float, str, float | None]:
-    """``(low, high, unit, resolution)`` the sizing of ``name`` starts from.
-
-    From ``explorer.sizing.design_parameter(name)`` (its default bounds, unit and resolution).
-    """
-    try:
-        from explorer.sizing import design_parameter
-    except ImportError:
-        low, high, unit, res = _FALLBACK_BOUNDS.get(name, (0.2, 5.0, FIELDS.get(name).unit, None))
-        return low, high, unit, res
     p = design_parameter(name)
-    return float(p.bounds[0]), float(p.bounds[1]), str(p.unit), p.resolution
+    return float(p.bounds[0]), float(p.bounds[1]), _display_unit(p.unit), float(p.resolution)
+
+
+def _display_unit(unit: str) -> str:
+    return _DISPLAY_UNITS.get(unit, unit)
 
 
 _LIMITED_BY = {
-    "limits": "the limits decided it: the cheapest value within the bounds that meets them",
-    "lower bound": "the lower bound decided it, not a limit: every value up to it meets the "
-                   "limits (widen the bounds to look further)",
-    "upper bound": "the upper bound decided it, not a limit: every value up to it meets the "
-                   "limits (widen the bounds to look further)",
+    "limits": "the limits decided it: one step cheaper does not meet them",
+    "lower bound": "the lower bound decided it, not a limit: the bound itself meets the limits "
+                   "(widen the bounds to look for a cheaper design)",
+    "upper bound": "the upper bound decided it, not a limit: the bound itself meets the limits "
+                   "(widen the bounds to look for a cheaper design)",
     "none met": "no value within the bounds meets the limits; the best one evaluated is shown",
 }
+
+
+def sized_run(result):
+    """The run at the sized value: the whole module when it was judged as one, else the cell."""
+    module = getattr(result, "module", None)
+    return module if module is not None else result.dataset
 
 
 def sizing_html(result, limits) -> str:
     """The sizing answer: the rounded value with its step and unit, what decided it, the verdicts
     at that value (with the run's warnings) and the hydraulics there (channels only)."""
     vary = result.vary
-    _, _, unit, res = sizing_bounds(vary)
-    res = getattr(result, "resolution", None) or res
+    unit = _display_unit(result.unit)
     u = f" {unit}" if unit else ""
     label = FIELDS[vary].label if vary in FIELDS else vary
-    step = f" (rounded in the safe direction to a step of {res:g}{u})" if res else ""
+    step = f" (rounded in the safe direction to a step of {result.resolution:g}{u})"
     verdict = "meets the limits" if result.feasible else _NOT_MET
-    limited = getattr(result, "limited_by", None)
-    why = _LIMITED_BY.get(limited, limited or "")
+    limited = result.limited_by
+    why = _LIMITED_BY.get(limited, limited)
     parts = [f"<h4>{_esc(label)} = {float(result.value):.6g}{_esc(u)}{_esc(step)}: {verdict}</h4>",
-             f"<p><b>limited by {_esc(limited)}</b>: {_esc(why)}</p>" if limited else ""]
-    if getattr(result, "dataset", None) is not None and limits is not None:
-        parts.append(limits_html(result.dataset, limits))
+             f"<p><b>limited by the {_esc(limited)}</b>: {_esc(why)}</p>"]
+    run = sized_run(result)
+    if limits is not None and run is not None:
+        parts.append(limits_html(run, limits))  # the verdicts carry the run's warnings
+    else:
+        parts.append(_warnings_html(result.warnings))
     hyd = getattr(result, "hydraulics", None) or {}
     for key, name, scale, fmt in (("pressure_drop_Pa", "Pressure drop (kPa)", 1e-3, "{:.3g}"),
                                   ("pump_power_W", "Pump power (W)", 1.0, "{:.3g}")):
