@@ -472,9 +472,7 @@ class SizingResult:
     def table(self) -> str:
         """A plain-text table: the design value, each limit with figure and margin, hydraulics."""
         state = "meets the limits" if self.feasible else "DOES NOT meet the limits"
-        lines = [f"{self.vary} = {self.value:.6g} {self.unit}  ({state}; limited by the "
-                 f"{self.limited_by})" if self.limited_by != "none met" else
-                 f"{self.vary} = {self.value:.6g} {self.unit}  ({state}; none met, best value)",
+        lines = [f"{self.vary} = {self.value:.6g} {self.unit}  ({state}; {self._decided()})",
                  f"bounds {self.bounds[0]:g} to {self.bounds[1]:g} {self.unit}, resolution "
                  f"{self.resolution:g} {self.unit}, {self.cheaper} values cost less"]
         lines.append(f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  unit")
@@ -499,10 +497,15 @@ class SizingResult:
         lines.append(self.message)
         return "\n".join(lines)
 
+    def _decided(self) -> str:
+        if self.limited_by == "none met":
+            return "none met, the best value evaluated"
+        return f"limited by the {self.limited_by}"
+
     def __repr__(self) -> str:
         state = "feasible" if self.feasible else "infeasible"
-        return (f"<SizingResult {self.vary}={self.value:.6g} {self.unit} ({state}, limited by "
-                f"the {self.limited_by}, {self.evaluations} runs, monotone={self.monotone})>")
+        return (f"<SizingResult {self.vary}={self.value:.6g} {self.unit} ({state}, "
+                f"{self._decided()}, {self.evaluations} runs, monotone={self.monotone})>")
 
     def _repr_html_(self) -> str:
         import html
