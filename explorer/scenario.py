@@ -42,7 +42,7 @@ design limits, and what to size or sweep. Tables and keys:
 
     [size]                                  # for `size`
     vary = "flow_L_min"
-    bounds = [0.5, 12.0]
+    bounds = [0.5, 12.0]                    # optional (default: sizing.DESIGN_PARAMETERS)
 
     [sweep]                                 # for `sweep`
     cache = "cache"                         # optional, relative to this file
@@ -78,7 +78,8 @@ PLATES = ("cold_plate", "fixed_sink")
 MODEL_KEYS = ("electrochemistry", "layout", "start_soc", "start_temperature_C", "grid",
               "position", "output_interval_s", "mesh")
 TABLES = ("scenario", "model", "duty", "cooling", "limits", "size", "sweep")
-SIZE_KEYS = ("vary", "bounds", "samples", "rtol", "spacing", "max_evaluations", "positions")
+SIZE_KEYS = ("vary", "bounds", "samples", "rtol", "spacing", "max_evaluations", "positions",
+             "resolution", "cheaper", "module")
 SWEEP_KEYS = ("axes", "cache", "keep_fields", "trace_interval_s")
 
 
@@ -318,6 +319,8 @@ def _size(where, table) -> dict:
         raise ScenarioError(f"{where}: `size.vary` = {table.get('vary')!r}; expected the name "
                             "of a cooling design parameter, e.g. \"flow_L_min\"")
     bounds = table.get("bounds")
+    if bounds is None:  # the parameter's default bounds (explorer.sizing.DESIGN_PARAMETERS)
+        return dict(table)
     if not (isinstance(bounds, list) and len(bounds) == 2):
         raise ScenarioError(f"{where}: `size.bounds` = {bounds!r}; expected [lo, hi]")
     for k, b in enumerate(bounds):
@@ -435,12 +438,21 @@ def cmd_size(scenario, out=None) -> int:
     if sc.cooling is None:
         raise ScenarioError(f"{where}: no `[cooling]` table; sizing varies a cooling design")
     options = {k: v for k, v in sc.size.items() if k not in ("vary", "bounds")}
-    res = size_cooling(sc.cell, sc.duty, sc.cooling, sc.size["vary"], tuple(sc.size["bounds"]),
-                       sc.limits, **options, **sc.model)
+    bounds = sc.size.get("bounds")
+    vary = sc.size["vary"]
+
+    def progress(value, met, margin):  # one line per run, so a long sizing shows life
+        print(f"  run: {vary} = {value:.6g}: {'meets' if met else 'fails'} (worst margin "
+              f"{margin:+.3g})", file=sys.stderr, flush=True)
+
+    res = size_cooling(sc.cell, sc.duty, sc.cooling, vary, None if bounds is None else
+                       tuple(bounds), sc.limits, on_evaluation=progress, **options, **sc.model)
     folder = _out_dir(sc, out)
-    run_path = write_netcdf(res.dataset, folder / f"{sc.path.stem}_size.nc")
+    run = res.dataset if res.module is None else res.module  # the module run, all its cells
+    run_path = write_netcdf(run, folder / f"{sc.path.stem}_size.nc")
     curve = res.curve.copy()
     curve.attrs.update({"design_value": res.value, "feasible": int(res.feasible),
+                        "limited_by": res.limited_by, "unit": res.unit,
                         "message": res.message, "cell_name": sc.cell.name,
                         "cooling": json.dumps(res.design.describe(), default=str)})
     curve_path = write_netcdf(curve, folder / f"{sc.path.stem}_size_curve.nc")

@@ -336,3 +336,48 @@ def test_real_module_flow_sizing():
         "met"]
     less = design.replace(flow_L_min=round(res.value - res.resolution, 6))
     assert not lim.check(mod.simulate_module(cell, d, less, **kw))["met"]
+
+
+def test_cmd_size_with_default_bounds(tmp_path, capsys):
+    """A `[size]` table without `bounds` sizes over the parameter's default bounds and prints
+    one line per run."""
+    from explorer.scenario import cmd_size, load_scenario
+
+    text = """
+    [scenario]
+    name = "default bounds (invented)"
+    cell = "van_nmc_66ah"
+    [model]
+    electrochemistry = "spm"
+    layout = "averaged"
+    grid = [8, 6]
+    output_interval_s = 30.0
+    [[duty]]
+    step = "discharge"
+    c_rate = 2.0
+    end_time_s = 900
+    [cooling]
+    design = "edge_plate"
+    edge = "bottom"
+    fin_mm = 0.5
+    [cooling.plate]
+    kind = "fixed_sink"
+    temperature_C = 25.0
+    conductance_W_mK = 200.0
+    [limits]
+    temperature_max_C = 38.0
+    [size]
+    vary = "fin_mm"
+    resolution = 0.1
+    """
+    path = tmp_path / "case.toml"
+    path.write_text("\n".join(line.strip() for line in text.splitlines()), encoding="utf-8")
+    assert load_scenario(path).size.get("bounds") is None
+    code = cmd_size(path, tmp_path)
+    captured = capsys.readouterr()
+    curve = xr.open_dataset(tmp_path / "case_size_curve.nc").load()
+    assert code == (0 if curve.attrs["feasible"] else 1)
+    assert float(curve["value"].min()) == 0.1 and float(curve["value"].max()) == 3.0
+    assert "bounds 0.1 to 3 mm, resolution 0.1 mm" in captured.out
+    assert captured.err.count("run: fin_mm =") == curve.sizes["value"]
+    assert curve.attrs["limited_by"] in ("limits", "lower bound", "upper bound", "none met")
