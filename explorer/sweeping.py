@@ -9,16 +9,28 @@ Execution
     processes, one thread each, no dashboard) is started and stopped; a
     scheduler address (``"tcp://host:8786"``) or a ``distributed.Client``
     uses a running cluster; ``scheduler="serial"`` runs in this process.
+    Worker processes start by running the main script again, so a plain
+    script that calls :func:`sweep` outside ``if __name__ == "__main__":``
+    cannot have them: the default then runs the cases in this process and
+    logs a warning saying how to get the workers. (A Dask cluster of threads
+    instead is no faster than this process: the cases hold the GIL.)
 Cache
-    With ``cache_dir`` every finished case is written there at once
-    (atomically, netCDF named by a SHA-256 key of the cell file's hash, the
-    duty, ``cooling.describe()`` of the case's design, the model settings and
-    the tool version). A sweep that was interrupted resumes from the cache:
-    only the missing cases run. Failed cases are not cached, so they are
-    retried on the next run.
-Failures
+    With ``cache_dir`` every case that ran to a result ("completed", or
+    "cut_short" with that status kept) is written there at once through
+    :func:`explorer.fileio.atomic_write`, netCDF named by a SHA-256 key of the
+    cell file's hash, the duty, ``cooling.describe()`` of the case's design,
+    the model settings and the tool version; the key is stored inside the
+    entry too. An entry that cannot be read, holds another key or another
+    status is treated as missing: the case runs again and the entry is
+    overwritten. A sweep that was interrupted resumes from the cache: only the
+    missing cases run. Failed and stopped cases are never cached. Temporary
+    files of a sweep killed mid-write are removed on the next start.
+Failures and Ctrl-C
     A case that raises is recorded (``case_status`` "failed" and
-    ``case_message`` with the reason) and the sweep goes on.
+    ``case_message`` with the reason) and the sweep goes on; a case lost with
+    its Dask worker is retried by Dask, then recorded "failed". Ctrl-C stops
+    the sweep: it returns what it has, the case that was running and those
+    not yet run marked "stopped" (attribute ``status`` "stopped").
 Traces
     Time traces (voltage, current, temperatures, heat, SOC) are linearly
     resampled onto one uniform time base from 0 to the longest case's end,
@@ -29,6 +41,7 @@ Traces
 
 from __future__ import annotations
 
+import ast
 import contextlib
 import dataclasses
 import hashlib
@@ -36,6 +49,7 @@ import itertools
 import json
 import logging
 import math
+import sys
 import time
 from pathlib import Path
 
@@ -80,7 +94,11 @@ SUMMARY = {
     "pressure_drop_kPa": ("kPa", "plate pressure drop"),
     "pump_power_W": ("W", "pump power"),
 }
-CACHE_FORMAT = 1  # bump when the cached case layout changes
+CACHE_FORMAT = 2  # bump when the cached case layout changes
+# Case statuses that are a result of the design and may be cached (contracts A): a cut-short
+# run is what that design does; a stopped or failed one says nothing about it.
+CACHEABLE = ("completed", "cut_short")
+NOT_RUN = "not run: the sweep was stopped before this case"
 # The default local cluster: loopback only, two single-threaded worker processes, no
 # dashboard; the scheduler's small HTTP server (health, metrics) takes a free port.
 LOCAL_CLUSTER = {"n_workers": 2, "threads_per_worker": 1, "processes": True, "host": "127.0.0.1",
@@ -120,7 +138,8 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
     keep_fields : bool
         Also keep the fields over (y, x) on the common time base.
     cache_dir : path, optional
-        Folder for the per-case cache (created when missing).
+        Folder for the per-case cache (created when missing). Only cases that
+        ran to a result are cached; a damaged or foreign entry is recomputed.
     progress : bool
         Show a progress bar (tqdm).
     limits : Limits, optional
@@ -140,6 +159,9 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
         ``energy_delivered_Wh``, ``heat_rejected_J``, ``pressure_drop_kPa``,
         ``pump_power_W``, ...), ``case_status`` and ``case_message`` over the
         axes; traces over the axes and ``time``; fields when asked for.
+        ``attrs["status"]`` is "stopped" after Ctrl-C, else "completed";
+        ``attrs["cases_failed"]`` counts the cases without a full result
+        (failed or stopped).
     """
     if limits is not None and not isinstance(limits, Limits):
         raise InputError(f"sweep: `limits` must be an explorer.Limits, got {type(limits).__name__}")
@@ -149,9 +171,7 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
                          f"{trace_interval_s!r}")
     axes = _check_axes(axes, cooling, simulate_kwargs)
     cases = _cases(cell, duty, cooling, axes, simulate_kwargs, keep_fields)
-    cache = Path(cache_dir) if cache_dir is not None else None
-    if cache is not None:
-        cache.mkdir(parents=True, exist_ok=True)
+    cache = _open_cache(cache_dir)
 
     results: dict[tuple, xr.Dataset] = {}
     for case in cases:
@@ -168,17 +188,35 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
 
     def done(case, result):
         results[case.index] = result
-        if cache is not None and result.attrs.get("case_status") != "failed":
+        if cache is not None and result.attrs.get("case_status") in CACHEABLE:
             _write_cache(cache, case.key, result)
         bar.update(1)
 
+    if todo and scheduler is None and _main_reruns_sweep():
+        log.warning(
+            "sweep: this script calls sweep() outside an `if __name__ == \"__main__\":` block; "
+            "Dask worker processes run the script again on start, so they cannot be used: the "
+            "%d cases run one after another in this process. Put the call under `if __name__ "
+            "== \"__main__\":` to run them in parallel, or pass scheduler=\"serial\".", len(todo))
+        scheduler = "serial"
+    stopped = False
     try:
         if todo:
             _execute(cell, duty, todo, scheduler, keep_fields, done)
+    except (KeyboardInterrupt, _Stopped):
+        stopped = True
+        log.warning("sweep stopped: %d of %d cases have a result; the others are marked "
+                    "'stopped'%s", sum(r.attrs.get("case_status") in CACHEABLE
+                                       for r in results.values()), len(cases),
+                    "; the cached ones are kept for the next run" if cache is not None else "")
     finally:
         bar.close()
     return _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields,
-                     trace_interval_s, simulate_kwargs, scheduler)
+                     trace_interval_s, simulate_kwargs, scheduler, stopped)
+
+
+class _Stopped(Exception):
+    """A case came back "stopped" (Ctrl-C caught inside the run): the sweep stops too."""
 
 
 # --------------------------------------------------------------------------- cases and keys
@@ -279,10 +317,10 @@ def run_case(cell, duty, design, settings: dict, keep_fields: bool = False) -> x
     wall, cpu = time.perf_counter(), time.process_time()
     try:
         ds = _simulate(cell, duty, cooling=design, **settings)
+        out = reduce_run(ds, keep_fields)
     except Exception as exc:  # one bad case must not stop the sweep
         log.warning("sweep case %s failed: %s", settings, exc)
         return _failed(f"{type(exc).__name__}: {exc}")
-    out = reduce_run(ds, keep_fields)
     out.attrs.update(case_wall_s=time.perf_counter() - wall, case_cpu_s=time.process_time() - cpu)
     return out
 
@@ -321,13 +359,23 @@ def reduce_run(ds: xr.Dataset, keep_fields: bool = False) -> xr.Dataset:
         coords.update(x=ds["x"].values, y=ds["y"].values)
     status = str(ds.attrs.get("status", "completed"))
     attrs = {"case_status": status, "case_message": str(ds.attrs.get("status_message", "")),
-             "output_interval_s": float(ds.attrs.get("output_interval_s", math.nan)),
+             # a number, or "auto" when simulate chose the spacing per duty step
+             "output_interval_s": _number(ds.attrs.get("output_interval_s")),
              "hydraulics_warnings": json.dumps(list(hyd.get("warnings", []) or []))}
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
-def _failed(message: str) -> xr.Dataset:
-    return xr.Dataset(attrs={"case_status": "failed", "case_message": message})
+def _failed(message: str, status: str = "failed") -> xr.Dataset:
+    return xr.Dataset(attrs={"case_status": status, "case_message": message})
+
+
+def _number(value) -> float:
+    """``value`` as a float; NaN for anything that is not a finite number (e.g. "auto")."""
+    try:
+        out = float(value)
+    except (TypeError, ValueError):
+        return math.nan
+    return out if math.isfinite(out) else math.nan
 
 
 def _nanmax(ds, name) -> float:
@@ -347,22 +395,61 @@ def write_netcdf(ds: xr.Dataset, path) -> Path:
     return save(ds, path)
 
 
+def _open_cache(cache_dir) -> Path | None:
+    """The cache folder, created when missing, cleared of a killed sweep's temporary files."""
+    if cache_dir is None:
+        return None
+    from explorer.fileio import remove_stale_temp
+    from explorer.validators import OutputError
+
+    cache = Path(cache_dir)
+    try:
+        cache.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(f"sweep: cannot create the cache folder {str(cache)!r} "
+                          f"({exc.strerror or exc})") from None
+    if not cache.is_dir():
+        raise OutputError(f"sweep: `cache_dir` {str(cache)!r} is not a folder")
+    remove_stale_temp(cache)
+    return cache
+
+
 def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
+    """The cached result of the case ``key``, or None when there is no sound entry for it."""
     if cache is None:
         return None
     path = cache / f"{key}.nc"
     if not path.is_file():
         return None
     try:
-        with xr.open_dataset(path) as ds:
-            return ds.load()
-    except (OSError, ValueError) as exc:  # a damaged entry is recomputed, not fatal
-        log.warning("sweep cache entry %s unreadable (%s); recomputing", path, exc)
+        with xr.open_dataset(path, engine="netcdf4") as ds:
+            entry = ds.load()
+        problem = _cache_problem(entry, key)
+    except Exception as exc:  # noqa: BLE001 - any unreadable entry is recomputed, not fatal
+        problem = f"unreadable ({type(exc).__name__}: {exc})"
+    if problem:
+        log.warning("sweep cache entry %s %s; the case runs again and the entry is replaced",
+                    path, problem)
         return None
+    return entry
+
+
+def _cache_problem(entry: xr.Dataset, key: str) -> str:
+    """Why ``entry`` is not the sound cached result of case ``key`` ('' when it is)."""
+    if entry.attrs.get("cache_key") != key:
+        return "holds another case (its stored key differs)"
+    if entry.attrs.get("case_status") not in CACHEABLE:
+        return f"has status {entry.attrs.get('case_status')!r}"
+    missing = [n for n in SUMMARY if n not in entry]
+    if missing or "time" not in entry.coords or entry.sizes["time"] == 0:
+        return f"is incomplete (missing {missing or ['time']})"
+    return ""
 
 
 def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
-    write_netcdf(result, cache / f"{key}.nc")
+    entry = result.copy()
+    entry.attrs.update(cache_key=key, cache_format=CACHE_FORMAT)
+    write_netcdf(entry, cache / f"{key}.nc")
 
 
 # --------------------------------------------------------------------------- execution
@@ -371,7 +458,7 @@ def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
 def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
     if isinstance(scheduler, str) and scheduler.lower() in ("serial", "local-serial"):
         for case in todo:
-            done(case, run_case(cell, duty, case.design, case.settings, keep_fields))
+            _finish(done, case, run_case(cell, duty, case.design, case.settings, keep_fields))
         return
     with _quiet_cluster_logs(scheduler is None):
         _execute_dask(cell, duty, todo, scheduler, keep_fields, done)
@@ -413,9 +500,9 @@ def _execute_dask(cell, duty, todo, scheduler, keep_fields, done) -> None:
             case = futures[fut]
             try:
                 result = fut.result()
-            except Exception as exc:  # e.g. a worker died: record it, keep the sweep going
+            except Exception as exc:  # e.g. a worker died too often: record it, keep going
                 result = _failed(f"{type(exc).__name__}: {exc}")
-            done(case, result)
+            _finish(done, case, result)
     finally:
         for fut in futures:
             fut.cancel()
@@ -423,6 +510,62 @@ def _execute_dask(cell, duty, todo, scheduler, keep_fields, done) -> None:
             client.close()
         if cluster is not None:
             cluster.close()
+
+
+def _finish(done, case, result) -> None:
+    """Hand a case's result on; a case stopped by Ctrl-C inside its run stops the sweep."""
+    done(case, result)
+    if result.attrs.get("case_status") == "stopped":
+        raise _Stopped(result.attrs.get("case_message", ""))
+
+
+def _main_reruns_sweep() -> bool:
+    """Whether Dask worker processes started now would run this sweep call again.
+
+    A worker process starts by running the main script again (as
+    ``__mp_main__``; Python's "spawn" start). A plain script that calls
+    :func:`sweep` outside ``if __name__ == "__main__":`` then starts a cluster
+    inside each worker, and the workers fail to start. Notebooks, the REPL,
+    ``python -c`` and ``python -m package`` (a ``__main__`` module) are not
+    run again.
+    """
+    main = sys.modules.get("__main__")
+    path = getattr(main, "__file__", None)
+    if main is None or not path:
+        return False
+    spec = getattr(main, "__spec__", None)
+    if spec is not None and (spec.name == "__main__" or spec.name.endswith(".__main__")):
+        return False
+    frame = sys._getframe(1)
+    while frame is not None and not (frame.f_globals is vars(main)
+                                     and frame.f_code.co_name == "<module>"):
+        frame = frame.f_back
+    if frame is None:  # not reached from the script's top-level code (e.g. another thread)
+        return False
+    try:
+        tree = ast.parse(Path(frame.f_code.co_filename).read_text(encoding="utf-8"))
+    except (OSError, SyntaxError, ValueError, UnicodeDecodeError):
+        return True  # cannot tell: the cases run here, which always works
+    return not _under_main_guard(tree, frame.f_lineno)
+
+
+def _under_main_guard(tree: ast.AST, line: int) -> bool:
+    """Whether ``line`` lies in the body of an ``if __name__ == "__main__":`` block."""
+    for node in ast.walk(tree):
+        if isinstance(node, ast.If) and _is_main_test(node.test) and node.body:
+            if node.body[0].lineno <= line <= (node.body[-1].end_lineno or line):
+                return True
+    return False
+
+
+def _is_main_test(test: ast.AST) -> bool:
+    if not (isinstance(test, ast.Compare) and len(test.ops) == 1
+            and isinstance(test.ops[0], ast.Eq)):
+        return False
+    sides = [test.left, test.comparators[0]]
+    names = [s.id for s in sides if isinstance(s, ast.Name)]
+    consts = [s.value for s in sides if isinstance(s, ast.Constant)]
+    return names == ["__name__"] and consts == ["__main__"]
 
 
 def _connect(scheduler):
@@ -452,10 +595,13 @@ def _connect(scheduler):
 
 
 def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, trace_interval_s,
-              simulate_kwargs, scheduler) -> xr.Dataset:
+              simulate_kwargs, scheduler, stopped=False) -> xr.Dataset:
     names = list(axes)
     shape = tuple(len(axes[n]) for n in names)
-    ok = [results[c.index] for c in cases if results[c.index].attrs["case_status"] != "failed"]
+    results = {c.index: results.get(c.index, _failed(NOT_RUN, "stopped")) for c in cases}
+    # every case with traces, a stopped or cut-short one included (it keeps what it computed)
+    ok = [results[c.index] for c in cases
+          if "time" in results[c.index].dims and results[c.index].sizes["time"] > 0]
     data = {}
     for name, (unit, long) in SUMMARY.items():
         arr = np.full(shape, np.nan)
@@ -470,7 +616,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
         status[c.index] = str(results[c.index].attrs["case_status"])
         message[c.index] = str(results[c.index].attrs.get("case_message", ""))
     data["case_status"] = (names, status.astype(str),
-                           {"long_name": "completed | stopped | failed"})
+                           {"long_name": "completed | cut_short | stopped | failed"})
     data["case_message"] = (names, message.astype(str), {"long_name": "why a case stopped or failed"})
     warnings = np.empty(shape, dtype=object)
     for c in cases:
@@ -484,7 +630,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
             arr[c.index] = float(results[c.index].attrs.get(name, np.nan))
         data[name] = (names, arr, {"units": "s", "long_name": long})
     if limits is not None:
-        _add_margins(data, names, shape, limits)
+        _add_margins(data, names, shape, limits, status)
 
     # Common time base for the traces, NaN-padded after each case's end.
     if ok:
@@ -523,7 +669,11 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
     from explorer import __version__
     from explorer.results import CAUTION
 
-    n_failed = int(sum(s == "failed" for s in status.ravel()))
+    n_failed = int(sum(s not in CACHEABLE for s in status.ravel()))
+    n_stopped = int(sum(s == "stopped" for s in status.ravel()))
+    n_cut = int(sum(s == "cut_short" for s in status.ravel()))
+    summary = (f"{len(cases) - n_failed} of {len(cases)} cases have a result ({n_cut} cut short); "
+               f"{n_failed - n_stopped} failed, {n_stopped} stopped")
     attrs = {
         "title": f"Pouch Thermal Explorer sweep: {cell.name}",
         "tool_version": __version__,
@@ -538,7 +688,10 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
         "settings": json.dumps(simulate_kwargs, default=str),
         "limits": json.dumps(limits.as_dict() if limits is not None else {}),
         "cases": len(cases),
-        "cases_failed": n_failed,
+        "cases_failed": n_failed,  # without a full result: failed or stopped
+        "cases_stopped": n_stopped,
+        "status": "stopped" if stopped else "completed",
+        "status_message": ("stopped by the user (Ctrl-C): " if stopped else "") + summary,
         "scheduler": scheduler if isinstance(scheduler, str) else
         ("local cluster" if scheduler is None else "client"),
         "time_base": "traces linearly resampled onto a uniform time base, NaN after each "
@@ -548,7 +701,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
-def _add_margins(data, names, shape, limits: Limits) -> None:
+def _add_margins(data, names, shape, limits: Limits, status) -> None:
     source = {"temperature_max_C": "peak_temperature_C", "spread_K": "max_spread_K",
               "core_temperature_max_C": "core_temperature_max_C",
               "coolant_outlet_C": "coolant_outlet_max_C",
@@ -560,8 +713,9 @@ def _add_margins(data, names, shape, limits: Limits) -> None:
             "units": LIMIT_UNITS[name].replace("degC", "K"),
             "long_name": f"margin on {name} = {value:g} (positive = met)"})
         met &= margin >= 0.0  # NaN (failed case or no such figure) counts as not met
-    data["meets_limits"] = (names, met.astype("int8"),
-                            {"units": "1", "long_name": "every limit met (1) or not (0)"})
+    met &= status == "completed"  # a duty that did not run to its end meets nothing
+    data["meets_limits"] = (names, met.astype("int8"), {
+        "units": "1", "long_name": "every limit met on a completed case (1) or not (0)"})
 
 
 def _interval(results) -> float:

@@ -60,9 +60,12 @@ def test_interrupted_sweep_resumes_from_cache(tmp_path, monkeypatch):
     plate = StandInPlate()
     interrupted = Counter(interrupt_after=4)
     monkeypatch.setattr(sweep_mod, "_simulate", interrupted)
-    with pytest.raises(KeyboardInterrupt):
-        sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
-              progress=False)
+    # Ctrl-C between two runs: the sweep stops and returns what it has
+    part = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+                 progress=False)
+    assert part.attrs["status"] == "stopped" and part.attrs["cases_stopped"] == 2
+    assert sorted(part["case_status"].values.ravel()) == ["completed"] * 4 + ["stopped"] * 2
+    assert part.attrs["cases_failed"] == 2  # no full result
     assert len(list(tmp_path.glob("*.nc"))) == 4
     resumed = Counter()
     monkeypatch.setattr(sweep_mod, "_simulate", resumed)
@@ -99,6 +102,137 @@ def test_failed_case_is_recorded_and_not_cached(tmp_path, standin):
                   progress=False)
     assert alone.attrs["cases_failed"] == 1 and alone.sizes["time"] == 0
     assert str(alone["case_status"].values[0]) == "failed"
+
+
+def _stopped_after(after_s, status="stopped", message="interrupted by the user"):
+    """A stand-in run ended early at ``after_s`` with ``status`` (the stepper's record, contracts
+    A: it keeps what it computed up to then)."""
+    def run(*args, **kwargs):
+        ds = standin_simulate(*args, **kwargs).sel(time=slice(0.0, after_s))
+        ds.attrs.update(status=status, status_message=f"{message} at t = {after_s:g} s")
+        return ds
+    return run
+
+
+class Script:
+    """Replays a list of stand-in runs (None: the plain stand-in) and counts the calls."""
+
+    def __init__(self, *runs):
+        self.runs, self.calls = list(runs), 0
+
+    def __call__(self, *args, **kwargs):
+        run = self.runs[self.calls] if self.calls < len(self.runs) else None
+        self.calls += 1
+        return (run or standin_simulate)(*args, **kwargs)
+
+
+def _keys(plate, axes, **settings):
+    """Case values -> cache key, as the sweep computes them."""
+    checked = sweep_mod._check_axes(axes, plate, settings)
+    return {tuple(c.values.values()): c.key
+            for c in sweep_mod._cases(STANDIN_CELL, DUTY, plate, checked, settings, False)}
+
+
+def test_stopped_case_stops_the_sweep_and_is_not_cached(tmp_path, monkeypatch):
+    plate = StandInPlate()
+    lim = Limits(temperature_max_C=80.0)
+    # the third run is caught by Ctrl-C inside the stepper and comes back "stopped"
+    monkeypatch.setattr(sweep_mod, "_simulate", Script(None, None, _stopped_after(300.0)))
+    part = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+                 progress=False, limits=lim)
+    assert part.attrs["status"] == "stopped"
+    assert "Ctrl-C" in part.attrs["status_message"]
+    flat = part.stack(case=list(AXES))
+    assert list(flat["case_status"].values) == ["completed"] * 2 + ["stopped"] * 4
+    assert "interrupted by the user" in str(flat["case_message"].values[2])
+    assert all(str(m) == sweep_mod.NOT_RUN for m in flat["case_message"].values[3:])
+    # the stopped case keeps what it computed (traces up to 300 s), but meets nothing
+    trace = flat["temperature_max"].isel(case=2)
+    assert np.isfinite(trace.sel(time=300.0)) and np.isnan(trace.sel(time=320.0))
+    assert float(flat["margin_temperature_max_C"].isel(case=2)) > 0
+    assert list(flat["meets_limits"].values) == [1, 1, 0, 0, 0, 0]
+    assert len(list(tmp_path.glob("*.nc"))) == 2  # only the completed ones
+    resumed = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", resumed)
+    done = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=tmp_path,
+                 progress=False)
+    assert resumed.calls == 4 and done.attrs["status"] == "completed"
+    assert (done["case_status"] == "completed").all() and done.attrs["cases_failed"] == 0
+
+
+def test_cut_short_case_is_cached_with_its_status(tmp_path, monkeypatch):
+    plate = StandInPlate()
+    axes = {"flow_L_min": [1.0, 2.0]}
+    cut = _stopped_after(600.0, "cut_short", "voltage window reached")
+    monkeypatch.setattr(sweep_mod, "_simulate", Script(cut, None))
+    first = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+                  progress=False, limits=Limits(temperature_max_C=80.0))
+    assert list(first["case_status"].values) == ["cut_short", "completed"]
+    assert first.attrs["status"] == "completed" and first.attrs["cases_failed"] == 0
+    assert list(first["meets_limits"].values) == [0, 1]  # the duty did not run to its end
+    assert len(list(tmp_path.glob("*.nc"))) == 2
+    again = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", again)
+    second = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+                   progress=False)
+    assert again.calls == 0
+    assert list(second["case_status"].values) == ["cut_short", "completed"]
+    assert "voltage window reached" in str(second["case_message"].values[0])
+    assert float(second["duration_s"][0]) == pytest.approx(600.0)
+
+
+def test_cache_entry_is_checked_against_its_key(tmp_path, monkeypatch):
+    plate = StandInPlate()
+    axes = {"flow_L_min": [1.0, 2.0, 4.0]}
+    keys = _keys(plate, axes)
+    first = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", first)
+    ref = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+                progress=False)
+    entry = {q: tmp_path / f"{keys[(q,)]}.nc" for q in axes["flow_L_min"]}
+    # one entry's bytes copied over another's; a valid but empty netCDF; bytes that are no
+    # netCDF at all: each is a missing entry, recomputed and overwritten
+    entry[2.0].write_bytes(entry[1.0].read_bytes())
+    xr.Dataset().to_netcdf(entry[4.0])
+    again = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", again)
+    ds = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+               progress=False)
+    assert again.calls == 2
+    xr.testing.assert_allclose(ds.drop_vars(BOOKKEEPING), ref.drop_vars(BOOKKEEPING))
+    for q, path in entry.items():
+        with xr.open_dataset(path) as stored:
+            assert stored.attrs["cache_key"] == keys[(q,)]
+    entry[1.0].write_bytes(b"not a netCDF file")
+    third = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", third)
+    ds = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+               progress=False)
+    assert third.calls == 1
+    xr.testing.assert_allclose(ds.drop_vars(BOOKKEEPING), ref.drop_vars(BOOKKEEPING))
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(p.name for p in entry.values())
+
+
+def test_cache_dir_that_is_a_file(tmp_path, standin):
+    from explorer.validators import OutputError
+
+    (tmp_path / "cache").write_text("x")
+    with pytest.raises(OutputError, match="cache"):
+        sweep(STANDIN_CELL, DUTY, StandInPlate(), {"flow_L_min": [1.0]}, scheduler="serial",
+              cache_dir=tmp_path / "cache", progress=False)
+
+
+def test_auto_output_interval(monkeypatch):
+    """A run without `output_interval_s` records "auto" (simulate's own spacing per step)."""
+    def auto(*args, **kwargs):
+        ds = standin_simulate(*args, **kwargs)
+        ds.attrs["output_interval_s"] = "auto"
+        return ds
+
+    monkeypatch.setattr(sweep_mod, "_simulate", auto)
+    ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), AXES, scheduler="serial", progress=False)
+    assert (ds["case_status"] == "completed").all()
+    np.testing.assert_allclose(np.diff(ds["time"].values), 20.0)  # the runs' own spacing
 
 
 def test_limits_margins_per_case(standin):
@@ -153,8 +287,8 @@ def test_bad_axes(standin):
 
 # --------------------------------------------------------------------------- real runs
 
-REAL = {"electrochemistry": "spm", "layout": "averaged", "grid": (6, 4),
-        "output_interval_s": 30.0}
+# No `output_interval_s`: the README's flow (simulate picks the spacing and records "auto").
+REAL = {"electrochemistry": "spm", "layout": "averaged", "grid": (6, 4)}
 REAL_AXES = {"fin_mm": [0.5, 2.0], "tim_W_mK": [1.0, 4.0]}
 
 
