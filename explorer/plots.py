@@ -308,17 +308,26 @@ def traces_figure(ds, limits=None) -> go.Figure:
                                  line=dict(color=PALETTE[0], dash="dot", width=1)), row=1, col=1)
     fig.add_trace(go.Scatter(x=t, y=ds["current"].values, name="current (+ discharge)",
                              line=dict(color=PALETTE[4])), row=2, col=1)
-    temps = [("temperature_max", "hottest point", PALETTE[1], None),
+    # the limit is held against the hottest point anywhere (core and faces included)
+    temps = [("temperature_hottest", "hottest point anywhere (core incl.)", PALETTE[1], None),
+             ("temperature_max", "hottest point of the mean field", PALETTE[1], "dash"),
              ("temperature_mean", "face mean", PALETTE[2], None),
-             ("temperature_min", "coldest point", PALETTE[5], None),
-             ("temperature_core_max", "hottest core (estimate)", PALETTE[1], "dot")]
+             ("temperature_min", "coldest point of the mean field", PALETTE[5], "dash"),
+             ("temperature_coldest", "coldest point anywhere", PALETTE[5], None),
+             ("temperature_core_max", "hottest core (estimate from generation)", PALETTE[1],
+              "dot")]
     for name, label, color, dash in temps:
         if name in ds:
             fig.add_trace(go.Scatter(x=t, y=ds[name].values, name=label,
                                      line=dict(color=color, dash=dash)), row=3, col=1)
     spread = ds["temperature_max"].values - ds["temperature_min"].values
-    fig.add_trace(go.Scatter(x=t, y=spread, name="spread (max − min)",
-                             line=dict(color=PALETTE[3])), row=4, col=1)
+    fig.add_trace(go.Scatter(x=t, y=spread, name="spread of the mean field over the face",
+                             line=dict(color=PALETTE[3], dash="dash")), row=4, col=1)
+    if "temperature_hottest" in ds and "temperature_coldest" in ds:
+        fig.add_trace(go.Scatter(x=t, y=ds["temperature_hottest"].values
+                                 - ds["temperature_coldest"].values,
+                                 name="in-cell spread (hottest − coldest anywhere)",
+                                 line=dict(color=PALETTE[3])), row=4, col=1)
     lim = limit_values(ds, limits)
     if "datasheet_C" in lim:
         fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=3, col=1,
@@ -377,9 +386,9 @@ def heat_split_figure(ds) -> go.Figure:
 
 
 _COMPARE = {
-    "temperature_max": ("Hottest point (°C)", 1.0),
+    "temperature_max": ("Hottest point of the mean field (°C)", 1.0),
     "voltage": ("Terminal voltage (V)", 1.0),
-    "spread": ("Spread max − min (K)", 1.0),
+    "spread": ("Spread of the mean field over the face (K)", 1.0),
     "soc_mean": ("State of charge (%)", 100.0),
     "heat_total": ("Generated heat (W)", 1.0),
     "temperature_mean": ("Face mean temperature (°C)", 1.0),
@@ -505,8 +514,8 @@ def sizing_figure(result, limits=None, vary: str | None = None) -> go.Figure:
         "no value within the bounds meets the limits"
     fig.update_layout(**_LAYOUT)
     fig.update_layout(title=dict(text=f"Sizing: {verdict}"), height=560, hovermode="closest")
-    fig.update_yaxes(title_text="Hottest point (°C)", row=1, col=1)
-    fig.update_yaxes(title_text="Spread (K)", row=2, col=1)
+    fig.update_yaxes(title_text="Hottest point anywhere (°C)", row=1, col=1)
+    fig.update_yaxes(title_text="In-cell spread (K)", row=2, col=1)
     fig.update_xaxes(title_text=_axis_label(vary), row=2, col=1)
     return fig
 

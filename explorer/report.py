@@ -41,10 +41,20 @@ DEFAULT_TITLE = "Pouch Thermal Explorer — cooling results"
 
 # key figure -> (label, format); unknown figures are shown with their own name
 KEY_FIGURE_LABELS = {
-    "peak_temperature_C": ("Peak temperature (°C)", "{:.2f}"),
+    "peak_temperature_C": ("Peak temperature (°C): hottest point anywhere in the cell, core "
+                           "estimate and faces included", "{:.2f}"),
     "peak_time_s": ("Time of the peak (s)", "{:.0f}"),
-    "max_spread_K": ("Largest spread max − min (K)", "{:.2f}"),
-    "time_to_limit_s": ("Time to the data-sheet limit (s)", "{:.0f}"),
+    "peak_mean_field_C": ("Hottest point of the through-thickness-mean field (°C)", "{:.2f}"),
+    "max_spread_K": ("Largest in-cell spread (K): hottest − coldest point anywhere in the cell "
+                     "at one time", "{:.2f}"),
+    "max_face_spread_K": ("Largest spread over the face (K), through-thickness-mean field",
+                          "{:.2f}"),
+    "max_through_thickness_K": ("Largest difference through the thickness at one point (K)",
+                                "{:.2f}"),
+    "time_to_limit_s": ("Time for the hottest point anywhere to reach the data-sheet limit (s)",
+                        "{:.0f}"),
+    "worst_cell": ("Worst cell of the module (peak)", "{}"),
+    "cell_to_cell_K": ("Largest cell-to-cell difference of mean temperatures (K)", "{:.2f}"),
     "end_soc": ("SOC at the end (%)", "pct"),
     "energy_delivered_Wh": ("Energy delivered (Wh)", "{:.1f}"),
     "charge_delivered_Ah": ("Charge delivered (Ah)", "{:.2f}"),
@@ -104,11 +114,17 @@ def _esc(value) -> str:
     return html.escape(str(value), quote=True)
 
 
+# key figures a single-temperature layout cannot see (NaN in explorer.results.key_figures)
+_OVER_THE_FACE = ("max_spread_K", "max_face_spread_K")
+
+
 def format_figure(name: str, value) -> tuple[str, str]:
     """A key figure as (label with unit, formatted value) for tables (unknown names pass through)."""
     label, fmt = KEY_FIGURE_LABELS.get(name, (name.replace("_", " "), "{}"))
     if value is None:
         text = "not reached" if name == "time_to_limit_s" else "—"
+    elif name in _OVER_THE_FACE and isinstance(value, float) and np.isnan(value):
+        text = "not evaluated (one temperature over the face)"
     elif isinstance(value, int | float | np.floating | np.integer) and not isinstance(value, bool):
         v = float(value)
         if not np.isfinite(v):
@@ -199,17 +215,49 @@ def hydraulics_rows(ds) -> list[tuple[str, str]]:
 def limits_rows(ds, limits) -> list[tuple[str, str, str, str, str]]:
     """(limit, limit value, figure, margin, verdict) rows from ``limits.check(ds)``.
 
-    Empty when ``limits`` has no ``check`` method (e.g. a plain mapping used only for the lines).
+    The limit cell names the figure that governs (e.g. the hottest point anywhere in the cell,
+    core included); the verdict is "met", "NOT met" or "not evaluated: <why>". The design's
+    hydraulics are read from ``ds.attrs["hydraulics"]``. Empty when ``limits`` has no ``check``
+    method (e.g. a plain mapping used only for the lines).
     """
-    check = getattr(limits, "check", None)
-    if check is None:
+    result = _limits_check(ds, limits)
+    if result is None:
         return []
-    result = check(ds)
+    from explorer.limits import LONG_NAMES
+
     rows = []
     for name, margin in result["margins"].items():
-        rows.append((name, f"{getattr(limits, name):.4g}", f"{result['figures'][name]:.4g}",
-                     f"{margin:+.3g}", "met" if margin >= 0 else "NOT met"))
+        verdict = result["verdicts"][name]
+        figure = result["figures"].get(name)
+        if figure is not None:
+            shown = f"{figure:.4g}"
+        elif name in result.get("bounds", {}):
+            shown = f"≥ {result['bounds'][name]:.4g}"
+        else:
+            shown = "—"
+        cell = result.get("cells", {}).get(name)
+        if cell is not None:
+            shown += f" (cell {cell})"
+        text = {"met": "met", "not met": "NOT met"}.get(verdict, "not evaluated")
+        if name in result["reasons"]:
+            text += f": {result['reasons'][name]}"
+        rows.append((f"{name}: {LONG_NAMES.get(name, name)}", f"{getattr(limits, name):.4g}",
+                     shown, "—" if margin is None else f"{margin:+.3g}", text))
     return rows
+
+
+def _limits_check(ds, limits):
+    """``limits.check(ds, hydraulics)`` with the hydraulics the run recorded; None without a
+    ``check`` method."""
+    check = getattr(limits, "check", None)
+    if check is None:
+        return None
+    raw = ds.attrs.get("hydraulics", "{}")
+    try:
+        hyd = json.loads(raw) if isinstance(raw, str) else dict(raw or {})
+    except (TypeError, ValueError):
+        hyd = {}
+    return check(ds, hyd or None)
 
 
 def _inputs_table(inputs) -> str:
@@ -269,8 +317,15 @@ def _limits_section(ds, limits) -> list[str]:
         return []
     cells = [[_esc(c) for c in row[:4]] + [f"<span class='status-{'completed' if row[4] == 'met' else 'failed'}'>"
                                             f"{_esc(row[4])}</span>"] for row in rows]
+    result = _limits_check(ds, limits)
+    overall = ("Every limit met." if result["met"] else
+               "Not every limit is shown to be met: a limit not evaluated is not met."
+               if all(v != "not met" for v in result["verdicts"].values()) else
+               "A limit is NOT met.")
+    notes = [f"<p class='caution'>Warning: {_esc(w)}</p>" for w in result.get("warnings", [])]
     return ["<h3>Limits (margin = limit − figure)</h3>",
-            _table(cells, header=("limit", "limit value", "figure", "margin", ""))]
+            _table(cells, header=("limit", "limit value", "figure", "margin", "")),
+            f"<p>{_esc(overall)}</p>", *notes]
 
 
 def _hydraulics_section(ds) -> list[str]:

@@ -18,7 +18,13 @@ voltage, current, power, ocv                   time         V, A, W  terminal va
 soc_mean                                       time         1        cell state of charge
 soc, current_density                           time, y, x   1, A m-2 local (uniform unless distributed)
 temperature                                    time, y, x   degC     through-thickness mean field
-temperature_max / _min / _mean / _core_max     time         degC     over the face; core = hottest
+temperature_max / _min / _mean                 time         degC     of the mean field over the face
+temperature_core_max                           time         degC     core estimate from generation
+temperature_hottest / _coldest                 time         degC     anywhere in the cell (through
+                                                                     the thickness included)
+temperature_front_max / _min, _back_max / _min time         degC     face surface extremes
+through_thickness_difference                   time         K        largest hottest - coldest
+                                                                     through the thickness
 heat_flux                                      time, y, x   W m-2    generated heat per face area
 heat_total, heat_<source>                      time         W        irreversible, reversible,
                                                                      ohmic_electrolyte, ohmic_solid,
@@ -99,12 +105,18 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "current_density": _var(("time", "y", "x"),
                                 _field(record.current_density, current / grid.area_m2, T.shape),
                                 "A m-2", "current through the stack per unit face area"),
-        "temperature": _var(("time", "y", "x"), T, "degC", "cell temperature"),
-        "temperature_max": _var("time", Tmax, "degC", "hottest point of the face"),
-        "temperature_min": _var("time", T.min(axis=(1, 2)), "degC", "coldest point of the face"),
-        "temperature_mean": _var("time", T.mean(axis=(1, 2)), "degC", "area-mean temperature"),
+        "temperature": _var(("time", "y", "x"), T, "degC",
+                            "cell temperature (through-thickness mean)"),
+        "temperature_max": _var("time", Tmax, "degC",
+                                "hottest point of the through-thickness-mean field over the face"),
+        "temperature_min": _var("time", T.min(axis=(1, 2)), "degC",
+                                "coldest point of the through-thickness-mean field over the face"),
+        "temperature_mean": _var("time", T.mean(axis=(1, 2)), "degC",
+                                 "area-mean of the through-thickness-mean temperature"),
         "temperature_core_max": _var("time", Tmax + np.asarray(record.core_difference), "degC",
-                                     "hottest through-plane (core) temperature of the face"),
+                                     "hottest through-plane (core) temperature estimate from the "
+                                     "local generation"),
+        **_through_vars(record, Tmax, T.min(axis=(1, 2))),
         "heat_flux": _var(("time", "y", "x"), heat_map, "W m-2",
                           "generated heat per unit face area"),
         "heat_total": _var("time", heat_total, "W", "total generated heat"),
@@ -156,6 +168,38 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
     return xr.Dataset(data, coords=coords, attrs=full_attrs)
 
 
+# through-thickness variables: name -> (Record field, units, long_name)
+_THROUGH = {
+    "temperature_hottest": ("hottest", "degC",
+                            "hottest point anywhere in the cell (core and faces included)"),
+    "temperature_coldest": ("coldest", "degC",
+                            "coldest point anywhere in the cell (core and faces included)"),
+    "temperature_front_max": ("front_max", "degC", "hottest point of the front face surface"),
+    "temperature_front_min": ("front_min", "degC", "coldest point of the front face surface"),
+    "temperature_back_max": ("back_max", "degC", "hottest point of the back face surface"),
+    "temperature_back_min": ("back_min", "degC", "coldest point of the back face surface"),
+    "through_thickness_difference": (
+        "through_difference", "K",
+        "largest difference through the thickness (hottest minus coldest at one point of the "
+        "face)"),
+}
+
+
+def _through_vars(record, Tmax, Tmin) -> dict:
+    """The temperatures through the thickness; a record without them (a thermal model that
+    reports none) gives the mean field's extremes and a zero difference."""
+    n = len(record.time)
+    core = Tmax + np.maximum(np.asarray(record.core_difference, dtype=float), 0.0)
+    fallback = {"hottest": core, "coldest": Tmin, "front_max": Tmax, "front_min": Tmin,
+                "back_max": Tmax, "back_min": Tmin, "through_difference": np.zeros(n)}
+    out = {}
+    for name, (key, units, long_name) in _THROUGH.items():
+        values = getattr(record, key, None)
+        out[name] = _var("time", values if values is not None and len(values) == n
+                         else fallback[key], units, long_name)
+    return out
+
+
 def _field(maps, uniform, shape) -> np.ndarray:
     """Recorded maps where the layout resolves them, else the uniform value broadcast."""
     if maps and all(m is not None for m in maps):
@@ -163,20 +207,94 @@ def _field(maps, uniform, shape) -> np.ndarray:
     return np.broadcast_to(np.asarray(uniform, dtype=float)[:, None, None], shape)
 
 
+def is_lumped(ds) -> bool:
+    """True for a run with one temperature over the face (``layout="single"``).
+
+    Read from the ``layout`` attribute; a Dataset without it counts as lumped
+    when its grid is 1 x 1 and its face extremes never differ.
+    """
+    layout = ds.attrs.get("layout")
+    if layout is not None:
+        return str(layout) == "single"
+    if ds.sizes.get("x", 1) * ds.sizes.get("y", 1) > 1:
+        return False
+    return bool(np.all(ds["temperature_max"].values == ds["temperature_min"].values))
+
+
+def is_module(ds) -> bool:
+    """True for a module Dataset (a ``cell`` dimension on the per-cell variables)."""
+    return "cell" in ds.dims
+
+
+def per_cell(ds, name: str) -> np.ndarray:
+    """A time series as a (cells, time) float array; one row for a single-cell Dataset."""
+    v = ds[name]
+    if "cell" in v.dims:
+        v = v.transpose("cell", ...)
+        return np.asarray(v.values, dtype=float).reshape(v.sizes["cell"], -1)
+    return np.asarray(v.values, dtype=float).reshape(1, -1)
+
+
+def hottest_anywhere(ds) -> np.ndarray:
+    """(cells, time) hottest point anywhere in each cell, core included.
+
+    ``temperature_hottest`` where the Dataset has it; for one made without it
+    (an older file), the higher of the mean field's maximum and the core estimate.
+    """
+    if "temperature_hottest" in ds:
+        return per_cell(ds, "temperature_hottest")
+    hot = per_cell(ds, "temperature_max")
+    if "temperature_core_max" in ds:
+        hot = np.fmax(hot, per_cell(ds, "temperature_core_max"))
+    return hot
+
+
+def coldest_anywhere(ds) -> np.ndarray:
+    """(cells, time) coldest point anywhere in each cell (the mean field's minimum without it)."""
+    return per_cell(ds, "temperature_coldest" if "temperature_coldest" in ds
+                    else "temperature_min")
+
+
+def _cell_label(ds, row: int):
+    return int(ds["cell"].values[row]) if "cell" in ds.coords else row
+
+
 def key_figures(ds: xr.Dataset) -> dict:
-    """The figures a design review asks for first, as plain floats."""
+    """The figures a design review asks for first, as plain floats.
+
+    ``peak_temperature_C`` is the hottest point anywhere in the cell (the core
+    estimate and the faces included) and ``time_to_limit_s`` is when that same
+    figure first reaches the data-sheet maximum (None: not reached).
+    ``max_spread_K`` is the in-cell spread: hottest minus coldest point
+    anywhere in the cell at one time (through the thickness included);
+    ``max_face_spread_K`` spans the through-thickness-mean field over the
+    face; ``max_through_thickness_K`` is the largest difference through the
+    thickness at one point. A figure the run cannot see is NaN: both spreads
+    on ``layout="single"`` (one temperature over the face). A module Dataset
+    (a ``cell`` dimension) gives the worst cell's figures, ``worst_cell``
+    (the cell with the peak) and ``cell_to_cell_K`` (largest difference
+    between the cells' mean temperatures at one time).
+    """
     t = ds["time"].values
-    Tmax = ds["temperature_max"].values
-    spread = Tmax - ds["temperature_min"].values
+    hot = hottest_anywhere(ds)
+    spread = hot - coldest_anywhere(ds)
+    face = per_cell(ds, "temperature_max") - per_cell(ds, "temperature_min")
+    lumped = is_lumped(ds)
     limit = float(ds.attrs.get("temperature_limit_C", math.nan))
-    over = np.nonzero(Tmax >= limit)[0] if math.isfinite(limit) else []
-    i_peak = int(np.argmax(Tmax))
-    return {
-        "peak_temperature_C": float(Tmax[i_peak]),
+    over = (np.nonzero((hot >= limit).any(axis=0))[0] if math.isfinite(limit)
+            else np.zeros(0, int))
+    row, i_peak = np.unravel_index(int(np.nanargmax(hot)), hot.shape)
+    through = (float(np.nanmax(per_cell(ds, "through_thickness_difference")))
+               if "through_thickness_difference" in ds else math.nan)
+    figures = {
+        "peak_temperature_C": float(hot[row, i_peak]),
         "peak_time_s": float(t[i_peak]),
-        "max_spread_K": float(spread.max()),
+        "peak_mean_field_C": float(np.nanmax(per_cell(ds, "temperature_max"))),
+        "max_spread_K": math.nan if lumped else float(np.nanmax(spread)),
+        "max_face_spread_K": math.nan if lumped else float(np.nanmax(face)),
+        "max_through_thickness_K": through,
         "time_to_limit_s": float(t[over[0]]) if len(over) else None,
-        "end_soc": float(ds["soc_mean"].values[-1]),
+        "end_soc": float(np.mean(per_cell(ds, "soc_mean")[:, -1])),
         "energy_delivered_Wh": _total(ds, "energy_delivered", "power", 1 / 3600.0),
         "charge_delivered_Ah": _total(ds, "charge_delivered", "current", 1 / 3600.0),
         "heat_generated_J": _total(ds, "heat_generated_energy", "heat_total"),
@@ -185,15 +303,26 @@ def key_figures(ds: xr.Dataset) -> dict:
         "end_voltage_V": float(ds["voltage"].values[-1]),
         "status": str(ds.attrs.get("status", "")),
     }
+    if is_module(ds):
+        mean = per_cell(ds, "temperature_mean")
+        figures["worst_cell"] = _cell_label(ds, int(row))
+        figures["cell_to_cell_K"] = float(np.nanmax(mean.max(axis=0) - mean.min(axis=0)))
+    return figures
 
 
 def _total(ds, running, rate, scale=1.0) -> float:
     """The final value of a running integral; for Datasets made elsewhere without it, the
     rate integrated with each value holding over the step that ends at it (the stepper's rule)."""
+    # a module's cells: heat and energy add up over the string; the series charge is each cell's
+    combine = np.mean if running == "charge_delivered" else np.sum
     if running in ds:
-        return float(ds[running].values[-1])
+        return float(combine(per_cell(ds, running)[:, -1]))
     t = ds["time"].values.astype(float)
-    return float(np.sum(ds[rate].values[1:] * np.diff(t))) * scale
+    if rate not in ds and rate == "power":
+        rates = per_cell(ds, "current") * per_cell(ds, "voltage")
+    else:
+        rates = per_cell(ds, rate)
+    return float(combine(np.sum(rates[:, 1:] * np.diff(t), axis=1))) * scale
 
 
 def save(ds: xr.Dataset, path) -> Path:

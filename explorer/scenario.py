@@ -504,13 +504,35 @@ def sweep_table(ds) -> str:
 
 
 def _limits_table(limits: Limits, check: dict) -> str:
-    from explorer.limits import UNITS
+    """The limits with figure, margin and verdict; then what each figure spans, why a limit
+    was not evaluated, the overall verdict and the run's warnings."""
+    from explorer.limits import LONG_NAMES, UNITS
 
-    lines = [f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  unit"]
+    lines = [f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  {'unit':<6}verdict"]
     for name, margin in check["margins"].items():
-        lines.append(f"{name:<24}{getattr(limits, name):>12.4g}{check['figures'][name]:>12.4g}"
-                     f"{margin:>12.4g}  {UNITS[name]}")
-    lines.append("limits met" if check["met"] else f"LIMIT NOT MET: {check['worst']}")
+        figure = check["figures"].get(name)
+        bound = check.get("bounds", {}).get(name)
+        shown = (f"{figure:.4g}" if figure is not None else
+                 f">={bound:.4g}" if bound is not None else "-")
+        verdict = {"met": "met", "not met": "NOT met"}.get(check["verdicts"][name],
+                                                          "not evaluated")
+        lines.append(f"{name:<24}{getattr(limits, name):>12.4g}{shown:>12}"
+                     f"{'-' if margin is None else format(margin, '.4g'):>12}  "
+                     f"{UNITS[name]:<6}{verdict}")
+    for name in check["margins"]:
+        cell = check.get("cells", {}).get(name)
+        where = f" (worst: cell {cell})" if cell is not None else ""
+        lines.append(f"  {name}: {LONG_NAMES[name]}{where}")
+        if name in check["reasons"]:
+            lines.append(f"    {check['reasons'][name]}")
+    if check["met"]:
+        lines.append("limits met")
+    else:
+        failed = [n for n, v in check["verdicts"].items() if v == "not met"]
+        lines.append(f"LIMIT NOT MET: {', '.join(failed)}" if failed else
+                     f"LIMITS NOT SHOWN TO BE MET (not evaluated: "
+                     f"{', '.join(check['not_evaluated'])})")
+    lines += [f"warning: {w}" for w in check.get("warnings", [])]
     return "\n".join(lines)
 
 

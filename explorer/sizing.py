@@ -478,7 +478,8 @@ class SizingResult:
         lines.append(f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  unit")
         for name, margin in self.margins.items():
             lines.append(f"{name:<24}{getattr(self.limits, name):>12.4g}"
-                         f"{self.figures[name]:>12.4g}{margin:>12.4g}  {UNITS.get(name, '')}")
+                         f"{_num(self.figures.get(name)):>12}{margin:>12.4g}  "
+                         f"{UNITS.get(name, '')}")
         dp = self.hydraulics.get("pressure_drop_Pa")
         pump = self.hydraulics.get("pump_power_W")
         if dp is not None:
@@ -622,11 +623,12 @@ def _result(runner, outcome, entry, bounds) -> SizingResult:
     names = ["temperature_max_C", "spread_K", *limits.names()]
     tps = {name: turning_points(curve["value"].values, curve[name].values)
            for name in dict.fromkeys(names) if name in curve}
-    ds = runner.dataset(value, worst["position"])
-    module_ds, position = None, worst["position"]
-    if runner.as_module:
-        module_ds, position = ds, _worst_cell(ds, runner.cells)
-        ds = ds.isel(cell=position) if position is not None else ds
+    position = worst["position"]
+    module_ds = ds = runner.dataset(value, None if runner.as_module else position)
+    if runner.as_module and position is not None:
+        ds = ds.isel(cell=position)
+    elif not runner.as_module:
+        module_ds = None
     return SizingResult(
         vary=vary, bounds=bounds, limits=limits, value=value, feasible=worst["met"],
         dataset=ds, curve=curve, margins=worst["margins"], figures=worst["figures"],
@@ -820,6 +822,7 @@ class _Runner:
         self.results: dict = {}  # (value, position) -> limits check
         self.datasets: dict = {}  # (value, position) -> Dataset, pruned as the search goes
         self._hydraulics: dict = {}
+        self.cell_of: dict = {}  # (value, None) -> worst cell of a module run
         self.runs = 0
 
     def hydraulics(self, value) -> dict:
@@ -872,6 +875,8 @@ class _Runner:
             if recorded is not None:
                 self._hydraulics.setdefault(value, recorded)
             check = self._check(ds, value)
+            if self.as_module:
+                self.cell_of[key] = _worst_cell(ds, self.cells)
             self.results[key] = check
             self.datasets[key] = ds
             self._prune()
@@ -912,12 +917,16 @@ class _Runner:
                     figures[name] = max(v, figures.get(name, -math.inf))
                 else:
                     figures.setdefault(name, None)
-        margins = {name: getattr(self.limits, name) - figures[name] for name in self.limits.names()}
-        scaled = self.limits.scaled_margins(margins)
+        # each limit's margin as the check gave it (a figure seen only in part carries its
+        # bound's margin), the smallest over positions
+        margins = {name: min(c["margins"][name] for c in checks.values())
+                   for name in self.limits.names()}
+        scaled = min(self.limits.scaled_margins(margins).values())
         worst_position = min(checks, key=lambda p: checks[p]["worst_margin"])
         warnings = list(dict.fromkeys(w for c in checks.values() for w in c.get("warnings", [])))
-        return {"figures": figures, "margins": margins, "scaled": min(scaled.values()),
-                "met": min(scaled.values()) >= 0.0, "position": worst_position,
+        return {"figures": figures, "margins": margins, "scaled": scaled,
+                "met": all(c["met"] for c in checks.values()) and scaled >= 0.0,
+                "position": self.cell_of.get((value, worst_position), worst_position),
                 "warnings": warnings}
 
     def margin(self, value) -> float:
@@ -983,10 +992,6 @@ class _Runner:
         return curve
 
     def _worst_position(self, value, row) -> int:
-        if self.as_module:
-            ds = self.datasets.get((value, None))
-            cell = None if ds is None else _worst_cell(ds, self.cells)
-            return -1 if cell is None else cell
         return -1 if row["position"] is None else row["position"]
 
 
@@ -998,6 +1003,11 @@ def parameter_unit(name: str) -> str:
         if name.endswith(suffix):
             return unit
     return "1"
+
+
+def _num(value) -> str:
+    """A figure for tables and messages ("-" where the run has none)."""
+    return "-" if value is None else f"{value:.4g}"
 
 
 def run_hydraulics(ds) -> dict | None:
@@ -1015,7 +1025,7 @@ def run_hydraulics(ds) -> dict | None:
 def _message(outcome, vary, lo, hi, runner, limits, entry, tps=None) -> str:
     value, unit = outcome.value, entry.unit
     worst = runner.worst(value, runner.positions)
-    figs = ", ".join(f"{n} {worst['figures'][n]:.4g} {UNITS.get(n, '')} (limit "
+    figs = ", ".join(f"{n} {_num(worst['figures'].get(n))} {UNITS.get(n, '')} (limit "
                      f"{getattr(limits, n):g}, margin {worst['margins'][n]:+.3g})"
                      for n in limits.names())
     if outcome.kind == "none met":

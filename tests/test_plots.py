@@ -85,8 +85,9 @@ def test_traces_carry_data_and_limit_lines(ds):
     fig = plots.traces_figure(ds, limits=LIMITS)
     by_name = {tr.name: tr for tr in fig.data}
     np.testing.assert_allclose(by_name["terminal voltage"].y, ds["voltage"].values)
-    np.testing.assert_allclose(by_name["hottest point"].y, ds["temperature_max"].values)
-    np.testing.assert_allclose(by_name["spread (max − min)"].y,
+    np.testing.assert_allclose(by_name["hottest point of the mean field"].y,
+                               ds["temperature_max"].values)
+    np.testing.assert_allclose(by_name["spread of the mean field over the face"].y,
                                ds["temperature_max"].values - ds["temperature_min"].values)
     # data-sheet limit from the attributes plus the user's two limits
     assert _hlines(fig) == sorted([5.0, 45.0, ds.attrs["temperature_limit_C"]])

@@ -244,6 +244,7 @@ def test_module_sizing_judges_the_whole_module(module):
     less = plate.replace(flow_L_min=res.value - res.resolution)
     assert not lim.check(standin_module(STANDIN_CELL, DUTY, less))["met"]
     assert "module runs of 5 cells" in res.table()
+    assert set(res.curve["position"].values) == {4}
     assert json.loads(res.curve.attrs["positions"]) == [None]
 
 

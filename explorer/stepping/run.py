@@ -65,6 +65,15 @@ class Record:
     heat_rejected: list = field(default_factory=list)
     rejected_by_sink: dict = field(default_factory=dict)
     core_difference: list = field(default_factory=list)  # max K
+    # through the thickness (degC): hottest and coldest point anywhere in the cell, the face
+    # extremes, and the largest hottest-minus-coldest through the thickness at one point (K)
+    hottest: list = field(default_factory=list)
+    coldest: list = field(default_factory=list)
+    front_max: list = field(default_factory=list)
+    front_min: list = field(default_factory=list)
+    back_max: list = field(default_factory=list)
+    back_min: list = field(default_factory=list)
+    through_difference: list = field(default_factory=list)
     coolant_outlet: list = field(default_factory=list)
     soc_map: list = field(default_factory=list)  # (ny, nx) or None where SOC is uniform
     current_density: list = field(default_factory=list)  # (ny, nx) A m-2 or None if uniform
@@ -204,6 +213,18 @@ class _Stepper:
                 lst.append(0.0)
         core = self.thermal.core_temperature_C(self.T_state, heat_map)
         r.core_difference.append(float(np.max(core) - np.max(T)))
+        through = getattr(self.thermal, "through_thickness_C", None)
+        if through is not None:
+            tt = through(self.T_state, heat_map)
+        else:  # a thermal model without surface temperatures: the mean field and the core
+            tt = {"front": T, "back": T, "hottest": np.maximum(core, T), "coldest": T}
+        r.hottest.append(float(np.max(tt["hottest"])))
+        r.coldest.append(float(np.min(tt["coldest"])))
+        r.front_max.append(float(np.max(tt["front"])))
+        r.front_min.append(float(np.min(tt["front"])))
+        r.back_max.append(float(np.max(tt["back"])))
+        r.back_min.append(float(np.min(tt["back"])))
+        r.through_difference.append(float(np.max(tt["hottest"] - tt["coldest"])))
         outlet = self.thermal.coolant_outlet_C(self.T_state)
         r.coolant_outlet.append(math.nan if outlet is None else outlet)
         r.stored_J.append(self.thermal.stored_J(self.T_state))
