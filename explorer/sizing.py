@@ -978,8 +978,8 @@ class _Runner:
                                  "(K for temperatures, fraction for hydraulics)"})
         data["feasible"] = ("value", np.array([int(r["met"]) for r in rows], dtype="int8"),
                             {"units": "1", "long_name": "all limits met (1) or not (0)"})
-        data["position"] = ("value", np.array([self._worst_position(v, r) for v, r in
-                                               zip(values, rows)]),
+        data["position"] = ("value", np.array([-1 if r["position"] is None else r["position"]
+                                               for r in rows]),
                             {"units": "1", "long_name": "worst cell position (-1: single)"})
         data["positions_checked"] = ("value", np.array([len(ran[v]) for v in values]),
                                      {"units": "1", "long_name": "cell positions run"})
@@ -990,10 +990,6 @@ class _Runner:
                             "module": int(self.as_module),
                             **{f"limit_{k}": v for k, v in self.limits.as_dict().items()}})
         return curve
-
-    def _worst_position(self, value, row) -> int:
-        return -1 if row["position"] is None else row["position"]
-
 
 def parameter_unit(name: str) -> str:
     """The CF-style unit of a design parameter, read from its name's suffix."""
