@@ -151,7 +151,11 @@ def test_module_run_shows_the_module_view(fake_runs):
     k = app.time_slider.value
     np.testing.assert_allclose(np.asarray(app.fig_temperature.figure.data[0].z),
                                ds["temperature"].isel(cell=hottest, time=k).values)
-    assert "cell 3 of the 4" in _text(app.summary.value)
+    summary = _text(app.summary.value)
+    assert "the worst of the 4 cells" in summary and "the figures show cell 3" in summary
+    figures = explorer.results.key_figures(ds)  # the module's: its worst cell, cell-to-cell
+    assert f"{figures['peak_temperature_C']:.2f}" in summary
+    assert f"{figures['cell_to_cell_K']:.2f}" in summary
     # another cell picked in the Module tab reaches the field figures
     app.cell_select.value = 0
     np.testing.assert_allclose(np.asarray(app.fig_temperature.figure.data[0].z),

@@ -504,7 +504,8 @@ class ExplorerApp(widgets.VBox):
         """Fill the single-cell panels (fields, traces, heat, summary) from ``ds``."""
         self._view = ds
         n = int(ds.sizes["time"])
-        index = int(np.argmax(ds["temperature_max"].values)) if n else 0
+        hottest = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
+        index = int(np.nanargmax(ds[hottest].values)) if n else 0  # open at the peak
         self.fig_temperature.replace(plots.field_figure(ds, "temperature", index=index,
                                                         animate=False))
         self.fig_soc.replace(plots.field_figure(ds, "soc", index=index, animate=False))
@@ -558,10 +559,11 @@ class ExplorerApp(widgets.VBox):
         self.time_label.value = f"t = {t:.0f} s"
 
     def _summary_html(self, ds, whole) -> str:
-        """Key figures of the shown cell ``ds``, the verdicts on the whole result ``whole``."""
+        """Key figures and verdicts of the whole result ``whole`` (a module: its worst cell);
+        ``ds`` is the cell the figures show."""
         from explorer.report import format_figure
 
-        figures = _results().key_figures(ds)
+        figures = _results().key_figures(whole)
         rows = "".join(f"<tr><td>{_esc(label)}</td><td style='text-align:right'>{_esc(text)}</td></tr>"
                        for label, text in (format_figure(k, v) for k, v in figures.items()))
         checks = limits_html(whole, self._limits) if self._limits is not None else ""
@@ -570,8 +572,8 @@ class ExplorerApp(widgets.VBox):
             checks += f"<h4>Cold plate hydraulics</h4>{hyd}"
         which = ""
         if "cell" in whole.dims:
-            which = (f" — cell {_esc(ds['cell'].values)} of the {whole.sizes['cell']} sharing the "
-                     "coolant (Module tab for all)")
+            which = (f" — the worst of the {whole.sizes['cell']} cells sharing the coolant "
+                     f"(the figures show cell {_esc(ds['cell'].values)}; Module tab for all)")
         status = ds.attrs.get("status", "")
         return (f"<style>.pte-sum td,.pte-sum th{{padding:1px 10px;line-height:1.35}}</style>"
                 f"<p><b>{_esc(whole.attrs.get('cell_name', ''))}</b> · "
@@ -604,8 +606,9 @@ class ExplorerApp(widgets.VBox):
         if not self.pinned:
             self.compare_table.value = ""
             return
-        named = {name: cell_view(ds)[0] for name, (ds, _) in self.pinned.items()}
-        self.fig_compare.replace(plots.comparison_figure(named, limits=self._limits))
+        named = {name: ds for name, (ds, _) in self.pinned.items()}
+        views = {name: cell_view(ds)[0] for name, ds in named.items()}  # a module: its hottest
+        self.fig_compare.replace(plots.comparison_figure(views, limits=self._limits))
         self.compare_table.value = _compare_html(named)
 
     # -----------------------------------------------------------------------------------------
@@ -745,6 +748,11 @@ def _compare_html(named: dict) -> str:
                 vtext = f"{vtext} ({'+' if value >= base else ''}{dtext})"
             cells.append(f"<td style='text-align:right'>{_esc(vtext)}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
+    warnings = {n: results.run_warnings(ds) for n, ds in named.items()}
+    if any(warnings.values()):  # every figure above carries its run's warning
+        cells = "".join(f"<td style='color:#8A5A00'>{_esc('; '.join(w)) if w else '—'}</td>"
+                        for w in warnings.values())
+        rows.append(f"<tr><td>⚠ warnings (every figure of the run carries them)</td>{cells}</tr>")
     return f"<table>{head}{''.join(rows)}</table>"
 
 
@@ -899,9 +907,8 @@ def module_html(ds, limits=None) -> str:
             check = {}
         c2c = check.get("figures", {}).get("cell_to_cell_K")
         limit = getattr(limits, "cell_to_cell_K", None)
-    if c2c is None:  # the figure by its definition (contracts B), for display without a limit
-        means = ds["temperature_mean"]
-        c2c = float((means.max("cell") - means.min("cell")).max())
+    if c2c is None:  # no limit on it: the figure alone
+        c2c = _results().key_figures(ds)["cell_to_cell_K"]
     if limit is None:
         against = ("no cell-to-cell limit set (Limits tab: Max cell-to-cell difference)")
     else:
