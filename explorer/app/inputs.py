@@ -135,9 +135,13 @@ FIELDS: dict[str, Field] = {
     "start_temperature_C": Field("Start temperature", "number", 25.0, "°C", -40.0, 80.0,
                                  group="Model"),
     # --- limits and sizing
-    "limit_temperature_C": Field("Max temperature", "number", 45.0, "°C", -40.0, 150.0,
-                                 group="Limits"),
-    "limit_spread_K": Field("Max spread", "number", 5.0, "K", 0.0, 100.0, True, group="Limits"),
+    "limit_temperature_C": Field("Max temperature anywhere in the cell", "number", 45.0, "°C",
+                                 -40.0, 150.0, group="Limits",
+                                 help="held against the hottest point anywhere in the cell, the "
+                                      "core estimate included"),
+    "limit_spread_K": Field("Max in-cell spread", "number", 5.0, "K", 0.0, 100.0, True,
+                            group="Limits", help="hottest minus coldest point anywhere in the "
+                                                 "cell at one time (not seen on layout 'single')"),
     "limit_cell_to_cell_K": Field("Max cell-to-cell difference, 0 = none", "number", 0.0, "K",
                                   0.0, 100.0, group="Limits",
                                   help="largest difference between the cells' mean temperatures "
