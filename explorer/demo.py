@@ -68,8 +68,8 @@ def format_figures(fig: dict, ds) -> str:
         ("largest in-cell spread", _kelvin(fig["max_spread_K"], "hottest minus coldest point "
                                            "anywhere in the cell at one time")),
         ("  over the face", _kelvin(fig["max_face_spread_K"], face_why)),
-        ("  through the thickness", _kelvin(fig["max_through_thickness_K"], "largest core-to-"
-                                            "face difference at one point")),
+        ("  through the thickness", _kelvin(fig["max_through_thickness_K"], "largest hottest "
+                                            "minus coldest through the thickness at one point")),
         ("time to temperature limit", ("not reached" if ttl is None else f"{ttl:.0f} s")
          + f" (hottest point anywhere reaching {limit:g} degC)"),
         ("energy delivered", f"{fig['energy_delivered_Wh']:.1f} Wh "
