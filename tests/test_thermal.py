@@ -519,3 +519,16 @@ def test_slab_profile_reproduces_its_inputs():
         assert -k * (T[-1] - T[-2]) / (z[1] - z[0]) == pytest.approx(qb, rel=1e-3)
         assert float(p["max"]) == pytest.approx(T.max(), abs=1e-6)
         assert float(p["min"]) == pytest.approx(T.min(), abs=1e-6)
+
+
+def test_lumped_face_flux_adds_up_to_the_sink_flows():
+    """The single-temperature model: what leaves through each face is what its face sinks,
+    the fin on it and the coolant under the fin's edge take."""
+    from explorer.inplane.lumped import LumpedThermal
+
+    model = LumpedThermal(make_cell(), _full_sinks(0))
+    x, flows = model.step(model.initial_state(25.0), np.full((1, 1), 8.0), 50.0)
+    flux = model.face_flux_W_m2(x)
+    assert float(flux["front"][0, 0]) * W * H == pytest.approx(flows["front"], rel=1e-12)
+    assert float(flux["back"][0, 0]) * W * H == pytest.approx(flows["back"] + flows["bottom"],
+                                                              rel=1e-12)
