@@ -315,3 +315,45 @@ def test_sizing_answer_and_the_input_box(monkeypatch, fake_runs):
     app.set_inputs(cells_per_plate=3)
     app.size()
     assert app.dataset is result.module and "3 cells along the coolant" in app.module_text.value
+
+
+# ---------------------------------------------------------------------------------------------
+# end to end on the real simulation
+
+
+def test_real_single_layout_spread_not_evaluated():
+    app = explorer.explore(layout="single", discharge_c_rate=2.0)
+    ds = app.run()
+    assert ds is not None, app.last_error
+    rows = _limit_rows(_text(app.summary.value))
+    spread = next(r for k, r in rows.items() if "spread" in k)
+    assert "not evaluated (" in spread
+    assert "every limit met" not in _text(app.summary.value)
+
+
+@pytest.mark.skipif(not _module_landed(), reason="explorer.simulate_module (contracts C) not landed")
+def test_real_module_run_in_the_app():
+    app = explorer.explore(cells_per_plate=3, flow_L_min=0.5, limit_cell_to_cell_K=5.0)
+    ds = app.run()
+    assert ds is not None, app.last_error
+    assert ds.sizes["cell"] == 3
+    # the coolant leaving cell k is the coolant reaching cell k+1 (contracts C)
+    np.testing.assert_allclose(ds["coolant_inlet"].values[1:], ds["coolant_outlet"].values[:-1])
+    # heat flows from the cells into the coolant, so it only warms along the plate and the cells
+    # downstream run warmer (first law; Incropera & DeWitt, Fundamentals of Heat and Mass
+    # Transfer, ch. 8, mean temperature along a heated duct -- from memory)
+    peaks = next(tr for tr in app.fig_module.figure.data if tr.name.startswith("peak of each"))
+    assert peaks.y[-1] > peaks.y[0]
+    coolant = next(tr for tr in app.fig_module.figure.data
+                   if tr.name.startswith("coolant at the module's peak"))
+    assert np.all(np.diff(coolant.y) > 0.0)
+    assert app.cell_select.value == int(np.argmax(peaks.y))
+    # no SOC field in a module result: the panel says so instead of failing
+    assert "no field recorded" in app.fig_soc.figure.layout.annotations[0].text
+    text = _text(app.module_text.value)
+    assert "limit 5 K:" in text
+    summary = _text(app.summary.value)
+    assert "cell-to-cell" in summary.lower() and "the worst of the 3 cells" in summary
+    heat = {tr.name: tr for tr in app.fig_heat.figure.data}
+    total = next(tr for name, tr in heat.items() if name.startswith("total generated"))
+    np.testing.assert_allclose(total.y, ds["heat_total"].sum("cell").values)
