@@ -7,6 +7,8 @@ Two figures, each the best of ``repeat`` timings after one warm-up (a shared mac
   target 1.5 s.
 * ``time_slider``: one move of the time slider, which updates the three field pictures and the
   traces' time marker in place; target 50 ms.
+* ``module_run_to_figure``: the same with ``module_cells`` cells sharing the plate's coolant
+  (``explorer.simulate_module`` and the Module tab); no target of its own, for scale.
 
 Without ``anywidget`` the figures are plain plotly figures updated in place (no browser here), so
 the figures measure the Python side either way: the inputs, the simulation and the figure updates.
@@ -19,13 +21,15 @@ from explorer.timing import best_of
 TARGETS_S = {"run_to_figure": 1.5, "time_slider": 0.05}
 
 
-def bench_app(repeat: int = 3, **inputs) -> list[dict]:
+def bench_app(repeat: int = 3, module_cells: int = 6, **inputs) -> list[dict]:
     """Time the app's run-to-figure and a time-slider move; return rows for explorer.bench.
 
     Parameters
     ----------
     repeat : int
         Timings per figure after the warm-up (the best is reported).
+    module_cells : int
+        Cells sharing the coolant in the module row (0 leaves the row out).
     **inputs
         App inputs by name overriding the defaults (see ``explorer.app.FIELDS``).
     """
@@ -54,12 +58,19 @@ def bench_app(repeat: int = 3, **inputs) -> list[dict]:
               "model": ds.attrs.get("electrochemistry"), "layout": ds.attrs.get("layout"),
               "grid": f"{ds.sizes['x']}x{ds.sizes['y']}",
               "figure_widget": figure_widgets_available()}
-    return [
+    rows = [
         {**common, "figure": "run_to_figure", "wall_s": run_s, "time_samples": n,
          "target_s": TARGETS_S["run_to_figure"]},
         {**common, "figure": "time_slider", "wall_s": slider_s,
          "target_s": TARGETS_S["time_slider"]},
     ]
+    if module_cells > 1 and app.rows["cells_per_plate"].box.layout.display != "none":
+        app.set_inputs(cells_per_plate=module_cells)
+        module_s = best_of(run_once, repeat)[0]
+        rows.append({**common, "figure": "module_run_to_figure", "cells": module_cells,
+                     "wall_s": module_s, "time_samples": int(app.dataset.sizes["time"]),
+                     "target_s": None})
+    return rows
 
 
 if __name__ == "__main__":  # pragma: no cover
