@@ -9,18 +9,39 @@ run     simulate a scenario file
 size    size the cooling of a scenario file against its limits
 sweep   sweep the design parameters of a scenario file
 report  write the HTML report of a saved results file
+
+Errors
+------
+Every failure prints one clear message on stderr (no traceback; ``-v`` adds
+the traceback) and exits non-zero:
+
+=====  ==============================================================================
+0      done (and, for ``run``/``size``, every limit met)
+1      done but a limit is not met, a case failed or the run did not complete; or an
+       internal error (a bug: "internal error: ... (run with -v for the traceback)")
+2      bad input, or a file that cannot be read or written (the message names it)
+130    interrupted (Ctrl-C)
+141    the reader of the output went away (``... | head``): quiet, like other tools
+=====  ==============================================================================
 """
 
 from __future__ import annotations
 
 import argparse
 import logging
+import os
 import sys
+import traceback
 from pathlib import Path
 
-from explorer.validators import InputError
+from explorer.validators import MESSAGE_CHARS, InputError, clip
 
 DEMO_CELL = "van_nmc_66ah"
+
+EXIT_INPUT = 2
+EXIT_INTERNAL = 1
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, what a shell reports for Ctrl-C
+EXIT_BROKEN_PIPE = 141  # 128 + SIGPIPE, what a shell reports for `yes | head`
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -28,8 +49,13 @@ def _parser() -> argparse.ArgumentParser:
         prog="python -m explorer",
         description="Pouch Thermal Explorer: heat, temperature and SOC fields of large pouch "
         "cells, and cold-plate sizing.")
-    p.add_argument("-v", "--verbose", action="store_true", help="log progress details")
-    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    p.add_argument("-v", "--verbose", action="store_true",
+                   help="log progress details; on an error, print the traceback too")
+    # -v also after the command (`show x -v`); SUPPRESS keeps a -v given before it
+    verbose = argparse.ArgumentParser(add_help=False)
+    verbose.add_argument("-v", "--verbose", action="store_true", default=argparse.SUPPRESS,
+                         help="log progress details; on an error, print the traceback too")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_subparser(verbose))
     d = sub.add_parser("demo", help="run the main job on a bundled demo cell (2C discharge, "
                        "edge plate) and write results (netCDF) and an HTML report")
     d.add_argument("--out", default="explorer-demo", help="output folder (default: %(default)s)")
@@ -54,6 +80,16 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _subparser(parent):
+    """A parser class whose instances all take ``parent``'s options (here: ``-v``)."""
+
+    class Sub(argparse.ArgumentParser):
+        def __init__(self, *args, parents=(), **kwargs):
+            super().__init__(*args, parents=[*parents, parent], **kwargs)
+
+    return Sub
+
+
 def main(argv=None) -> int:
     parser = _parser()
     args = parser.parse_args(argv)
@@ -62,14 +98,80 @@ def main(argv=None) -> int:
     if args.command is None:
         parser.print_help()
         return 0
+    return run_guarded(lambda: _dispatch(args), verbose=args.verbose)
+
+
+def run_guarded(job, verbose: bool = False) -> int:
+    """Run ``job()`` (returns an exit code) and turn every failure into a message and a code.
+
+    One place decides what the user sees when something goes wrong: the
+    project's own errors and OS errors as a clear one-message "error: ...",
+    anything else as "internal error: ..."; the traceback only with ``verbose``.
+    """
     try:
-        return _dispatch(args)
-    except InputError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        return 2
+        code = job()
+        sys.stdout.flush()  # a closed pipe shows up here, not at interpreter exit
+        return code
+    except BrokenPipeError:
+        _silence_stdout()
+        return EXIT_BROKEN_PIPE
+    except KeyboardInterrupt:
+        return _fail("interrupted", verbose, EXIT_INTERRUPTED)
+    except InputError as exc:  # OutputError (a file that cannot be written) included
+        return _fail(str(exc), verbose, EXIT_INPUT)
+    except OSError as exc:
+        return _fail(os_error_text(exc), verbose, EXIT_INPUT)
+    except UnicodeError as exc:  # a reader that did not name its file; say what is wrong
+        return _fail(f"a file is not UTF-8 text ({exc}); save it as UTF-8", verbose, EXIT_INPUT)
+    except Exception as exc:  # the last resort: a bug, but never a bare traceback
+        hint = "" if verbose else " (run with -v for the traceback)"
+        text = " ".join(f"{type(exc).__name__}: {exc}".split())  # one line
+        return _fail(f"internal error: {clip(text, 300)}{hint}", verbose, EXIT_INTERNAL,
+                     prefix="")
+
+
+def _fail(message: str, verbose: bool, code: int, prefix: str = "error: ") -> int:
+    """Print ``message`` (capped) on stderr, the traceback first when ``verbose``."""
+    if verbose:
+        traceback.print_exc(file=sys.stderr)
+    print(f"{prefix}{clip(message, MESSAGE_CHARS)}", file=sys.stderr)
+    return code
+
+
+def os_error_text(exc: OSError) -> str:
+    """``"<path>: <reason>"`` for an OS error (the path the OS names, then why)."""
+    reason = exc.strerror or str(exc) or type(exc).__name__
+    paths = [str(p) for p in (exc.filename, exc.filename2) if p is not None]
+    return f"{' -> '.join(paths)}: {reason}" if paths else reason
+
+
+def _silence_stdout() -> None:
+    """The reader went away (``| head``): send what is left to devnull so the interpreter's
+    final flush does not complain (the recipe of the Python docs, signal module)."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):  # stdout is not a real file (tests)
+        pass
+
+
+def _check_out(args) -> None:
+    """``--out`` names a folder (demo, run, size, sweep) or a report file (report)."""
+    out = getattr(args, "out", None)
+    if out is None:
+        return
+    path = Path(out)
+    if args.command == "report":
+        if path.is_dir():
+            raise InputError(f"`--out` {clip(out)}: is a folder; expected a report file name "
+                             "such as report.html")
+    elif path.exists() and not path.is_dir():
+        raise InputError(f"`--out` {clip(out)}: is an existing file; expected a folder (it is "
+                         "created when missing)")
 
 
 def _dispatch(args) -> int:
+    _check_out(args)
     if args.command == "demo":
         from explorer.demo import run_demo
 

@@ -106,12 +106,28 @@ def run_demo(cell_name: str, out: Path, c_rate: float = 2.0) -> int:
         print(f"  {line}")
     out = Path(out)
     stem = f"{Path(cell.source_path).stem or 'cell'}_{c_rate:g}C"
-    nc = save(ds, out / f"{stem}.nc")
     from explorer.report import write_report
 
-    html = write_report(ds, out / f"{stem}_report.html", limits=limits,
-                        title=f"{cell.name}: {c_rate:g}C discharge on an edge cold plate")
+    try:
+        nc = save(ds, out / f"{stem}.nc")
+        html = write_report(ds, out / f"{stem}_report.html", limits=limits,
+                            title=f"{cell.name}: {c_rate:g}C discharge on an edge cold plate")
+    except (OSError, ValueError) as exc:  # ValueError: the report's own path checks
+        raise _write_error(out, exc) from exc
     print(f"\nwrote {nc}\nwrote {html}\n")
     print(f"Caution: {CAUTION}")
     # a limit not met is an answer, not an error: the exit code says whether the run completed
     return 0 if ds.attrs["status"] == "completed" else 1
+
+
+def _write_error(out: Path, exc: Exception):
+    """The error for a demo whose files cannot be written: which folder, why, and that the
+    figures printed above are the run's (it finished; only the files are missing)."""
+    from explorer.validators import OutputError
+
+    if isinstance(exc, OSError):
+        reason = f"{exc.filename or out}: {exc.strerror or exc}"
+    else:
+        reason = str(exc)
+    return OutputError(f"demo: cannot write the results into the folder {out} ({reason}); "
+                       "the run itself finished and its figures are printed above")

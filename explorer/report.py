@@ -465,26 +465,41 @@ def write_report(ds_or_list, path, inputs=None, title: str = DEFAULT_TITLE, limi
 def cmd_report(path: str, out: str | None = None) -> int:
     """CLI ``python -m explorer report results.nc [--out report.html]``: return an exit code.
 
-    0 on success, 2 when the input file cannot be read or is not a results file, 1 when the report
-    cannot be written. The message goes to stderr; the written path to stdout.
+    0 on success; 2 when the input file cannot be read or is not a single-run results file (the
+    message says what it is instead: a sweep, a sizing curve, a file this tool did not write), and
+    2 when the report cannot be written. The message goes to stderr; the written path to stdout.
     """
+    from explorer.validators import MESSAGE_CHARS, InputError, clip
+
+    def fail(message: str) -> int:
+        print(f"error: {clip(message, MESSAGE_CHARS)}", file=sys.stderr)
+        return 2
+
     results = _results()
     source = Path(path)
-    if not source.is_file():
-        print(f"explorer report: results file {str(source)!r} not found; expected a netCDF file "
-              "written by `python -m explorer run` or explorer.results.save", file=sys.stderr)
-        return 2
+    try:
+        found = source.is_file()
+    except (OSError, ValueError):  # a name the OS refuses (too long, NUL byte)
+        found = False
+    if not found:
+        return fail(f"results file {str(source)!r} not found; expected a netCDF file written by "
+                    "`python -m explorer run` or explorer.results.save")
     try:
         ds = results.open_results(str(source))
+    except results.ResultsKindError as exc:
+        return fail(f"{exc.path} is {exc.kind}; the report command takes a single-run results "
+                    "file (written by `python -m explorer run` or `demo`)")
+    except InputError as exc:  # names the file already
+        return fail(str(exc))
     except (OSError, ValueError, KeyError, ImportError) as exc:
-        print(f"explorer report: cannot read results file {str(source)!r}: {exc}", file=sys.stderr)
-        return 2
+        return fail(f"cannot read results file {str(source)!r}: {exc}")
     target = Path(out) if out else source.with_suffix(".html")
     try:
         write_report(ds, target, title=f"{DEFAULT_TITLE}: {source.name}")
-    except (OSError, ValueError, TypeError) as exc:
-        print(f"explorer report: cannot write report {str(target)!r}: {exc}", file=sys.stderr)
-        return 1
+    except OSError as exc:
+        return fail(f"cannot write report {str(target)!r}: {exc.strerror or exc}")
+    except (ValueError, TypeError) as exc:  # write_report's own path checks; OutputError
+        return fail(f"cannot write report {str(target)!r}: {exc}")
     finally:
         close = getattr(ds, "close", None)
         if close is not None:

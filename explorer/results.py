@@ -343,13 +343,61 @@ def _attr(v):
     return json.dumps(v, default=str)
 
 
+class ResultsKindError(InputError):
+    """A readable netCDF file that is not a single-run results file; ``kind`` says what it is."""
+
+    def __init__(self, path, kind: str):
+        self.path, self.kind = str(path), kind
+        super().__init__(f"{path} is {kind}; expected a single-run results file (written by "
+                         "`python -m explorer run` or `demo`, or explorer.results.save)")
+
+
+# What the tool's other netCDF files are, in words for an error message.
+_OTHER_KINDS = {
+    "sweep": "a sweep results file (written by `python -m explorer sweep`)",
+    "sweep cache entry": "a sweep cache entry (one case of a sweep, kept to resume it)",
+    "sizing curve": "a sizing-curve file (written by `python -m explorer size`)",
+    "foreign": "a netCDF file this tool did not write (it lacks the `time` coordinate and the "
+               "`voltage` and `temperature_max` variables of a run)",
+}
+
+
+def results_file_kind(ds: xr.Dataset) -> str:
+    """Which of the tool's files ``ds`` was read from, told apart by what only each carries:
+    "run" (one cell or a module), "sweep", "sweep cache entry", "sizing curve" or "foreign"."""
+    if "case_status" in ds and "axes" in ds.attrs:
+        return "sweep"
+    if "case_status" in ds.attrs or "cache_key" in ds.attrs:
+        return "sweep cache entry"
+    if "value" in ds.dims and "feasible" in ds and "time" not in ds.dims:
+        return "sizing curve"
+    if "time" in ds.coords and "voltage" in ds and "temperature_max" in ds:
+        return "run"
+    return "foreign"
+
+
 def open_results(path) -> xr.Dataset:
-    """Load a saved run (all variables into memory, all attributes kept)."""
+    """Load a saved run (all variables into memory, all attributes kept).
+
+    Raises :class:`~explorer.validators.InputError` for a missing or unreadable
+    file, and :class:`ResultsKindError` (naming what the file is) for a sweep,
+    a sizing curve, a sweep cache entry or a netCDF file the tool did not write.
+    """
     path = Path(path)
-    if not path.is_file():
+    try:
+        found = path.is_file()
+    except (OSError, ValueError):  # a name the OS refuses (too long, NUL byte)
+        found = False
+    if not found:
         raise InputError(f"{path}: no such results file")
     try:
         with xr.open_dataset(path, engine="netcdf4") as ds:
-            return ds.load()
-    except (OSError, ValueError) as exc:
-        raise InputError(f"{path}: not a results file this tool can read ({exc})") from None
+            ds = ds.load()
+    except Exception as exc:  # a file netCDF cannot decode is not ours, whatever the decoder
+        # raised (OSError, ValueError, KeyError, ... depending on the damage)
+        raise InputError(f"{path}: not a results file this tool can read "
+                         f"({type(exc).__name__}: {str(exc)[:200]})") from None
+    kind = results_file_kind(ds)
+    if kind != "run":
+        raise ResultsKindError(path, _OTHER_KINDS[kind])
+    return ds
