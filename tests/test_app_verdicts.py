@@ -309,7 +309,9 @@ def test_sizing_answer_and_the_input_box(monkeypatch, fake_runs):
     assert "Pressure drop (kPa) — channels only: 1.8" in text
     assert "Pump power (W) — channels only" in text
     result.limited_by = "upper bound"
-    assert "not a limit" in _text(app_widget.sizing_html(result, None))
+    assert "limited by the upper bound, not by a limit" in _text(app_widget.sizing_html(result, None))
+    result.limited_by = "none met"
+    assert "no value meets the limits" in _text(app_widget.sizing_html(result, None))
     # a design judged as a module: the figures show the whole module at the sized value
     result.module = module_dataset(cells=3)
     app.set_inputs(cells_per_plate=3)

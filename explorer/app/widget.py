@@ -971,13 +971,14 @@ def _display_unit(unit: str) -> str:
     return _DISPLAY_UNITS.get(unit, unit)
 
 
-_LIMITED_BY = {
-    "limits": "the limits decided it: one step cheaper does not meet them",
-    "lower bound": "the lower bound decided it, not a limit: the bound itself meets the limits "
-                   "(widen the bounds to look for a cheaper design)",
-    "upper bound": "the upper bound decided it, not a limit: the bound itself meets the limits "
-                   "(widen the bounds to look for a cheaper design)",
-    "none met": "no value within the bounds meets the limits; the best one evaluated is shown",
+_LIMITED_BY = {  # limited_by -> (what decided the answer, in words)
+    "limits": ("limited by the limits", "one step cheaper does not meet them"),
+    "lower bound": ("limited by the lower bound, not by a limit", "the bound itself meets the "
+                    "limits; widen the bounds to look for a cheaper design"),
+    "upper bound": ("limited by the upper bound, not by a limit", "the bound itself meets the "
+                    "limits; widen the bounds to look for a cheaper design"),
+    "none met": ("no value meets the limits", "none within the bounds does; the best one "
+                 "evaluated is shown"),
 }
 
 
@@ -996,10 +997,9 @@ def sizing_html(result, limits) -> str:
     label = FIELDS[vary].label if vary in FIELDS else vary
     step = f" (rounded in the safe direction to a step of {result.resolution:g}{u})"
     verdict = "meets the limits" if result.feasible else _NOT_MET
-    limited = result.limited_by
-    why = _LIMITED_BY.get(limited, limited)
+    head, why = _LIMITED_BY.get(result.limited_by, (f"limited by {result.limited_by}", ""))
     parts = [f"<h4>{_esc(label)} = {float(result.value):.6g}{_esc(u)}{_esc(step)}: {verdict}</h4>",
-             f"<p><b>limited by the {_esc(limited)}</b>: {_esc(why)}</p>"]
+             f"<p><b>{_esc(head)}</b>: {_esc(why)}</p>"]
     run = sized_run(result)
     if limits is not None and run is not None:
         parts.append(limits_html(run, limits))  # the verdicts carry the run's warnings
