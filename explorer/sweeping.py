@@ -65,23 +65,48 @@ log = logging.getLogger(__name__)
 
 # Model settings that may also be swept (numbers passed straight to simulate).
 SETTING_AXES = ("start_soc", "start_temperature_C")
+# Time traces kept per case; a module case (several cells on one coolant path) gives one
+# trace of the module: its hottest cell's maximum, coldest cell's minimum, the mean over the
+# cells, the heat summed over them, the coolant leaving the last cell (ENVELOPE).
 TRACES = {
     "voltage": ("V", "terminal voltage"),
     "current": ("A", "cell current (positive on discharge)"),
     "power": ("W", "terminal power (positive on discharge)"),
-    "soc_mean": ("1", "state of charge"),
-    "temperature_max": ("degC", "hottest point of the face"),
-    "temperature_min": ("degC", "coldest point of the face"),
-    "temperature_mean": ("degC", "area-mean temperature"),
+    "soc_mean": ("1", "state of charge (a module: mean over its cells)"),
+    "temperature_hottest": ("degC", "hottest point anywhere in the cell, core and faces included "
+                                    "(a module: its hottest cell)"),
+    "temperature_coldest": ("degC", "coldest point anywhere in the cell (a module: its coldest "
+                                    "cell)"),
+    "temperature_max": ("degC", "hottest point of the through-thickness-mean field over the "
+                                "face (a module: its hottest cell)"),
+    "temperature_min": ("degC", "coldest point of the through-thickness-mean field over the "
+                                "face (a module: its coldest cell)"),
+    "temperature_mean": ("degC", "area-mean temperature (a module: mean over its cells)"),
     "temperature_core_max": ("degC", "hottest core temperature estimate"),
-    "heat_total": ("W", "total generated heat"),
-    "heat_rejected": ("W", "heat into all sinks"),
-    "coolant_outlet": ("degC", "coolant temperature leaving this cell"),
+    "through_thickness_difference": ("K", "largest difference through the thickness"),
+    "heat_total": ("W", "total generated heat (a module: all its cells)"),
+    "heat_rejected": ("W", "heat into all sinks (a module: all its cells)"),
+    "coolant_outlet": ("degC", "coolant temperature leaving the cell (a module: its last cell)"),
 }
+ENVELOPE = {"temperature_hottest": np.nanmax, "temperature_max": np.nanmax,
+            "temperature_core_max": np.nanmax, "through_thickness_difference": np.nanmax,
+            "temperature_coldest": np.nanmin, "temperature_min": np.nanmin,
+            "temperature_mean": np.nanmean, "soc_mean": np.nanmean, "heat_total": np.nansum,
+            "heat_rejected": np.nansum, "coolant_outlet": lambda a, axis: a[-1]}
+# Series a limits check reads: a module case keeps them per cell (so the check sees each cell).
+CHECK_SERIES = ("temperature_hottest", "temperature_coldest", "temperature_max",
+                "temperature_min", "temperature_mean", "temperature_core_max",
+                "through_thickness_difference", "coolant_outlet")
 FIELDS = ("temperature", "soc", "heat_flux")
 SUMMARY = {
-    "peak_temperature_C": ("degC", "hottest point of the face over the duty"),
-    "max_spread_K": ("K", "largest spread across the face"),
+    "peak_temperature_C": ("degC", "hottest point anywhere in the cell over the duty, core and "
+                                   "faces included (a module: its hottest cell)"),
+    "worst_cell": ("1", "position of the cell with that peak along the coolant path (0 = first "
+                        "the coolant meets; a single-cell case: the position that was run)"),
+    "cell_to_cell_K": ("K", "largest difference between the cells' mean temperatures at one "
+                            "time (NaN: one cell was run)"),
+    "max_spread_K": ("K", "largest in-cell spread, hottest minus coldest point anywhere at one "
+                          "time (NaN: not seen on layout 'single')"),
     "core_temperature_max_C": ("degC", "hottest core temperature estimate"),
     "coolant_outlet_max_C": ("degC", "hottest coolant outlet"),
     "end_soc": ("1", "state of charge at the end"),
@@ -94,7 +119,7 @@ SUMMARY = {
     "pressure_drop_kPa": ("kPa", "plate pressure drop"),
     "pump_power_W": ("W", "pump power"),
 }
-CACHE_FORMAT = 2  # bump when the cached case layout changes
+CACHE_FORMAT = 3  # bump when the cached case layout changes
 # Case statuses that are a result of the design and may be cached (contracts A): a cut-short
 # run is what that design does; a stopped or failed one says nothing about it.
 CACHEABLE = ("completed", "cut_short")
@@ -143,7 +168,11 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
     progress : bool
         Show a progress bar (tqdm).
     limits : Limits, optional
-        Adds each limit's margin per case and ``meets_limits``.
+        Adds, per case and limit, ``margin_<name>`` and ``verdict_<name>`` from
+        :meth:`Limits.check` (a figure the run cannot see is "not evaluated",
+        margin NaN, with the reason in ``case_warnings``) and ``meets_limits``
+        (1 only when every limit was evaluated and met on a case that completed
+        its duty).
     trace_interval_s : float, optional
         Spacing of the common time base of the traces.
     **simulate_kwargs
@@ -327,12 +356,15 @@ def run_case(cell, duty, design, settings: dict, keep_fields: bool = False) -> x
 
 def reduce_run(ds: xr.Dataset, keep_fields: bool = False) -> xr.Dataset:
     """The traces, summary figures and (optionally) fields of one run."""
-    from explorer.results import key_figures
+    from explorer.results import is_module, key_figures, per_cell
 
     fig = key_figures(ds)
     hyd = run_hydraulics(ds) or {}
+    module = is_module(ds)
     summary = {
         "peak_temperature_C": fig["peak_temperature_C"],
+        "worst_cell": fig["worst_cell"] if module else _number(ds.attrs.get("cell_position")),
+        "cell_to_cell_K": fig.get("cell_to_cell_K", math.nan),
         "max_spread_K": fig["max_spread_K"],
         "core_temperature_max_C": _nanmax(ds, "temperature_core_max"),
         "coolant_outlet_max_C": _nanmax(ds, "coolant_outlet"),
@@ -349,19 +381,38 @@ def reduce_run(ds: xr.Dataset, keep_fields: bool = False) -> xr.Dataset:
                          if hyd.get("pump_power_W") is not None else math.nan),
     }
     data = {name: ((), float(v)) for name, v in summary.items()}
-    for name in TRACES:
-        if name in ds:
-            data[name] = ("time", np.asarray(ds[name].values, dtype=float))
     coords = {"time": ds["time"].values}
+    for name in TRACES:
+        if name not in ds:
+            continue
+        if module and "cell" in ds[name].dims:
+            rows = per_cell(ds, name)
+            data[name] = (("cell", "time"), rows) if name in CHECK_SERIES else \
+                ("time", ENVELOPE[name](rows, axis=0))
+        else:
+            data[name] = ("time", np.asarray(ds[name].values, dtype=float))
+    if module:
+        coords["cell"] = ds["cell"].values
     if keep_fields:
         for name in FIELDS:
-            data[name] = (("time", "y", "x"), np.asarray(ds[name].values, dtype=float))
+            if name in ds:
+                field = ds[name]
+                if "cell" in field.dims:  # a module: the field of its hottest cell
+                    field = field.sel(cell=fig["worst_cell"])
+                data[name] = (("time", "y", "x"), np.asarray(field.values, dtype=float))
         coords.update(x=ds["x"].values, y=ds["y"].values)
     status = str(ds.attrs.get("status", "completed"))
-    attrs = {"case_status": status, "case_message": str(ds.attrs.get("status_message", "")),
+    message = str(ds.attrs.get("status_message", ""))
+    attrs = {"case_status": status, "case_message": message,
+             # what a limits check of this case reads (explorer.limits)
+             "status": status, "status_message": message,
+             "layout": str(ds.attrs.get("layout", "")),
+             "hydraulics": json.dumps(hyd, default=str),
              # a number, or "auto" when simulate chose the spacing per duty step
              "output_interval_s": _number(ds.attrs.get("output_interval_s")),
              "hydraulics_warnings": json.dumps(list(hyd.get("warnings", []) or []))}
+    if not attrs["layout"]:
+        del attrs["layout"]  # unknown: explorer.results.is_lumped looks at the grid instead
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
@@ -619,10 +670,12 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
                            {"long_name": "completed | cut_short | stopped | failed"})
     data["case_message"] = (names, message.astype(str), {"long_name": "why a case stopped or failed"})
     warnings = np.empty(shape, dtype=object)
+    checks = {c.index: _check_case(limits, results[c.index]) for c in cases}
     for c in cases:
-        warnings[c.index] = str(results[c.index].attrs.get("hydraulics_warnings", "[]"))
-    data["case_warnings"] = (names, warnings.astype(str),
-                             {"long_name": "hydraulics warnings of the case (JSON list)"})
+        warnings[c.index] = json.dumps(_case_warnings(results[c.index], checks[c.index]))
+    data["case_warnings"] = (names, warnings.astype(str), {
+        "long_name": "what every verdict on the case must carry: an early end, figures the run "
+                     "cannot see, limits not evaluated and why, hydraulics (JSON list)"})
     for name, long in (("case_wall_s", "wall time of the case's run"),
                        ("case_cpu_s", "CPU time of the case's run (its process)")):
         arr = np.full(shape, np.nan)
@@ -630,7 +683,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
             arr[c.index] = float(results[c.index].attrs.get(name, np.nan))
         data[name] = (names, arr, {"units": "s", "long_name": long})
     if limits is not None:
-        _add_margins(data, names, shape, limits, status)
+        _add_verdicts(data, names, shape, limits, cases, checks, status)
 
     # Common time base for the traces, NaN-padded after each case's end.
     if ok:
@@ -648,7 +701,10 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
         for c in cases:
             r = results[c.index]
             if name in r:
-                arr[c.index] = _resample(r["time"].values, r[name].values, time)
+                values = r[name].values
+                if "cell" in r[name].dims:  # a module case: one trace of the module
+                    values = ENVELOPE[name](r[name].transpose("cell", "time").values, axis=0)
+                arr[c.index] = _resample(r["time"].values, values, time)
         unit, long = TRACES[name]
         data[name] = ([*names, "time"], arr, {"units": unit, "long_name": long})
     coords = {n: (n, axes[n], {"long_name": n, "units": parameter_unit(n)}) for n in names}
@@ -656,7 +712,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
                                      "(common base; NaN after a case's end)"})
     if keep_fields and ok:
         ref = next(r for r in ok if "temperature" in r)
-        for name in FIELDS:
+        for name in (f for f in FIELDS if any(f in r for r in ok)):
             arr = np.full((*shape, time.size, ref.sizes["y"], ref.sizes["x"]), np.nan)
             for c in cases:
                 r = results[c.index]
@@ -701,21 +757,76 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
-def _add_margins(data, names, shape, limits: Limits, status) -> None:
-    source = {"temperature_max_C": "peak_temperature_C", "spread_K": "max_spread_K",
-              "core_temperature_max_C": "core_temperature_max_C",
-              "coolant_outlet_C": "coolant_outlet_max_C",
-              "pressure_drop_kPa": "pressure_drop_kPa", "pump_power_W": "pump_power_W"}
-    met = np.ones(shape, dtype=bool)
+def _check_case(limits: Limits | None, result: xr.Dataset) -> dict | None:
+    """``limits.check`` of one case's kept series (None: no limits, or no result to check).
+
+    A limit that does not apply to the design (e.g. a pressure drop without a
+    plate) is "not evaluated" with the reason, rather than an error after the
+    cases have run.
+    """
+    if limits is None or "time" not in result.dims or result.sizes["time"] == 0:
+        return None
+    hyd = run_hydraulics(result)
+    try:
+        return limits.check(result, hyd)
+    except InputError:
+        pass
+    checks, errors = {}, {}
     for name, value in limits.as_dict().items():
-        margin = value - data[source[name]][1]
+        try:
+            checks[name] = Limits(**{name: value}).check(result, hyd)
+        except InputError as exc:
+            errors[name] = str(exc)
+    first = next(iter(checks.values()), None)
+    out = {"margins": {}, "verdicts": {}, "reasons": dict(errors),
+           "warnings": list(first["warnings"]) if first else [], "met": False}
+    for name in limits.names():
+        one = checks.get(name)
+        out["margins"][name] = one["margins"][name] if one else None
+        out["verdicts"][name] = one["verdicts"][name] if one else "not evaluated"
+        if one and name in one["reasons"]:
+            out["reasons"][name] = one["reasons"][name]
+    return out
+
+
+def _case_warnings(result: xr.Dataset, check: dict | None) -> list[str]:
+    from explorer.results import run_warnings
+
+    out = list(check["warnings"]) if check is not None else (
+        run_warnings(result) if "time" in result.dims else [])
+    if check is not None:
+        out += [f"{name} not evaluated: {check['reasons'].get(name, '')}"
+                for name, v in check["verdicts"].items() if v == "not evaluated"]
+    out += json.loads(result.attrs.get("hydraulics_warnings", "[]"))
+    return out
+
+
+def _add_verdicts(data, names, shape, limits: Limits, cases, checks, status) -> None:
+    """Per limit: margin (NaN: not evaluated or no result) and verdict; ``meets_limits``."""
+    met = np.zeros(shape, dtype=bool)
+    for name, value in limits.as_dict().items():
+        margin = np.full(shape, np.nan)
+        verdict = np.full(shape, "not evaluated", dtype=object)
+        for c in cases:
+            check = checks[c.index]
+            if check is None:
+                continue
+            if check["margins"].get(name) is not None:
+                margin[c.index] = check["margins"][name]
+            verdict[c.index] = check["verdicts"][name]
         data[f"margin_{name}"] = (names, margin, {
             "units": LIMIT_UNITS[name].replace("degC", "K"),
-            "long_name": f"margin on {name} = {value:g} (positive = met)"})
-        met &= margin >= 0.0  # NaN (failed case or no such figure) counts as not met
-    met &= status == "completed"  # a duty that did not run to its end meets nothing
+            "long_name": f"margin on {name} = {value:g} {LIMIT_UNITS[name]} (positive = met; "
+                         "NaN: not evaluated, see verdict_" + name + ")"})
+        data[f"verdict_{name}"] = (names, verdict.astype(str), {
+            "long_name": f"{name}: met | not met | not evaluated (explorer.Limits.check)"})
+    for c in cases:
+        check = checks[c.index]
+        # a duty that did not run to its end (cut short, stopped) meets nothing here
+        met[c.index] = bool(check is not None and check["met"] and status[c.index] == "completed")
     data["meets_limits"] = (names, met.astype("int8"), {
-        "units": "1", "long_name": "every limit met on a completed case (1) or not (0)"})
+        "units": "1", "long_name": "every limit evaluated and met on a case that completed its "
+                                   "duty (1), else 0"})
 
 
 def _interval(results) -> float:

@@ -9,6 +9,8 @@ of explorer.simulate on a demo cell.
 
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pytest
 import xarray as xr
@@ -242,6 +244,74 @@ def test_limits_margins_per_case(standin):
     np.testing.assert_allclose(ds["margin_temperature_max_C"], 40.0 - ds["peak_temperature_C"])
     met = (ds["margin_temperature_max_C"] >= 0) & (ds["margin_pressure_drop_kPa"] >= 0)
     np.testing.assert_array_equal(ds["meets_limits"].values, met.values.astype("int8"))
+
+
+def test_limits_not_evaluated_flow_through(monkeypatch):
+    """Verdict rule 2 (DESIGN.md §3): what the run cannot see is "not evaluated", never met."""
+    def lumped_without_hydraulics(*args, **kwargs):
+        ds = standin_simulate(*args, **kwargs)
+        ds.attrs["layout"] = "single"
+        del ds.attrs["hydraulics"]
+        return ds
+
+    monkeypatch.setattr(sweep_mod, "_simulate", lumped_without_hydraulics)
+    lim = Limits(temperature_max_C=80.0, spread_K=50.0, cell_to_cell_K=5.0,
+                 pressure_drop_kPa=20.0)
+    ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), AXES, scheduler="serial", progress=False,
+               limits=lim)
+    assert (ds["verdict_temperature_max_C"] == "met").all()
+    for name in ("spread_K", "cell_to_cell_K", "pressure_drop_kPa"):
+        assert (ds[f"verdict_{name}"] == "not evaluated").all()
+        assert np.isnan(ds[f"margin_{name}"]).all()
+    assert (ds["meets_limits"] == 0).all()  # not shown to be met
+    assert np.isnan(ds["max_spread_K"]).all() and np.isnan(ds["cell_to_cell_K"]).all()
+    notes = json.loads(str(ds["case_warnings"].values[0, 0]))
+    assert any(n.startswith("cell_to_cell_K not evaluated: one cell was run") for n in notes)
+    assert any(n.startswith("pressure_drop_kPa not evaluated") for n in notes)
+    assert any("layout 'single'" in n for n in notes)
+
+
+def _module_standin(*args, cooling=None, **kwargs):
+    """A module of INVENTED stand-in cells: cell k sees the coolant warmed by the k before it
+    (the stand-in's own coupling), stacked along `cell` as explorer.simulate_module does."""
+    runs = [standin_simulate(*args, cooling=cooling, position=k, **kwargs)
+            for k in range(cooling.cells_per_plate)]
+    per_cell = [n for n in runs[0].data_vars if n.startswith(("temperature", "coolant",
+                                                              "heat_", "soc"))]
+    module = xr.concat([r[per_cell] for r in runs], dim="cell").assign_coords(
+        cell=np.arange(len(runs)))
+    for name in runs[0].data_vars:
+        if name not in per_cell:
+            module[name] = runs[0][name]
+    module.attrs.update(runs[0].attrs, module_cells=len(runs))
+    return module
+
+
+def test_module_case_worst_cell_and_cell_to_cell(monkeypatch):
+    monkeypatch.setattr(sweep_mod, "_simulate", _module_standin)
+    plate = StandInPlate(cells_per_plate=3)
+    lim = Limits(temperature_max_C=80.0, cell_to_cell_K=0.5)
+    ds = sweep(STANDIN_CELL, DUTY, plate, {"flow_L_min": [1.0, 4.0]}, scheduler="serial",
+               progress=False, limits=lim)
+    for q in (1.0, 4.0):
+        cells = [standin_simulate(STANDIN_CELL, DUTY, plate.replace(flow_L_min=q), position=k)
+                 for k in range(3)]
+        case = ds.sel(flow_L_min=q)
+        hottest = [float(c["temperature_core_max"].max()) for c in cells]  # core is the hottest
+        assert float(case["peak_temperature_C"]) == pytest.approx(max(hottest))
+        assert int(case["worst_cell"]) == 2  # the last cell sees the warmest coolant
+        means = np.stack([c["temperature_mean"].values for c in cells])
+        c2c = float((means.max(axis=0) - means.min(axis=0)).max())
+        assert float(case["cell_to_cell_K"]) == pytest.approx(c2c)
+        assert float(case["margin_cell_to_cell_K"]) == pytest.approx(0.5 - c2c)
+        # the module's traces: its hottest cell's maximum, the coolant leaving its last cell
+        np.testing.assert_allclose(case["temperature_max"].values,
+                                   np.max([c["temperature_max"].values for c in cells], axis=0))
+        np.testing.assert_allclose(case["coolant_outlet"].values, cells[-1]["coolant_outlet"])
+    assert (ds["verdict_cell_to_cell_K"] != "not evaluated").all()
+    # more flow: smaller differences between the cells (the stand-in's physics)
+    assert float(ds["cell_to_cell_K"].sel(flow_L_min=4.0)) < float(
+        ds["cell_to_cell_K"].sel(flow_L_min=1.0))
 
 
 def test_setting_axis_and_public_name(standin):
