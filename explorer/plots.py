@@ -545,19 +545,18 @@ def _module_hottest(ds) -> str:
     return "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
 
 
-def _module_coolant(ds, index: int) -> np.ndarray | None:
-    """Coolant temperature at the cell boundaries along the plate at time ``index`` (None: none).
+def _module_coolant(ds) -> np.ndarray | None:
+    """Coolant temperature at the cell boundaries along the plate, (time, cells + 1); None when
+    the run has no coolant stream.
 
     Point 0 is the inlet of the first cell, point k+1 the outlet of cell k (the inlet of k+1).
     """
     if "coolant_outlet" not in ds:
         return None
-    outlet = np.asarray(ds["coolant_outlet"].isel(time=index).values, dtype=float)
-    if "coolant_inlet" in ds:
-        first = float(ds["coolant_inlet"].isel(time=index, cell=0).values)
-    else:
-        first = np.nan
-    return np.concatenate([[first], outlet])
+    outlet = np.asarray(ds["coolant_outlet"].transpose("time", "cell").values, dtype=float)
+    first = (np.asarray(ds["coolant_inlet"].isel(cell=0).values, dtype=float)
+             if "coolant_inlet" in ds else np.full(outlet.shape[0], np.nan))
+    return np.column_stack([first, outlet])
 
 
 def module_figure(ds, limits=None) -> go.Figure:
@@ -598,17 +597,16 @@ def module_figure(ds, limits=None) -> go.Figure:
         fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=1, col=1,
                       annotation_text=f"design limit {lim['temperature_max_C']:g} °C",
                       annotation_position="bottom left")
-    at_peak = _module_coolant(ds, i_peak)
-    if at_peak is not None:
+    coolant = _module_coolant(ds)
+    if coolant is not None:
         edges = np.arange(cells.size + 1)
-        highest = np.nanmax(np.stack([_module_coolant(ds, k) for k in range(ds.sizes["time"])]),
-                            axis=0)
-        fig.add_trace(go.Scatter(x=edges, y=at_peak, mode="lines+markers",
+        fig.add_trace(go.Scatter(x=edges, y=coolant[i_peak], mode="lines+markers",
                                  name=f"coolant at the module's peak (t = {t[i_peak]:.4g} "
                                       f"{'min' if divisor == 60.0 else 's'})",
                                  line=dict(color=PALETTE[0])), row=2, col=1)
-        fig.add_trace(go.Scatter(x=edges, y=highest, mode="lines", name="coolant, highest over "
-                                 "the run", line=dict(color=PALETTE[0], dash="dash")), row=2, col=1)
+        fig.add_trace(go.Scatter(x=edges, y=np.nanmax(coolant, axis=0), mode="lines",
+                                 name="coolant, highest over the run",
+                                 line=dict(color=PALETTE[0], dash="dash")), row=2, col=1)
     spread = np.asarray((ds["temperature_mean"].max("cell") - ds["temperature_mean"].min("cell"))
                         .values, dtype=float)
     fig.add_trace(go.Scatter(x=t, y=spread, name="cell-to-cell (largest − smallest cell mean)",
