@@ -596,8 +596,9 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
     lo, hi = _check_bounds(entry.bounds if bounds is None else bounds)
     lattice = _Lattice(lo, hi, entry.resolution)
     ends = (lattice.value(lattice.k_lo), lattice.value(lattice.k_hi))
+    _check_fits(cell, cooling)
     for end in ends:  # both ends must be valid designs that fit the cells they serve
-        _check_fits(cell, _replace(cooling, vary, end), vary, end)
+        _check_fits(cell, _replace(cooling, vary, end), f" at `{vary}` = {end:g}")
     limits.check_reachable(_coldest_sink(cooling, vary, lo, hi), where="size_cooling")
     as_module = _use_module(cooling, module)
     positions, cells = _positions(cooling, positions, as_module)
@@ -703,7 +704,7 @@ def _replace(cooling, vary, value):
                          f"{exc}") from None
 
 
-def _check_fits(cell, design, vary, value) -> None:
+def _check_fits(cell, design, where: str = "") -> None:
     """A plate too short for the cells it serves is an error for sizing, not a warning."""
     fits = getattr(design, "check_fits", None)
     if fits is None:
@@ -713,13 +714,12 @@ def _check_fits(cell, design, vary, value) -> None:
     except SizingError:
         raise
     except InputError as exc:
-        raise SizingError(f"size_cooling: at `{vary}` = {value:g} the design does not fit the "
-                          f"cells it serves: {exc}") from None
+        problems = [str(exc)]
     if isinstance(problems, str):
         problems = [problems]
     if problems:
-        raise SizingError(f"size_cooling: at `{vary}` = {value:g} the design does not fit the "
-                          f"cells it serves: {'; '.join(map(str, problems))}")
+        raise SizingError(f"size_cooling: the design{where} does not fit the cells it serves: "
+                          f"{'; '.join(map(str, problems))}")
 
 
 def _coldest_sink(cooling, vary, lo, hi) -> float:
