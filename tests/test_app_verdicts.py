@@ -171,6 +171,7 @@ def test_module_run_shows_the_module_view(fake_runs):
     app.run()
     assert [c[0] for c in fake_runs] == ["simulate_module", "simulate"]
     assert "One cell was run" in app.module_text.value
+    assert not app.fig_module.figure.data  # the earlier module's figure is gone
     assert app.cell_select.layout.display == "none"
 
 

@@ -482,6 +482,9 @@ class ExplorerApp(widgets.VBox):
             self.module_text.value = ("<p style='color:#555'>One cell was run. Set more than one cell "
                                       "sharing the coolant (Cooling tab) to run the module along "
                                       "the plate.</p>")
+            if not self.fig_module.empty:  # an earlier module must not pass for this run
+                self.fig_module.replace(_placeholder("the last run was one cell",
+                                                     self.fig_module.figure.layout.height))
             return
         self.fig_module.replace(plots.module_figure(ds, limits=self._limits))
         self.module_text.value = module_html(ds, self._limits)
