@@ -3,7 +3,12 @@
 * :func:`explore` — build the app (optionally with initial inputs by name).
 * :class:`ExplorerApp` — the widget (``.run()``, ``.dataset``, ``.pin()``, ``.size()`` ...).
 * :mod:`explorer.app.inputs` — the input table, validation and :func:`inputs_to_call`, the pure
-  mapping of the inputs onto the public API.
+  mapping of the inputs onto the public API (``explorer.simulate``, or ``explorer.simulate_module``
+  when more than one cell shares the plate's coolant).
+* :mod:`explorer.app.widget` — the widget, and what its panels show as plain functions of the
+  results: :func:`~explorer.app.widget.limits_html` (each limit "met", "NOT met" or "not
+  evaluated (reason)" from ``Limits.check``, with the run's warnings beside every verdict),
+  :func:`~explorer.app.widget.module_html`, :func:`~explorer.app.widget.sizing_html`.
 
 Live figures are plotly ``FigureWidget`` objects when the ``anywidget`` package is installed
 (plotly >= 6 needs it for them); otherwise the app keeps plain figures, updates them in place and
