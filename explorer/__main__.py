@@ -2,6 +2,10 @@
 
 import sys
 
-from explorer.cli import main
+try:
+    from explorer.cli import main
+except KeyboardInterrupt:  # Ctrl-C while the libraries load: no traceback either
+    print("error: interrupted", file=sys.stderr)
+    sys.exit(130)
 
 sys.exit(main())

@@ -45,7 +45,7 @@ EXIT_BROKEN_PIPE = 141  # 128 + SIGPIPE, what a shell reports for `yes | head`
 
 
 def _parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
+    p = _Parser(
         prog="python -m explorer",
         description="Pouch Thermal Explorer: heat, temperature and SOC fields of large pouch "
         "cells, and cold-plate sizing.")
@@ -80,10 +80,17 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with its usage errors cut short (it echoes the bad argument whole)."""
+
+    def error(self, message):
+        super().error(clip(message, MESSAGE_CHARS))
+
+
 def _subparser(parent):
     """A parser class whose instances all take ``parent``'s options (here: ``-v``)."""
 
-    class Sub(argparse.ArgumentParser):
+    class Sub(_Parser):
         def __init__(self, *args, parents=(), **kwargs):
             super().__init__(*args, parents=[*parents, parent], **kwargs)
 

@@ -291,6 +291,14 @@ def test_every_printed_message_is_capped(capsys, monkeypatch):
     assert len(err) < 2100 and "(100000 characters)" in err
 
 
+def test_a_huge_command_line_argument_is_echoed_cut_short(capsys):
+    with pytest.raises(SystemExit) as exit_:
+        main(["x" * 100_000])
+    assert exit_.value.code == 2
+    err = capsys.readouterr().err
+    assert "invalid choice" in err and len(err) < 2500 and "Traceback" not in err
+
+
 def test_broken_pipe_in_process_is_quiet(capsys, monkeypatch):
     monkeypatch.setattr("explorer.cell.load_cell", _raiser(BrokenPipeError(errno.EPIPE, "")))
     assert main(["show", "van_nmc_66ah"]) == cli.EXIT_BROKEN_PIPE
