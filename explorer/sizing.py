@@ -1027,6 +1027,9 @@ def _message(outcome, vary, lo, hi, runner, limits, entry, tps=None) -> str:
     if outcome.kind == "none met":
         msg = (f"none met: no value of `{vary}` in [{lo:g}, {hi:g}] {unit} meets the limits; "
                f"the best evaluated is {value:.6g} {unit}: {figs}")
+        ends = {min(outcome.values): "lower", max(outcome.values): "upper"}
+        if value in ends:
+            msg += f"; it sits on the {ends[value]} bound (nothing beyond it was tried)"
     elif outcome.kind == "limits":
         _, fail = outcome.bracket
         msg = (f"`{vary}` = {value:.6g} {unit} is the cheapest value that meets the limits "

@@ -324,6 +324,7 @@ def test_size_infeasible_reports_best(standin):
     assert not res.feasible and res.limited_by == "none met"
     assert res.value == 2.0
     assert "none met" in res.message and "no value of `flow_L_min`" in res.message
+    assert "sits on the upper bound" in res.message
     assert res.margins["temperature_max_C"] < 0
 
 
