@@ -5,7 +5,10 @@ temperatures of an edge plate on the van demo cell; 2C discharge to the lower
 voltage limit, SPMe, averaged layout) is run serially in this process and on
 a local Dask cluster on loopback (2 worker processes, 1 thread each), in the
 same call, without the cache. The cluster's start-up (and the workers'
-first import of the package) is timed apart from the sweep itself; the speed-up is serial time over cluster time.
+first import of the package) is timed apart from the sweep itself; the speed-up is serial time
+over cluster time. A cluster of threads in this process (1 worker, 2 threads) is timed too: it is
+what a plain script without a main guard could use instead of worker processes; the sweep runs
+such a script's cases serially because the threads gain nothing (the cases hold the GIL).
 
 Run it directly: ``python -m explorer.sweep_bench``.
 """
@@ -71,9 +74,10 @@ def bench_sweep(cell: str = "van_nmc_66ah", n_workers: int = 2) -> list[dict]:
     finally:
         client.close()
         cluster.close()
-    same = bool(np.allclose(serial["peak_temperature_C"], parallel["peak_temperature_C"],
-                            rtol=1e-12, equal_nan=True))
-    failed = int(serial.attrs["cases_failed"]) + int(parallel.attrs["cases_failed"])
+    threads_s, threaded = _threads(the_cell, the_duty, design)
+    same = all(bool(np.allclose(serial["peak_temperature_C"], other["peak_temperature_C"],
+                                rtol=1e-12, equal_nan=True)) for other in (parallel, threaded))
+    failed = sum(int(ds.attrs["cases_failed"]) for ds in (serial, parallel, threaded))
     # Other work on the machine shows up here; a loaded machine hides the parallel gain.
     common = {"section": "sweep", "cases": cases, "model": "spme", "grid": "12x8",
               "load_average_1min": os.getloadavg()[0]}
@@ -86,10 +90,26 @@ def bench_sweep(cell: str = "van_nmc_66ah", n_workers: int = 2) -> list[dict]:
          "cases_cpu_s": cpu_serial},
         {**common, "run": f"dask {n_workers}x1", "wall_s": dask_s, "per_case_s": dask_s / cases,
          "cases_cpu_s": cpu_dask, "cluster_start_s": start_s},
+        {**common, "run": "dask threads 1x2", "wall_s": threads_s,
+         "per_case_s": threads_s / cases},
         {**common, "run": "serial/dask", "ratio": serial_s / dask_s,
          "ratio_with_start": serial_s / (dask_s + start_s),
          "cpu_ratio": cpu_serial / cpu_dask, "same_figures": same, "failed_cases": failed},
+        {**common, "run": "serial/threads", "ratio": serial_s / threads_s},
     ]
+
+
+def _threads(cell, duty, design):
+    """Wall time (start-up included: milliseconds) of the sweep on a cluster of threads."""
+    from distributed import Client, LocalCluster
+
+    from explorer.sweeping import sweep
+
+    t0 = time.perf_counter()
+    with LocalCluster(processes=False, n_workers=1, threads_per_worker=2,
+                      dashboard_address=None) as cluster, Client(cluster) as client:
+        result = sweep(cell, duty, design, AXES, scheduler=client, progress=False, **SETTINGS)
+    return time.perf_counter() - t0, result
 
 
 if __name__ == "__main__":

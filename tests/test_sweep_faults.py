@@ -298,3 +298,30 @@ def test_main_guard_detection(tmp_path, body, reruns):
 def test_main_guard_detection_in_process():
     """pytest's own main module is not run again: this process may start workers."""
     assert sweep_mod._main_reruns_sweep() is False
+
+
+def test_ctrl_c_in_the_dask_client_stops_the_sweep(monkeypatch, tmp_path):
+    """Ctrl-C while the client waits for Dask results (here a cluster of threads in this
+    process, so the stand-in runs on it): the sweep returns what it has; the user's client
+    stays open."""
+    from distributed import Client, LocalCluster
+
+    monkeypatch.setattr(sweep_mod, "_simulate", standin_simulate)
+    finish, seen = sweep_mod._finish, []
+
+    def interrupt_third(done, case, result):
+        seen.append(case.index)
+        if len(seen) == 3:
+            raise KeyboardInterrupt
+        finish(done, case, result)
+
+    monkeypatch.setattr(sweep_mod, "_finish", interrupt_third)
+    with LocalCluster(processes=False, n_workers=1, threads_per_worker=1,
+                      dashboard_address=None) as cluster, Client(cluster) as client:
+        ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), AXES, scheduler=client, progress=False,
+                   cache_dir=tmp_path)
+        assert client.status == "running"
+    status = ds["case_status"].values.ravel()
+    assert ds.attrs["status"] == "stopped"
+    assert sorted(status) == ["completed"] * 2 + ["stopped"] * 4
+    assert len(list(tmp_path.glob("*.nc"))) == 2
