@@ -360,3 +360,22 @@ def test_real_module_run_in_the_app():
     heat = {tr.name: tr for tr in app.fig_heat.figure.data}
     total = next(tr for name, tr in heat.items() if name.startswith("total generated"))
     np.testing.assert_allclose(total.y, ds["heat_total"].sum("cell").values)
+
+
+@pytest.mark.skipif(not _module_landed(), reason="explorer.simulate_module (contracts C) not landed")
+def test_real_module_sizing_in_the_app():
+    app = explorer.explore(cells_per_plate=3, size_vary="inlet_C", limit_spread_K=10.0,
+                           limit_temperature_C=40.0)
+    low, high, unit, step = app_widget.sizing_bounds("inlet_C")
+    assert (app.inputs()["size_low"], app.inputs()["size_high"]) == (low, high)
+    result = app.size()
+    assert result is not None, app.last_error
+    assert result.vary == "inlet_C" and low <= result.value <= high
+    # the answer sits on the parameter's step (rounded in the safe direction, contracts D)
+    assert abs(result.value / step - round(result.value / step)) < 1e-6
+    assert app.inputs()["inlet_C"] == pytest.approx(result.value)
+    assert "cell" in app.dataset.dims and app.dataset.sizes["cell"] == 3  # the module is shown
+    text = _text(app.sizing_text.value)
+    assert f"{result.value:.6g} {unit}" in text and f"step of {step:g} {unit}" in text
+    head = app_widget._LIMITED_BY[result.limited_by][0]
+    assert head in text
