@@ -544,7 +544,8 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
         the first samples, the worst next to the boundary while refining, all
         again at the answer (searching again if another one fails there).
     samples, spacing, max_evaluations
-        Search settings, see :func:`find_boundary`.
+        Search settings, see :func:`find_boundary` (``"auto"`` spacing is linear for a
+        temperature in degC).
     resolution, cheaper : optional
         Override the parameter's entry in :data:`DESIGN_PARAMETERS` (needed
         for a parameter that has none).
@@ -605,6 +606,8 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
 
     runner = _Runner(cell, duty, cooling, vary, limits, positions, simulate_kwargs,
                      as_module=as_module, cells=cells, on_evaluation=on_evaluation)
+    if spacing == "auto" and entry.unit == "degC":  # a ratio of Celsius values means nothing
+        spacing = "linear"
     search = {"cheaper": entry.cheaper, "resolution": entry.resolution, "samples": samples,
               "spacing": spacing, "max_evaluations": max_evaluations}
     outcome = find_boundary(runner.margin, lo, hi, on_sampled=runner.choose_positions, **search)
