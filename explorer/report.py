@@ -469,7 +469,7 @@ def cmd_report(path: str, out: str | None = None) -> int:
     message says what it is instead: a sweep, a sizing curve, a file this tool did not write), and
     2 when the report cannot be written. The message goes to stderr; the written path to stdout.
     """
-    from explorer.validators import MESSAGE_CHARS, InputError, clip
+    from explorer.validators import MESSAGE_CHARS, InputError, OutputError, clip
 
     def fail(message: str) -> int:
         print(f"error: {clip(message, MESSAGE_CHARS)}", file=sys.stderr)
@@ -498,7 +498,7 @@ def cmd_report(path: str, out: str | None = None) -> int:
         write_report(ds, target, title=f"{DEFAULT_TITLE}: {source.name}")
     except OSError as exc:
         return fail(f"cannot write report {str(target)!r}: {exc.strerror or exc}")
-    except (ValueError, TypeError) as exc:  # write_report's own path checks; OutputError
+    except OutputError as exc:  # any other failure is a bug of the report: the CLI says so
         return fail(f"cannot write report {str(target)!r}: {exc}")
     finally:
         close = getattr(ds, "close", None)
