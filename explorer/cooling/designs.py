@@ -14,7 +14,13 @@ Every design is a frozen dataclass with the same members:
    plate ({} without one); ``heat_W`` is the heat ONE cell rejects into the
    plate, the plate's load (``plate_heat_W``) is that times the cells sharing
    its coolant; with ``cell`` the warnings also say when the plate does not
-   fit the cells (channel coverage, channel length).
+   fit the cells (channel coverage, channel length). Pressure drop and pump
+   power are for the plate's channels only (``pressure_drop_scope``, the
+   ``labels`` and a note say so): manifolds and the rest of the loop are not
+   included.
+6. ``check_fits(cell)`` -- raises :class:`~explorer.validators.InputError`
+   with the lengths when the plate's channels are shorter than the path under
+   the cells they serve (sizing calls it: such a plate is no answer).
 
 Designs add up: ``edge_plate(...) + tab_cooling(...)`` (or :func:`combine`).
 
@@ -74,6 +80,17 @@ DEFAULT_FIN_CONTACT_W_m2K = 2000.0
 # Gap pads and pastes for battery cold plates span about 1-6 W/(m K) (common practice).
 DEFAULT_TIM_W_mK = 3.0
 DEFAULT_TIM_MM = 0.5
+# What the plate's pressure drop and pump power cover (said wherever they are shown).
+HYDRAULICS_SCOPE = "channels only"
+HYDRAULICS_NOTE = ("pressure drop and pump power: channels only (friction, entrance, exit and "
+                   "bends in the plate's channels); manifolds, connectors, hoses and the rest "
+                   "of the coolant loop are not included")
+HYDRAULICS_LABELS = {
+    "pressure_drop_Pa": "pressure drop, channels only",
+    "pressure_drop_friction_Pa": "pressure drop by friction, channels only",
+    "pressure_drop_minor_Pa": "pressure drop by entrance, exit and bends, channels only",
+    "pump_power_W": "pump power for the channels only",
+}
 
 
 class _Design:
@@ -128,10 +145,22 @@ class _Design:
                 out[f.name] = list(value)
             else:
                 out[f.name] = value
+        if isinstance(self._plate(), ColdPlate):
+            out["hydraulics_scope"] = HYDRAULICS_NOTE
         return out
 
     def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
         return {}
+
+    def check_fits(self, cell) -> None:
+        """Raise InputError when the plate is too short for the cells it serves."""
+        needed = self._path_needed(cell) if isinstance(self._plate(), ColdPlate) else None
+        if needed is not None:
+            _check_length(self._plate(), *needed)
+
+    def _path_needed(self, cell):
+        """(length of the coolant path under the cells this plate serves in m, what it is)."""
+        return None
 
     def positions_to_check(self) -> list[int]:
         return [0]
@@ -333,11 +362,15 @@ class FacePlate(_Design):
         cells = self.plate.cells_per_plate * self.faces_per_plate / faces
         out = _plate_hydraulics(self.plate, heat_W, cells)
         if cell is not None:
-            g = cell.geometry
-            along = g.width_m if self.direction in ("+x", "-x") else g.height_m
             out["warnings"] += _fit_warnings(self.plate, self._coverage(cell)[1],
-                                             self.plate.cells_per_plate * along, "cells along the flow")
+                                             self._path_needed(cell)[0], "cells along the flow")
         return out
+
+    def _path_needed(self, cell):
+        g = cell.geometry
+        along = g.width_m if self.direction in ("+x", "-x") else g.height_m
+        n = self.plate.cells_per_plate
+        return n * along, f"{n} cell(s) one after another, {along * 1e3:.0f} mm each along the flow"
 
 
 def face_plate(plate, face: str = "back", tim_W_mK: float = DEFAULT_TIM_W_mK,
@@ -491,11 +524,16 @@ class EdgePlate(_Design):
             return {}
         out = _plate_hydraulics(self.plate, heat_W, self.plate.cells_per_plate)
         if cell is not None:
-            edge_len, _, pitch = self._lengths(cell)
-            needed = (self.plate.cells_per_plate * pitch if self.direction == "across" else edge_len)
-            out["warnings"] += _fit_warnings(self.plate, self._share(cell)[0], needed,
-                                             "the path under the cells")
+            out["warnings"] += _fit_warnings(self.plate, self._share(cell)[0],
+                                             self._path_needed(cell)[0], "the path under the cells")
         return out
+
+    def _path_needed(self, cell):
+        edge_len, _, pitch = self._lengths(cell)
+        if self.direction == "across":
+            n = self.plate.cells_per_plate
+            return n * pitch, f"{n} cell(s) through the stack, {pitch * 1e3:.1f} mm pitch each"
+        return edge_len, f"the {self.edge} edge, {edge_len * 1e3:.0f} mm"
 
 
 def edge_plate(plate, edge: str = "bottom", fin_mm: float | None = None,
@@ -540,7 +578,19 @@ def _plate_hydraulics(plate: ColdPlate, heat_W, cells: float) -> dict:
     out = plate.hydraulics(total)
     out["cell_heat_W"] = None if heat_W is None else float(heat_W)
     out["cells_on_coolant"] = float(cells)
+    out["pressure_drop_scope"] = HYDRAULICS_SCOPE
+    out["labels"] = dict(HYDRAULICS_LABELS)
+    out["notes"] = [*out.get("notes", []), HYDRAULICS_NOTE]
     return out
+
+
+def _check_length(plate: ColdPlate, needed_m: float, what: str) -> None:
+    """The plate's channels must run the whole path under the cells they serve."""
+    if plate.length_mm * 1e-3 < 0.99 * needed_m:
+        raise InputError(
+            f"`length_mm`: the plate's channels are {plate.length_mm:g} mm long, shorter than "
+            f"the path under the cells they serve ({what}: {needed_m * 1e3:.0f} mm); expected "
+            f"length_mm >= {needed_m * 1e3:.0f}, or fewer `cells_per_plate`")
 
 
 # Below this channel coverage the assumed lateral spreading in the top wall is doubtful.
@@ -555,7 +605,8 @@ def _fit_warnings(plate: ColdPlate, coverage: float, needed_m: float, what: str)
                    "is taken to spread the heat over the rest, which flatters the result")
     if plate.length_mm * 1e-3 < 0.99 * needed_m:
         out.append(f"channel length {plate.length_mm:g} mm is shorter than {what} "
-                   f"({needed_m * 1e3:.0f} mm): the pressure drop is understated")
+                   f"({needed_m * 1e3:.0f} mm): the plate does not fit the cells and the "
+                   f"pressure drop (channels only) is understated; sizing refuses such a plate")
     return out
 
 
@@ -633,6 +684,10 @@ class Combined(_Design):
 
     def positions_to_check(self) -> list[int]:
         return sorted({k for p in self.parts for k in p.positions_to_check()})
+
+    def check_fits(self, cell) -> None:
+        for p in self.parts:
+            p.check_fits(cell)
 
     def hydraulics(self, heat_W: float | None = None, cell=None) -> dict:
         for p in self.parts:

@@ -80,6 +80,15 @@ class CoolantStream:
     ``direction`` and warms by the heat this cell rejects into ``sink``
     divided by ``capacity_rate_W_K`` (mass flow times specific heat of the
     share of coolant serving this cell).
+
+    ``upstream_cells`` > 0 is an approximation: the cells before this one are
+    taken to reject what this one rejects, at every moment. The cells upstream
+    run cooler and reject less, so it overstates the coolant reaching the cell
+    somewhat (a cautious figure for the last cell, but no figure for the
+    others and no cell-to-cell spread). :func:`explorer.simulate_module` runs
+    every cell on the coolant path, each fed the one before's outlet, from
+    sinks with ``upstream_cells`` = 0 whose inlet the thermal models set per
+    step (``set_coolant_inlet_C``, ``step_series``).
     """
 
     sink: str | tuple[str, ...]  # one sink, or several sharing the coolant (both faces)
