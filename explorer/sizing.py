@@ -337,7 +337,10 @@ def find_boundary(margin, lo: float, hi: float, *, cheaper: str, resolution: flo
     if not any(met):
         return outcome(max(order, key=lambda k: seen[k]), "none met")
     j = met.index(True)
-    fail, ok = _refine(f, order[j - 1], order[j])
+    # thermal figures go nearly linearly with the reciprocal of a flow or a conductance
+    reciprocal = lat.k_lo > 0 and (spacing == "geometric" or (
+        spacing == "auto" and lat.k_hi / lat.k_lo >= 4.0))
+    fail, ok = _refine(f, order[j - 1], order[j], reciprocal)
     return outcome(ok, "limits", bracket=(lat.value(ok), lat.value(fail)),
                    islands=_islands(order, met, order[j], lat))
 
@@ -357,15 +360,17 @@ def _islands(order, met, anchor, lat) -> list[tuple[float, float]]:
     return runs
 
 
-def _refine(f, fail: int, ok: int) -> tuple[int, int]:
+def _refine(f, fail: int, ok: int, reciprocal: bool = False) -> tuple[int, int]:
     """Shrink a bracket of lattice indices (``fail`` fails, ``ok`` meets) to neighbours.
 
-    Linear interpolation of the margin gives the next index, rounded to the
+    Linear interpolation of the margin (against the reciprocal of the value
+    when ``reciprocal``, indices > 0) gives the next index, rounded to the
     feasible side of the estimated root so the following probe, one step
     cheaper, usually closes the bracket; a step that does not halve the
     bracket is followed by a bisection (guaranteed progress).
     """
     f_fail, f_ok = f(fail), f(ok)
+    u = (lambda k: 1.0 / k) if reciprocal else float  # the axis the margin is taken linear on
     bisect = False
     while abs(ok - fail) > 1:
         width = abs(ok - fail)
@@ -373,7 +378,8 @@ def _refine(f, fail: int, ok: int) -> tuple[int, int]:
         if bisect:
             k = (fail + ok) // 2
         else:
-            root = fail + (ok - fail) * (-f_fail) / (f_ok - f_fail)
+            root = u(fail) + (u(ok) - u(fail)) * (-f_fail) / (f_ok - f_fail)
+            root = 1.0 / root if reciprocal else root
             k = math.ceil(root) if ok > fail else math.floor(root)
         k = min(max(k, lo + 1), hi - 1)
         m = f(k)
