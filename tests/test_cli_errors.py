@@ -183,6 +183,16 @@ def test_report_names_the_kind_of_the_tools_other_files(tool_files, capsys, kind
     assert not path.with_suffix(".html").exists()
 
 
+def test_open_results_says_what_a_file_is(tool_files):
+    from explorer.results import ResultsKindError, open_results
+
+    assert float(open_results(tool_files["run"])["time"][-1]) > 0
+    with pytest.raises(ResultsKindError) as exc:
+        open_results(tool_files["sweep"])
+    assert exc.value.kind.startswith("a sweep results file")
+    assert str(tool_files["sweep"]) in str(exc.value)
+
+
 def test_report_of_a_sweep_cache_entry(tmp_path, capsys):
     # the shape of a cache entry (explorer.sweeping.run_case): summary and traces of one case
     entry = xr.Dataset({"peak_temperature_C": ((), 30.0), "voltage": ("time", [4.1, 4.0])},
