@@ -482,7 +482,8 @@ def cmd_report(path: str, out: str | None = None) -> int:
     except (OSError, ValueError):  # a name the OS refuses (too long, NUL byte)
         found = False
     if not found:
-        return fail(f"results file {str(source)!r} not found; expected a netCDF file written by "
+        what = "is a folder" if source.is_dir() else "not found"
+        return fail(f"results file {str(source)!r} {what}; expected a netCDF file written by "
                     "`python -m explorer run` or explorer.results.save")
     try:
         ds = results.open_results(str(source))

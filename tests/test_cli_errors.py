@@ -212,6 +212,8 @@ def test_report_of_files_this_tool_did_not_write(tmp_path, capsys):
     text.write_text("not netCDF at all")
     err = _clean_error(capsys, main(["report", str(text)]))
     assert str(text) in err and "not a results file" in err
+    err = _clean_error(capsys, main(["report", str(tmp_path)]))
+    assert "is a folder" in err
 
 
 # --------------------------------------------------------------------------- bad input files
