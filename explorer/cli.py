@@ -128,7 +128,7 @@ def run_guarded(job, verbose: bool = False) -> int:
         return _fail(str(exc), verbose, EXIT_INPUT)
     except OSError as exc:
         return _fail(os_error_text(exc), verbose, EXIT_INPUT)
-    except UnicodeError as exc:  # a reader that did not name its file; say what is wrong
+    except UnicodeDecodeError as exc:  # a reader that did not name its file; say what is wrong
         return _fail(f"a file is not UTF-8 text ({exc}); save it as UTF-8", verbose, EXIT_INPUT)
     except Exception as exc:  # the last resort: a bug, but never a bare traceback
         hint = "" if verbose else " (run with -v for the traceback)"

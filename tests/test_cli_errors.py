@@ -297,6 +297,13 @@ def test_os_error_outside_the_writers(capsys, monkeypatch):
     assert err.strip() == "error: /x/c.toml: Permission denied"
 
 
+def test_an_undecodable_file_from_a_reader_that_does_not_name_it(capsys, monkeypatch):
+    monkeypatch.setattr("explorer.cell.load_cell",
+                        _raiser(UnicodeDecodeError("utf-8", b"\xb0", 0, 1, "invalid start byte")))
+    err = _clean_error(capsys, main(["show", "c.toml"]))
+    assert "not UTF-8 text" in err and "0xb0" in err
+
+
 def test_every_printed_message_is_capped(capsys, monkeypatch):
     monkeypatch.setattr("explorer.cell.load_cell", _raiser(InputError("z" * 100_000)))
     err = _clean_error(capsys, main(["show", "van_nmc_66ah"]))
