@@ -9,6 +9,7 @@ Duty and cooling
     :mod:`cooling` -- convection, cold_plate, face_plate, edge_plate, tab_cooling.
 Running
     :func:`simulate` -- one cell, one duty, one cooling design -> ``xarray.Dataset``.
+    :func:`simulate_module` -- every cell on one coolant path, coupled -> ``xarray.Dataset``.
     :func:`open_results` -- load a saved run.
 Designing
     :class:`Limits`, :func:`size_cooling`, :func:`sweep`.
@@ -23,6 +24,7 @@ __version__ = "0.1.0"
 from explorer import cell, cooling, duty, results, validators  # noqa: E402
 from explorer.cell import load_cell  # noqa: E402
 from explorer.limits import Limits  # noqa: E402
+from explorer.module import simulate_module  # noqa: E402
 from explorer.results import open_results  # noqa: E402
 from explorer.simulate import simulate  # noqa: E402
 from explorer.sizing import size_cooling  # noqa: E402
@@ -37,6 +39,7 @@ __all__ = [
     "duty",
     "cooling",
     "simulate",
+    "simulate_module",
     "open_results",
     "Limits",
     "size_cooling",

@@ -10,6 +10,9 @@ measured side by side in the same run. Sections:
                 compute ratio DFN/SPMe at the same mesh
 * ``averaged``  SPMe, averaged layout, 32 x 48 thermal grid, full 1C discharge
 * ``distributed`` the same on the default grid of rods (for scale; no target)
+* ``module``    a face plate shared by 12 cells: ``simulate_module`` (all 12 cells,
+                coupled along the coolant) against one ``simulate`` of the same design,
+                SPMe averaged on the default grid, 1C discharge; target ratio <= 3
 * ``inplane``   collector network set-up and thermal steps on the 32 x 48 grid
 * ``sweep``     48-case sweep, serial against the local Dask cluster
 * ``app``       the notebook app's run-to-figure and time-slider update
@@ -81,6 +84,42 @@ def bench_layout(layout, repeat=3, cells=None, warm_up=True):
     return rows
 
 
+def bench_module(repeat=3, cells=12, cell_name="van_nmc_66ah"):
+    """``simulate_module`` of ``cells`` cells on one face plate against one ``simulate``.
+
+    The two are timed alternately (best of ``repeat`` each) so the ratio sees the
+    same machine load.
+    """
+    import explorer
+    from explorer.timing import best_of
+
+    cell = explorer.load_cell(cell_name)
+    along = cell.geometry.width_m * 1e3  # the plate runs along +x under every cell
+    plate = explorer.cooling.cold_plate("eg50", flow_L_min=4.0, inlet_C=25.0,
+                                        cells_per_plate=cells, length_mm=cells * along)
+    design = explorer.cooling.face_plate(plate)
+    duty = explorer.duty.discharge(c_rate=1.0)
+
+    def single():
+        return explorer.simulate(cell, duty, design)
+
+    def module():
+        return explorer.simulate_module(cell, duty, design)
+
+    single(), module()  # warm-up: imports, coolant tables
+    t_single, t_module = float("inf"), float("inf")
+    for _ in range(max(1, repeat)):
+        w, ds1 = best_of(single, 1, warm_up=False)
+        t_single = min(t_single, w)
+        w, dsm = best_of(module, 1, warm_up=False)
+        t_module = min(t_module, w)
+    return [{"section": "module", "cell": cell_name, "model": "spme", "cells": cells,
+             "grid": f"{dsm.sizes['x']}x{dsm.sizes['y']}", "single_s": t_single,
+             "module_s": t_module, "ratio": t_module / t_single, "target_ratio_max": 3.0,
+             "steps_single": int(ds1.attrs["steps_taken"]),
+             "steps_module": int(dsm.attrs["steps_taken"]), "status": dsm.attrs["status"]}]
+
+
 def _section(name, quick):
     if name == "rods":
         return bench_simulate_rods(repeat=1 if quick else 3)
@@ -88,6 +127,8 @@ def _section(name, quick):
         return bench_layout("averaged", repeat=1 if quick else 3)
     if name == "distributed":  # seconds per run: one timed run, no warm-up
         return bench_layout("distributed", repeat=1, warm_up=False)
+    if name == "module":
+        return bench_module(repeat=1 if quick else 3)
     if name == "rod_only":
         from explorer.rod_bench import bench_rods as bench_rod_models
 
@@ -107,7 +148,7 @@ def _section(name, quick):
     raise ValueError(name)
 
 
-SECTIONS = ("rods", "rod_only", "averaged", "distributed", "inplane", "sweep", "app")
+SECTIONS = ("rods", "rod_only", "averaged", "distributed", "module", "inplane", "sweep", "app")
 
 
 def _table(rows) -> str:

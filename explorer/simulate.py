@@ -51,6 +51,11 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     position : int, optional
         Which cell along a shared cold plate to simulate (0 = first the
         coolant meets); default the last, which sees the warmest coolant.
+        An approximation: the cells upstream are taken to put into the
+        coolant what this cell puts in (``upstream_cells`` of
+        :class:`~explorer.inplane.sinks.CoolantStream`). To run every cell on
+        the coolant path, coupled (and to see the cell-to-cell spread), use
+        :func:`explorer.simulate_module`.
     output_interval_s : float, optional
         When given, the run is recorded on this regular time base (plus the
         exact moments steps end) and no time step is longer. By default the
@@ -230,3 +235,33 @@ def _hydraulics(cooling, heat_W, cell) -> dict:
     if fn is None:
         return {}
     return fn(heat_W=heat_W, cell=cell) or {}
+
+
+def cell_pieces(cell, electrochemistry, layout, the_grid, sinks, mesh=None, rods=None):
+    """The per-cell pieces :func:`simulate` builds, for callers that run cells themselves.
+
+    Arguments already checked (as in :func:`simulate`). Returns ``(rod, thermal,
+    coupling, collector_resistance_ohm, rod_grid)``; ``rod`` is the grid of rods
+    for the distributed layout, ``rod_grid`` None otherwise. Used by
+    :mod:`explorer.module`.
+    """
+    from explorer.rod import RodParameters, make_rod
+
+    rod = make_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
+    if layout == "single":
+        return rod, LumpedThermal(cell, sinks), Coupling(), 0.0, None
+    from explorer.inplane.collector import CollectorNetwork
+    from explorer.inplane.thermal import PlaneThermal
+
+    network = CollectorNetwork(cell, the_grid)
+    thermal = PlaneThermal(cell, the_grid, sinks)
+    if layout == "averaged":
+        coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
+                            dict(network.tab_joule_W_per_A2))
+        return rod, thermal, coupling, network.resistance_ohm, None
+    from explorer.stepping.distributed import DistributedRods
+
+    g = cell.geometry
+    rod_grid = _rods(g.width_m, g.height_m, rods)
+    return (DistributedRods(rod, network, the_grid, rod_grid), thermal, Coupling(),
+            network.resistance_ohm, rod_grid)

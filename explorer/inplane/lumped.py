@@ -12,6 +12,8 @@ carry the mean-to-face resistance of :mod:`explorer.inplane.throughplane`.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from explorer.inplane.grid import Grid
@@ -23,6 +25,7 @@ from explorer.inplane.throughplane import (
     mean_to_face_resistance,
     slab_profile,
 )
+from explorer.validators import InputError, check_finite
 
 
 def _mean(v) -> float:
@@ -158,6 +161,54 @@ class LumpedThermal:
         rise = self._q_volumetric(heat_W) * float(
             core_mean_factor(d_front, d_back, self._thickness, self._k_through))
         return np.full((1, 1), float(state[0]) + rise)
+
+    # -- several cells along one coolant path (explorer.module) -----------------------------
+    def _stream_index(self, what: str) -> int:
+        if self._stream is None:
+            raise InputError(f"`{what}` needs a coolant stream in the sinks, got none")
+        if self._stream.upstream_cells:
+            raise InputError(f"`{what}` needs the sinks of the first cell on the coolant "
+                             f"(`upstream_cells` = 0), got {self._stream.upstream_cells}")
+        return self._names.index(self._stream.name)
+
+    def set_coolant_inlet_C(self, inlet_C: float) -> None:
+        """Set the coolant temperature entering this cell for the steps that follow (degC)."""
+        i = self._stream_index("set_coolant_inlet_C")
+        value = check_finite("inlet_C", inlet_C, "degC")
+        self._Ts[i] = value
+        self._stream = replace(self._stream, inlet_C=value)
+
+    def step_series(self, states, heat_W, dt, tab_heat_W=None, inlet_C=None):
+        """One step of ``m`` cells like this one, one after another on its coolant.
+
+        As :meth:`explorer.inplane.thermal.PlaneThermal.step_series`: cell
+        ``k``'s inlet at the new time is cell ``k - 1``'s outlet at the new
+        time (transit time neglected), ``inlet_C`` the first cell's (default
+        this model's). ``states`` (m, 1), ``heat_W`` (m, 1, 1); returns the new
+        states (m, 1) and one dict of sink heat flows per cell.
+        """
+        states = np.asarray(states, dtype=float).reshape(-1, 1)
+        m = states.shape[0]
+        heat = np.asarray(heat_W, dtype=float).reshape(m, -1).sum(axis=1)
+        tabs = [None] * m if tab_heat_W is None else list(tab_heat_W)
+        C, G = self._C, self._G
+        Ts = self._Ts.copy()
+        i = None
+        if self._stream is not None:
+            i = self._stream_index("step_series")
+            t_in = Ts[i] if inlet_C is None else check_finite("inlet_C", inlet_C, "degC")
+        new, rejected = np.empty((m, 1)), []
+        for k in range(m):
+            if i is not None:
+                Ts[i] = t_in
+            q = heat[k] + (sum(tabs[k].values()) if tabs[k] else 0.0)
+            T_new = (C * states[k, 0] / dt + q + np.dot(G, Ts)) / (C / dt + G.sum())
+            flows = G * (T_new - Ts)
+            new[k, 0] = T_new
+            rejected.append(dict(zip(self._names, flows.tolist(), strict=True)))
+            if i is not None:
+                t_in = t_in + flows[i] / self._stream.capacity_rate_W_K
+        return new, rejected
 
 
 def _stream_factor(G: float, stream) -> float:

@@ -615,6 +615,130 @@ class PlaneThermal:
             return None
         return state[self._coolant["strip_nodes"]].copy()
 
+    # -- several cells along one coolant path (explorer.module) -----------------------------
+    def set_coolant_inlet_C(self, inlet_C: float) -> None:
+        """Set the coolant temperature entering this cell for the steps that follow (degC).
+
+        For an inlet that changes in time (an upstream cell's outlet history).
+        The inlet is only a source term, so the cached factorisations stay valid.
+        """
+        b0 = self._inlet_node("set_coolant_inlet_C")
+        self._s[b0] = float(_field("inlet_C", inlet_C, (), nonnegative=False))
+
+    def _inlet_node(self, what: str) -> int:
+        if self._coolant is None:
+            raise InputError(f"cell {self.cell_name!r}: `{what}` needs a coolant stream in the "
+                             f"sinks, got none")
+        b0, bS = self._coolant["boundary_nodes"][[0, -1]]
+        if self._K[b0, bS] != 0:
+            raise InputError(f"cell {self.cell_name!r}: `{what}` needs the sinks of the first "
+                             f"cell on the coolant (`upstream_cells` = 0)")
+        return int(b0)
+
+    def step_series(self, states, heat_W, dt, tab_heat_W=None, inlet_C=None):
+        """One backward-Euler step of ``m`` cells like this one, one after another on its coolant.
+
+        Cell ``k``'s coolant inlet at the new time is cell ``k - 1``'s outlet at
+        the new time (transit time neglected); the first cell's is ``inlet_C``
+        (default this model's inlet). The cells share this model's matrix, so
+        one factorisation serves them all: the system is block lower-triangular
+        through the inlets only, and by linearity each cell's new state is its
+        state at zero inlet plus the inlet times the response to a unit inlet
+        (one solve per ``dt``, cached). The zero-inlet states come from one
+        multi-right-hand-side solve (``m`` columns); the outlets are then
+        chained exactly, cell after cell. Needs sinks with ``upstream_cells`` = 0.
+
+        Parameters
+        ----------
+        states : array (m, n)
+            Each cell's state.
+        heat_W : array (m, ny, nx)
+            Heat generated per grid cell, W, for each cell.
+        dt : float
+        tab_heat_W : None or sequence of m dicts (tab name -> W)
+        inlet_C : float, optional
+
+        Returns
+        -------
+        new_states : array (m, n)
+        rejected_W : list of m dicts, as :meth:`step`
+        """
+        dt = float(dt)
+        if not (dt > 0 and math.isfinite(dt)):
+            raise InputError(f"`dt`: expected a time step > 0 s, got {dt!r}")
+        states = np.asarray(states, dtype=float)
+        if states.ndim != 2 or states.shape[1] != self._n:
+            raise InputError(f"`states`: expected an array of shape (cells, {self._n}), "
+                             f"got shape {states.shape}")
+        m = states.shape[0]
+        heat = np.asarray(heat_W, dtype=float)
+        if heat.shape != (m, *self.grid.shape):
+            raise InputError(f"`heat_W`: expected an array of shape {(m, *self.grid.shape)}, "
+                             f"got shape {heat.shape}")
+        if not np.isfinite(heat).all():
+            raise InputError("`heat_W`: expected finite heat per grid cell, got NaN or inf")
+        tabs = [None] * m if tab_heat_W is None else list(tab_heat_W)
+        if len(tabs) != m:
+            raise InputError(f"`tab_heat_W`: expected one dict per cell ({m}), got {len(tabs)}")
+        lu, c_dt = self._factor(dt)
+        rhs = np.empty((self._n, m), order="F")
+        rhs[:] = self._s[:, None]
+        rhs[: self._N] += heat.reshape(m, self._N).T
+        for k, tab in enumerate(tabs):
+            for name, value in (tab or {}).items():
+                node = self._tab_nodes.get(name)
+                if node is None:
+                    check_choice("tab_heat_W key", name, tuple(self._tab_nodes))
+                rhs[node, k] += value
+        rhs += c_dt[:, None] * states.T
+        if self._coolant is None:
+            new = lu.solve(rhs)
+        else:
+            b0 = self._inlet_node("step_series")
+            bS = self._coolant["boundary_nodes"][-1]
+            t_in = float(self._s[b0]) if inlet_C is None else float(
+                _field("inlet_C", inlet_C, (), nonnegative=False))
+            rhs[b0] = 0.0
+            zero, unit = lu.solve(rhs), self._unit_inlet_response(dt, lu, b0)
+            inlets = np.empty(m)
+            for k in range(m):
+                inlets[k] = t_in
+                t_in = zero[bS, k] + unit[bS] * t_in
+            new = zero + np.outer(unit, inlets)
+        flows = (self._F @ new).T - self._F0
+        names = self._flow_names
+        return (np.ascontiguousarray(new.T),
+                [dict(zip(names, row.tolist(), strict=True)) for row in flows])
+
+    def _unit_inlet_response(self, dt, lu, b0) -> np.ndarray:
+        """The state's response to a unit coolant inlet (1 degC, nothing else), per ``dt``."""
+        cache = getattr(self, "_inlet_responses", None)
+        if cache is None:
+            cache = self._inlet_responses = OrderedDict()
+        unit = cache.get(dt)
+        if unit is None:
+            e = np.zeros(self._n)
+            e[b0] = 1.0
+            unit = cache[dt] = lu.solve(e)
+            if len(cache) > self._cache_size:
+                cache.popitem(last=False)
+        return unit
+
+    def through_thickness_series(self, states, heat_W) -> dict:
+        """:meth:`through_thickness_C` for several cells at once: ``states`` (m, n) and
+        ``heat_W`` (m, ny, nx) give arrays (m, ny, nx), plus ``core`` (as
+        :meth:`core_temperature_C`). One profile evaluation for all."""
+        states = np.asarray(states, dtype=float)
+        heat = np.asarray(heat_W, dtype=float)
+        flux = [self.face_flux_W_m2(x) for x in states]
+        T = states[:, : self._N].reshape(heat.shape)
+        prof = tp.slab_profile(T, np.stack([f["front"] for f in flux]),
+                               np.stack([f["back"] for f in flux]),
+                               self.thickness_m, self.k_through_W_mK)
+        core = T + heat * self._core_mean
+        return {"front": prof["front"], "back": prof["back"],
+                "hottest": np.maximum(prof["max"], core), "coldest": prof["min"], "core": core}
+
     def __repr__(self) -> str:
         names = ", ".join(f.name for f in self._flows) or "adiabatic"
         return (f"<PlaneThermal {self.cell_name!r} {self.grid.nx}x{self.grid.ny}"
