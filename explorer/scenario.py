@@ -126,11 +126,17 @@ def load_scenario(path) -> Scenario:
     path = Path(path)
     where = str(path)
     try:
-        text = path.read_text(encoding="utf-8")
+        data = path.read_bytes()
     except FileNotFoundError:
         raise ScenarioError(f"{where}: no such scenario file") from None
-    except OSError as exc:
-        raise ScenarioError(f"{where}: cannot read the scenario file ({exc.strerror})") from None
+    except (OSError, ValueError) as exc:  # a folder, no permission, a NUL in the name
+        raise ScenarioError(f"{where}: cannot read the scenario file "
+                            f"({getattr(exc, 'strerror', None) or exc})") from None
+    try:
+        text = data.decode("utf-8-sig")  # a leading byte-order mark is harmless
+    except UnicodeDecodeError as exc:
+        raise ScenarioError(f"{where}: not UTF-8 text (byte {exc.start}: "
+                            f"{data[exc.start:exc.start + 1]!r}); save the file as UTF-8") from None
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -181,8 +187,12 @@ def _load_cell(where, path, value):
     candidate = Path(value)
     if candidate.suffix or "/" in value or "\\" in value:
         candidate = candidate if candidate.is_absolute() else path.parent / candidate
+    else:
+        candidate = value
+    try:
         return load_cell(candidate)
-    return load_cell(value)
+    except InputError as exc:  # the cell file's own problems, under the scenario's name
+        raise ScenarioError(f"{where}: `scenario.cell` = {value!r}: {exc}") from None
 
 
 def _model(where, table) -> dict:

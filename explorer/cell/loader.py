@@ -50,14 +50,26 @@ def list_demo_cells() -> dict[str, Path]:
     return {p.stem: p for p in sorted(DEMO_DIR.glob("*.toml"))}
 
 
+def _is_file(p: Path) -> bool:
+    """``Path.is_file`` that answers False for names the OS refuses (too long, NUL byte)."""
+    try:
+        return p.is_file()
+    except (OSError, ValueError):
+        return False
+
+
 def _resolve(path) -> Path:
+    if not isinstance(path, str | Path) or not str(path).strip():
+        raise CellFileError(
+            [Problem("", "(file)", path, "a cell file path (str or Path) or a demo cell name, "
+                     f"one of {', '.join(map(repr, list_demo_cells()))}")], file=repr(path))
     p = Path(path)
-    if p.is_file():
+    if _is_file(p):
         return p
     demos = list_demo_cells()
     if str(path) in demos:
         return demos[str(path)]
-    if p.suffix == "" and (DEMO_DIR / f"{p.name}.toml").is_file() and len(p.parts) == 1:
+    if p.suffix == "" and _is_file(DEMO_DIR / f"{p.name}.toml") and len(p.parts) == 1:
         return DEMO_DIR / f"{p.name}.toml"
     names = ", ".join(repr(n) for n in demos) or "none found"
     close = difflib.get_close_matches(p.stem, list(demos), n=1)
@@ -233,7 +245,12 @@ def load_cell(path) -> Cell:
     67
     """
     file = _resolve(path)
-    raw_bytes = file.read_bytes()
+    try:
+        raw_bytes = file.read_bytes()
+    except OSError as exc:
+        raise CellFileError([Problem(str(file), "(file)", str(file),
+                                     f"a readable file ({exc.strerror or exc})")],
+                            str(file)) from None
     return _from_bytes(raw_bytes, str(file), str(file.resolve()))
 
 
@@ -249,7 +266,15 @@ def cell_from_text(text: str, source: str = "<text>") -> Cell:
     >>> cell_from_text(text.replace('unit_layers = 30', 'unit_layers = 28')).geometry.unit_layers
     28
     """
-    return _from_bytes(text.encode("utf-8"), source, source)
+    if not isinstance(text, str):
+        raise CellFileError([Problem(str(source), "(file)", type(text).__name__,
+                                     "the text of a cell file (str)")], str(source))
+    try:
+        raw_bytes = text.encode("utf-8")
+    except UnicodeEncodeError as exc:  # lone surrogates, e.g. from undecodable file names
+        raise CellFileError([Problem(str(source), "(file)", f"character {exc.start}",
+                                     "text that can be written as UTF-8")], str(source)) from None
+    return _from_bytes(raw_bytes, source, source)
 
 
 def cell_from_dict(data: dict, source: str = "<dict>") -> Cell:
@@ -269,7 +294,7 @@ def cell_from_dict(data: dict, source: str = "<dict>") -> Cell:
 def _from_bytes(raw_bytes: bytes, fname: str, source_path: str) -> Cell:
     sha = hashlib.sha256(raw_bytes).hexdigest()
     try:
-        data = tomllib.loads(raw_bytes.decode("utf-8"))
+        data = tomllib.loads(raw_bytes.decode("utf-8-sig"))  # a leading BOM is harmless
     except UnicodeDecodeError as exc:
         raise CellFileError([Problem(fname, "(file)", f"byte {exc.start}", "UTF-8 text")],
                             fname) from None
