@@ -185,9 +185,9 @@ class ModuleThermal:
     ``model.step_series`` (one factorisation for all cells, outlets chained).
 
     Per-cell figures are kept under a fingerprint of the stacked temperature
-    field: the cheap ones (heat flows, coolant in and out, stored heat) for
-    every state a step produces, the through-thickness ones (core, faces,
-    hottest and coldest) when the stepper records a state (it asks for
+    field: the heat flows (which come with the step) for every state a step
+    produces, the rest (core, faces, hottest and coldest, coolant in and out,
+    stored heat) when the stepper records a state (it asks for
     :meth:`core_temperature_C` then). :meth:`recorded` looks the stepper's
     recorded fields up, so the per-cell figures are those of exactly the
     recorded states.
@@ -283,6 +283,8 @@ class ModuleThermal:
             tt["core"] = np.stack([self.model.core_temperature_C(x, h)
                                    for x, h in zip(state, heat, strict=True)])
         self._through_figures[key] = {
+            "stored_J": np.array([self.model.stored_J(x) for x in state]),
+            **dict(zip(("inlet", "outlet"), self._coolant(state) if self.stream else ())),
             "core_max": tt["core"].max(axis=(1, 2)),
             "hottest": tt["hottest"].max(axis=(1, 2)),
             "coldest": tt["coldest"].min(axis=(1, 2)),
@@ -344,19 +346,15 @@ class ModuleThermal:
         return np.asarray(field, dtype=float).ravel()[self._probe].tobytes()
 
     def _keep_flows(self, state, generated, rejected) -> None:
-        """The cheap per-cell figures of a state a step produced."""
+        """The heat flows of a state a step produced (they come with the step, free)."""
         cells = len(state)
-        fig = {"generated_W": np.asarray(generated, dtype=float),
-               "stored_J": np.array([self.model.stored_J(x) for x in state]),
-               "rejected_W": np.zeros(cells)}
+        fig = {"generated_W": np.asarray(generated, dtype=float), "rejected_W": np.zeros(cells)}
         sinks = {}
         for k, flows in enumerate(rejected or ()):
             fig["rejected_W"][k] = sum(flows.values())
             for name, w in flows.items():
                 sinks.setdefault(name, np.zeros(cells))[k] = w
         fig["sinks"] = sinks
-        if self.stream is not None:
-            fig["inlet"], fig["outlet"] = self._coolant(state)
         self._flows[self._key(self.temperature_C(state))] = fig
 
     def recorded(self, record) -> dict:
@@ -554,8 +552,9 @@ def _dataset(record, per_cell, *, cell, grid, cells, attrs) -> xr.Dataset:
     ny, nx = grid.shape
     T = np.stack(record.temperature).reshape(nt, cells, ny, nx).transpose(1, 0, 2, 3)
     Q = np.stack(record.heat_map).reshape(nt, cells, ny, nx).transpose(1, 0, 2, 3)
-    soc = np.array([np.asarray(m).reshape(cells, ny, nx).mean(axis=(1, 2))
-                    for m in record.soc_map]).T
+    soc = np.array([np.full(cells, s) if m is None else  # a record without the rods' result
+                    np.asarray(m).reshape(cells, ny, nx).mean(axis=(1, 2))
+                    for m, s in zip(record.soc_map, record.soc, strict=True)]).T
     # the shared series through the one Record -> Dataset function, on a 1 x 1 stand-in grid
     slim = copy.copy(record)
     slim.temperature = [np.full((1, 1), t.max()) for t in record.temperature]
