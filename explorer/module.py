@@ -9,7 +9,8 @@ one go, coupled the way the hardware couples them:
   current, voltage and power are per cell (a voltage hold holds the string
   at ``cells x`` the voltage, so the mean cell voltage is held; a power step
   draws ``cells x`` the power), and its voltage end conditions apply to the
-  mean cell voltage (string voltage / cells);
+  mean cell voltage (string voltage / cells); temperature end conditions
+  and the stepper's temperature cap see the hottest cell;
 * thermally along the coolant: cell ``k``'s coolant inlet at each time step is
   cell ``k - 1``'s outlet at that step. The coolant's transit time through a
   cell is neglected (seconds against a thermal time constant of many
@@ -32,7 +33,9 @@ SOC and current-density fields are dropped (per-cell ``soc_mean`` stays; in
 the ``single`` and ``averaged`` layouts they are uniform over a cell anyway).
 The heat split by source (``heat_irreversible`` ...) and the running energy
 integrals are for the whole module (summed over the cells); per-cell heat is
-``heat_total``.
+``heat_total``. The two fields take ``2 x cells x times x nx x ny x 8`` bytes
+(12 cells, 186 times on 48 x 32: 55 MB); set ``output_interval_s`` to record
+fewer times.
 """
 
 from __future__ import annotations
@@ -101,8 +104,9 @@ def simulate_module(cell, duty, cooling, electrochemistry: str = "spme",
     xarray.Dataset
         Dimension ``cell`` (0 = the first cell the coolant meets). Shared over
         the module (time): ``voltage`` (mean cell voltage), ``current``,
-        ``power`` (per cell), ``soc``-free running integrals and the heat
-        split summed over the cells. Per cell (cell, time): ``temperature_max``,
+        ``power`` and ``energy_delivered`` (per cell), ``charge_delivered``,
+        and, summed over the cells, the heat split by source and the running
+        heat integrals. Per cell (cell, time): ``temperature_max``,
         ``_min``, ``_mean``, ``_core_max``, ``_hottest``, ``_coldest``, the face
         extremes, ``through_thickness_difference``, ``heat_total``,
         ``heat_rejected``, ``heat_to_<sink>``, ``heat_stored``, ``soc_mean``,
