@@ -40,12 +40,16 @@ class End:
 
     ``quantity`` is one of ``QUANTITIES``; time counts from the step's start;
     temperature is the hottest point of the face (degC); current is the
-    magnitude of the cell current (A).
+    magnitude of the cell current (A). ``origin`` says who asked for it:
+    "own" (the step's own end, reaching it completes the step) or "window"
+    (the cell's voltage window guarding a step that has other ends of its own:
+    reaching it cuts the duty short).
     """
 
     quantity: str
     threshold: float
     direction: str  # "below" | "above"
+    origin: str = "own"  # "own" | "window"
 
     def crossed(self, value: float) -> bool:
         return value <= self.threshold if self.direction == "below" else value >= self.threshold
@@ -67,7 +71,9 @@ class Step:
     constant from each sample to the next) of ``profile_quantity``.
     ``ends`` are explicit end conditions; ``default_limit`` says whether the
     cell's voltage window also ends the step (it does unless the user gave a
-    voltage end of their own).
+    voltage end of their own). The window is the step's own end when the step
+    has no other end of its own, or when ``window_end`` says so (the CC part
+    of a CC-CV charge); otherwise it is a safety limit that cuts the duty short.
     """
 
     kind: str
@@ -81,15 +87,19 @@ class Step:
     profile_quantity: str = ""
     label: str = ""
     source: str = ""  # file a profile came from
+    window_end: bool = False  # the voltage window is this step's own end whatever else it has
 
     def describe(self) -> dict:
-        d = {k: v for k, v in asdict(self).items() if v not in (None, (), "")}
+        d = {k: v for k, v in asdict(self).items()
+             if v not in (None, (), "") and k != "window_end"}
         d.pop("profile_time_s", None)
         d.pop("profile_value", None)
+        if self.window_end:
+            d["window_end"] = True
         if self.profile_time_s:
             d["profile_samples"] = len(self.profile_time_s)
             d["profile_duration_s"] = self.profile_time_s[-1]
-        d["ends"] = [asdict(e) for e in self.ends]
+        d["ends"] = [{k: v for k, v in asdict(e).items() if k != "origin"} for e in self.ends]
         return d
 
     def max_duration_s(self) -> float:
@@ -104,7 +114,7 @@ def _ends(where: str, *, voltage=None, voltage_direction="below", current_A=None
           soc_direction="below", temperature_C=None, time_s=None) -> tuple[End, ...]:
     ends = []
     if voltage is not None:
-        ends.append(End("voltage", _finite(where, "end_voltage_V", voltage), voltage_direction))
+        ends.append(End("voltage", _positive(where, "end_voltage_V", voltage), voltage_direction))
     if current_A is not None:
         ends.append(End("current", _positive(where, "end_current_A", current_A), "below"))
     if soc is not None:
@@ -208,8 +218,8 @@ def rest(seconds, *, label="rest") -> Step:
 
 def cc_cv_charge(c_rate, *, end_c_rate=0.05, voltage_V=None, end_temperature_C=None) -> list[Step]:
     """A CC-CV charge: constant current to the upper limit, then hold until ``end_c_rate``."""
-    cc = charge(c_rate=c_rate, end_voltage_V=voltage_V, end_temperature_C=end_temperature_C,
-                label="charge CC")
+    cc = replace(charge(c_rate=c_rate, end_voltage_V=voltage_V,
+                        end_temperature_C=end_temperature_C, label="charge CC"), window_end=True)
     cv = hold_voltage(voltage_V, end_c_rate=end_c_rate, end_temperature_C=end_temperature_C,
                       label="charge CV")
     return [cc, cv]
@@ -230,17 +240,17 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
                 label=None) -> Step:
     """A recorded load profile from a CSV file.
 
-    Lines starting with ``#`` are comments. The header names the columns with
-    units in brackets: ``time [s]`` (or ``[min]``, ``[h]``) and either
-    ``current [A]`` or ``power [W]`` (``[kW]``), positive on discharge. Each value holds from its time to the next; the
-    profile ends at the last time. The cell's voltage window ends it early.
+    The file is UTF-8 text (a byte-order mark is fine). Lines starting with
+    ``#`` are comments. The header names the columns with their units, in
+    brackets or as a suffix: ``time [s]`` or ``time_s`` (also ``min``, ``h``)
+    and either ``current [A]``/``current_A`` (``mA``) or ``power [W]``/``power_W``
+    (``kW``, ``mW``), positive on discharge. Each value holds from its time to
+    the next; the profile ends at the last time. The cell's voltage window
+    guards it: reaching the window cuts the duty short (run status "cut_short").
     """
     path = Path(path)
     where = f"{path}"
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise InputError(f"{where}: cannot read the profile ({exc.strerror})") from None
+    text = _read_text(path)
     numbered = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1)
                 if ln.strip() and not ln.lstrip().startswith("#")]
     line_no = [n for n, _ in numbered]  # file line of each row, for the messages
@@ -253,18 +263,18 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
         name, unit = _parse_header(where, head)
         columns[name] = (i, unit)
     if "time" not in columns:
-        raise InputError(f"{where}: header {rows[0]!r} has no `time [s]` column")
+        raise InputError(f"{where}: header {rows[0]!r} has no `time [s]` (or `time_s`) column")
     load = [q for q in ("current", "power") if q in columns]
     if len(load) != 1:
-        raise InputError(f"{where}: header {rows[0]!r} needs exactly one of `current [A]` or "
-                         f"`power [W]`, found {load or 'neither'}")
+        raise InputError(f"{where}: header {rows[0]!r} needs exactly one of `current [A]` "
+                         f"(`current_A`) or `power [W]` (`power_W`), found {load or 'neither'}")
     quantity = load[0]
     data = {}
     for name in ("time", quantity):
         col, unit = columns[name]
         scale = _PROFILE_UNITS[name].get(unit)
         if scale is None:
-            raise InputError(f"{where}: column `{name}` has unknown unit [{unit}]; expected one "
+            raise InputError(f"{where}: column `{name}` has unknown unit {unit!r}; expected one "
                              f"of {sorted(_PROFILE_UNITS[name])}")
         values = []
         for line, r in zip(line_no[1:], rows[1:]):
@@ -291,13 +301,36 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
                 default_limit=end_voltage_V is None)
 
 
+def _read_text(path: Path) -> str:
+    """The file as text: UTF-8, a leading byte-order mark dropped; anything else is an
+    InputError naming the file and the line of the first byte that is not UTF-8."""
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read the profile ({exc.strerror})") from None
+    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
+        raise InputError(f"{path}: the profile is UTF-16 text; save it as UTF-8 (plain CSV)")
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[:exc.start].count(b"\n") + 1
+        raise InputError(f"{path}, line {line}: byte 0x{raw[exc.start]:02x} is not UTF-8 text "
+                         "(the file is probably Latin-1 or Windows-1252); save the profile as "
+                         "UTF-8") from None
+
+
 def _parse_header(where, head: str):
+    """(name, unit) from ``time [s]`` or ``time_s``; the name is case-blind, the unit is not."""
     h = head.strip()
     if "[" in h and h.endswith("]"):
         name, unit = h[:-1].split("[", 1)
         return name.strip().lower(), unit.strip()
-    raise InputError(f"{where}: header {head!r} must state its unit in brackets, "
-                     "e.g. `time [s]`, `current [A]`, `power [W]`")
+    name, sep, unit = h.rpartition("_")
+    if sep and name.strip() and unit:
+        return name.strip().lower(), unit
+    raise InputError(f"{where}: header {head!r} must state its unit in brackets or as a "
+                     "suffix, e.g. `time [s]` or `time_s`, `current [A]` or `current_A`, "
+                     "`power [W]` or `power_W`")
 
 
 def as_steps(duty) -> list[Step]:
@@ -325,23 +358,40 @@ class ResolvedStep:
     ends: list[End] = field(default_factory=list)
     expected_duration_s: float = 3600.0  # a rough guess, for choosing the output spacing
 
+    def __post_init__(self):
+        # arrays once: searching the Step's tuples would convert them on every call, which
+        # made a long profile cost quadratic time
+        self._tp = np.asarray(self.step.profile_time_s, dtype=float)
+        self._pv = np.asarray(self.step.profile_value, dtype=float)
+
     def load_at(self, t_in_step: float) -> float:
         """Profile value at a time within the step (piecewise constant)."""
-        tp = self.step.profile_time_s
-        i = int(np.searchsorted(tp, t_in_step, side="right")) - 1
-        return self.step.profile_value[min(max(i, 0), len(tp) - 1)]
+        tp = self._tp
+        i = int(tp.searchsorted(t_in_step, side="right")) - 1
+        return float(self._pv[min(max(i, 0), len(tp) - 1)])
 
     def next_breakpoint(self, t_in_step: float) -> float:
-        tp = self.step.profile_time_s
-        i = int(np.searchsorted(tp, t_in_step + 1e-9, side="right"))
-        return tp[i] if i < len(tp) else math.inf
+        tp = self._tp
+        i = int(tp.searchsorted(t_in_step + 1e-9, side="right"))
+        return float(tp[i]) if i < len(tp) else math.inf
+
+    @property
+    def own_ends(self) -> list[End]:
+        return [e for e in self.ends if e.origin == "own"]
 
 
 def resolve(step: Step, cell) -> ResolvedStep:
-    """Turn C-rates into amperes and add the cell's voltage window as an end condition."""
+    """Turn C-rates into amperes and add the cell's voltage window as an end condition.
+
+    The window is the step's own end ("own") for a constant-current or power step with no
+    other end of its own (``discharge(c_rate=1)`` runs to the lower limit); on a profile, or
+    on a step with ends of its own, it is a safety limit ("window") that cuts the duty short.
+    A voltage end of the user's own must lie within the cell's window.
+    """
     capacity = cell.nominal_capacity_Ah
     ends = list(step.ends)
     kind, value = step.kind, step.value
+    _check_in_window(step, cell)
     if step.c_rate is not None:
         value = step.c_rate * capacity
     if kind == "voltage":
@@ -351,17 +401,28 @@ def resolve(step: Step, cell) -> ResolvedStep:
                              f"{cell.name!r} window {cell.voltage_min_V:g}-{cell.voltage_max_V:g} V")
         if step.end_c_rate is not None:
             ends.append(End("current", step.end_c_rate * capacity, "below"))
-    if step.default_limit:
-        if kind == "profile":
-            ends.append(End("voltage", cell.voltage_min_V, "below"))
-            ends.append(End("voltage", cell.voltage_max_V, "above"))
-        elif kind in ("current", "power") and value is not None:
-            if value > 0:
-                ends.append(End("voltage", cell.voltage_min_V, "below"))
-            else:
-                ends.append(End("voltage", cell.voltage_max_V, "above"))
+    if kind == "profile":  # a profile ends at its last time; the window only guards it
+        ends.append(End("voltage", cell.voltage_min_V, "below", "window"))
+        ends.append(End("voltage", cell.voltage_max_V, "above", "window"))
+    elif step.default_limit and kind in ("current", "power") and value is not None:
+        origin = "own" if step.window_end or not step.ends else "window"
+        if value > 0:
+            ends.append(End("voltage", cell.voltage_min_V, "below", origin))
+        else:
+            ends.append(End("voltage", cell.voltage_max_V, "above", origin))
     value = 0.0 if value is None else float(value)
     return ResolvedStep(step, kind, value, ends, _expected_duration(kind, value, step, cell))
+
+
+def _check_in_window(step: Step, cell) -> None:
+    """A voltage end outside the data-sheet window would run the cell where it must not go
+    (or end the step at once): an error naming the step, the value and the window."""
+    lo, hi = cell.voltage_min_V, cell.voltage_max_V
+    for e in step.ends:
+        if e.quantity == "voltage" and not lo <= e.threshold <= hi:
+            raise InputError(f"duty step {step.label!r}: `end_voltage_V` {e.threshold:g} V is "
+                             f"outside the cell {cell.name!r} window {lo:g}-{hi:g} V (data "
+                             f"sheet); choose an end voltage within it")
 
 
 def _expected_duration(kind, value, step, cell) -> float:

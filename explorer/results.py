@@ -41,8 +41,10 @@ step                                           time         1        index of th
 Attributes: tool version, cell name, file and SHA-256, every model setting
 (electrochemistry, layout, grid, rods, duty, cooling, hydraulics as JSON),
 ``heat_capacity_J_per_K``, ``collector_resistance_ohm``,
-``temperature_limit_C`` (data sheet), ``status`` ("completed", "stopped",
-"failed") with ``status_message``, and the ``caution``.
+``temperature_limit_C`` (data sheet), ``status`` ("completed", "cut_short",
+"stopped", "failed") with ``status_message``, ``duty_step_ends`` (JSON: per
+duty step, what ended it), and the ``caution``. :func:`run_warnings` turns a
+status other than "completed" into the warning every verdict must carry.
 """
 
 from __future__ import annotations
@@ -159,6 +161,7 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
            for k, v in attrs.items() if v is not None},
         "status": record.status,
         "status_message": record.message,
+        "duty_step_ends": json.dumps(getattr(record, "step_ends", [])),
         "wall_time_s": record.wall_time_s,
         "steps_taken": record.steps_taken,
         "steps_rejected": record.steps_rejected,
@@ -198,6 +201,21 @@ def _through_vars(record, Tmax, Tmin) -> dict:
         out[name] = _var("time", values if values is not None and len(values) == n
                          else fallback[key], units, long_name)
     return out
+
+
+def run_warnings(ds) -> list[str]:
+    """What every verdict on this run must carry, in plain words: empty for a run that
+    completed; otherwise when and why it ended early, and that its figures cover only the
+    part of the duty that ran (contract A of the project notes)."""
+    status = str(ds.attrs.get("status", "completed"))
+    if status == "completed":
+        return []
+    message = str(ds.attrs.get("status_message", "")) or "no reason recorded"
+    what = {"cut_short": "was cut short", "stopped": "was interrupted",
+            "failed": "failed"}.get(status, f"ended with status {status!r}")
+    t_end = float(ds["time"].values[-1]) if "time" in ds.coords and ds.sizes["time"] else 0.0
+    return [f"the run {what} ({message}); every figure and verdict covers only the first "
+            f"{t_end:.1f} s of the duty, not the whole duty"]
 
 
 def _field(maps, uniform, shape) -> np.ndarray:

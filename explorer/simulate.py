@@ -12,8 +12,8 @@ from explorer.inplane.grid import Grid
 from explorer.inplane.lumped import LumpedThermal
 from explorer.inplane.sinks import Sinks
 from explorer.results import to_dataset
-from explorer.stepping.run import Coupling, Settings, run
-from explorer.validators import InputError
+from explorer.stepping.run import Coupling, Settings, check_output_interval, run
+from explorer.validators import InputError, check_integer
 
 log = logging.getLogger(__name__)
 
@@ -47,10 +47,11 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     start_soc, start_temperature_C : float
         Initial state (uniform, at rest).
     grid : (nx, ny), optional
-        In-plane grid; default about 1,500 near-square control volumes.
+        In-plane grid (whole numbers); default about 1,500 near-square control
+        volumes.
     position : int, optional
         Which cell along a shared cold plate to simulate (0 = first the
-        coolant meets); default the last, which sees the warmest coolant.
+        coolant meets); default (None) the last, which sees the warmest coolant.
         An approximation: the cells upstream are taken to put into the
         coolant what this cell puts in (``upstream_cells`` of
         :class:`~explorer.inplane.sinks.CoolantStream`). To run every cell on
@@ -58,9 +59,12 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         :func:`explorer.simulate_module`.
     output_interval_s : float, optional
         When given, the run is recorded on this regular time base (plus the
-        exact moments steps end) and no time step is longer. By default the
-        steps follow the error control, at most about 1/120 of each duty
-        step's expected length (0.5 to 60 s), and every step is recorded.
+        exact moments steps end) and no time step is longer; it may not ask
+        for more than 200,000 records over the duty's expected length. By
+        default the steps follow the error control, at most about 1/120 of
+        each duty step's expected length (0.5 to 60 s), and every step is
+        recorded (a profile of more than 5,000 samples is recorded on a
+        regular time base of about 1/5,000 of its length).
     mesh : dict, optional
         Rod mesh sizes, passed to the electrochemical model.
     rods : (mx, my), optional
@@ -72,8 +76,15 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     Returns
     -------
     xarray.Dataset
-        See :mod:`explorer.results`; ``attrs["status"]`` says whether the run
-        completed or why it stopped.
+        See :mod:`explorer.results`; ``attrs["status"]`` is "completed" (every
+        duty step ran to its own end), "cut_short" (a safety limit the step did
+        not ask for ended it: the cell's voltage window on a profile or on a
+        step with other ends of its own, or the temperature cap of 150 degC),
+        "stopped" (Ctrl-C) or "failed" (the solver could not go on, or the state
+        left physical bounds: a terminal voltage below 0 V or above twice the
+        cell's upper limit); ``status_message`` says when and why, and
+        ``duty_step_ends`` (JSON) what ended each duty step. A run that did not
+        complete keeps what it computed up to that point.
 
     Examples
     --------
@@ -91,6 +102,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     if output_interval_s is not None and not output_interval_s > 0:
         raise InputError(f"simulate: `output_interval_s` must be > 0, got {output_interval_s!r}")
     steps = [_duty.resolve(s, cell) for s in _duty.as_steps(duty)]
+    check_output_interval(steps, output_interval_s)
 
     g = cell.geometry
     if layout == "single":
@@ -123,7 +135,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
             coupling = Coupling()
     record = run(rod, thermal, steps, start_soc=start_soc,
                  start_temperature_C=start_temperature_C, coupling=coupling,
-                 settings=Settings(output_interval_s=output_interval_s), progress=progress)
+                 settings=_settings(cell, output_interval_s), progress=progress)
     # the plate's hydraulics see the mean heat this cell puts into the coolant
     into_coolant = record.rejected_by_sink.get(sinks.coolant.name, []) if sinks.coolant else []
     mean_rejected = float(np.mean(into_coolant)) if into_coolant else 0.0
@@ -143,6 +155,13 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         "rods": list(rod_grid) if layout == "distributed" else [1, 1],
     }
     return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
+
+
+def _settings(cell, output_interval_s) -> Settings:
+    """Stepper settings; a terminal voltage outside 0 V .. twice the cell's upper limit is a
+    non-physical state that fails the run."""
+    return Settings(output_interval_s=output_interval_s,
+                    voltage_band_V=(0.0, 2.0 * cell.voltage_max_V))
 
 
 def _cell(cell):
@@ -180,7 +199,7 @@ def _number(name, value, lo, hi):
 def _rods(width, height, rods):
     """Default rod grid of the distributed layout: about RODS near-square patches."""
     if rods is not None:
-        return rods
+        return _pair("rods", rods, "(mx, my)")
     mx = max(1, round(math.sqrt(RODS * width / height)))
     return (mx, max(1, round(RODS / mx)))
 
@@ -190,22 +209,37 @@ def _grid(width, height, grid) -> Grid:
         nx = max(4, round(math.sqrt(CELLS_ON_GRID * width / height)))
         ny = max(4, round(CELLS_ON_GRID / nx))
         return Grid(width, height, nx, ny)
-    try:
-        nx, ny = (int(v) for v in grid)
-    except (TypeError, ValueError):
-        raise InputError(f"simulate: `grid` must be (nx, ny), got {grid!r}") from None
+    nx, ny = _pair("grid", grid, "(nx, ny)")
     if nx < 2 or ny < 2 or nx * ny > 200_000:
         raise InputError(f"simulate: `grid` needs 2 <= nx, ny and nx*ny <= 200000, got {grid!r}")
     return Grid(width, height, nx, ny)
+
+
+def _pair(name, value, form) -> tuple[int, int]:
+    """Two whole numbers (a grid or rod count): 2.7 is refused, not truncated to 2."""
+    try:
+        pair = tuple(value)
+    except TypeError:
+        pair = ()
+    if len(pair) != 2:
+        raise InputError(f"simulate: `{name}` must be {form}, two whole numbers; got {value!r}")
+    try:
+        return tuple(check_integer(name, v, low=1) for v in pair)
+    except InputError:
+        raise InputError(f"simulate: `{name}` must be {form}, two whole numbers >= 1; got "
+                         f"{value!r}") from None
 
 
 def _position(cooling, position):
     positions = list(getattr(cooling, "positions_to_check", lambda: [0])()) if cooling else [0]
     if position is None:
         return int(max(positions))
-    if int(position) != position or position < 0:
-        raise InputError(f"simulate: `position` must be a whole number >= 0, got {position!r}")
-    return int(position)
+    try:
+        return check_integer("position", position, low=0)
+    except InputError:
+        raise InputError(f"simulate: `position` must be a whole number >= 0 (0 = the first cell "
+                         f"the coolant meets), or None for the last cell; got {position!r}"
+                         ) from None
 
 
 def _sinks(cooling, cell, grid, position) -> Sinks:

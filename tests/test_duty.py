@@ -105,3 +105,68 @@ def test_bundled_profile_reads():
     s = duty.profile_csv(Path(__file__).parents[1] / "profiles" / "van_city_route.csv")
     assert s.profile_quantity == "power" and s.profile_time_s[-1] == 1800.0
     assert min(s.profile_value) < 0 < max(s.profile_value)  # regenerative braking included
+
+
+def test_profile_with_a_latin1_byte_names_file_and_line(tmp_path):
+    p = tmp_path / "load.csv"
+    p.write_bytes("# r\xe9sum\xe9 of the route\ntime [s],current [A]\n0,1\n1,1\n".encode("latin-1"))
+    with pytest.raises(InputError) as err:
+        duty.profile_csv(p)
+    text = str(err.value)
+    assert str(p) in text and "line 1" in text and "0xe9" in text and "UTF-8" in text
+
+
+def test_profile_later_latin1_byte_gives_its_line(tmp_path):
+    p = tmp_path / "load.csv"
+    p.write_bytes(b"time [s],current [A]\n0,1\n1,1\xb5\n")
+    with pytest.raises(InputError, match="line 3: byte 0xb5"):
+        duty.profile_csv(p)
+
+
+def test_profile_with_a_byte_order_mark_reads(tmp_path):
+    p = tmp_path / "load.csv"
+    p.write_bytes(b"\xef\xbb\xbftime [s],current [A]\n0,1\n1,2\n")
+    assert duty.profile_csv(p).profile_value == (1.0, 2.0)
+
+
+def test_profile_with_a_byte_order_mark_and_a_bad_header_does_not_blame_the_mark(tmp_path):
+    p = tmp_path / "load.csv"
+    p.write_bytes(b"\xef\xbb\xbftime [s],speed [km/h]\n0,1\n1,2\n")
+    with pytest.raises(InputError) as err:
+        duty.profile_csv(p)
+    assert "\ufeff" not in str(err.value) and "exactly one of" in str(err.value)
+
+
+def test_utf16_profile_says_so(tmp_path):
+    p = tmp_path / "load.csv"
+    p.write_bytes("time [s],current [A]\n0,1\n1,2\n".encode("utf-16"))
+    with pytest.raises(InputError, match="UTF-16"):
+        duty.profile_csv(p)
+
+
+@pytest.mark.parametrize("header, scale_t, scale_v", [
+    ("time_s,current_A", 1.0, 1.0),
+    ("time_min,current_mA", 60.0, 1e-3),
+    ("time_h,power_kW", 3600.0, 1e3),
+    ("Time_s,Power_W", 1.0, 1.0),
+])
+def test_profile_headers_with_unit_suffixes(tmp_path, header, scale_t, scale_v):
+    p = _csv(tmp_path, f"{header}\n0,1\n2,3\n")
+    s = duty.profile_csv(p)
+    assert s.profile_time_s == (0.0, 2 * scale_t)
+    assert s.profile_value == pytest.approx((scale_v, 3 * scale_v))
+
+
+def test_profile_suffix_with_unknown_unit(tmp_path):
+    p = _csv(tmp_path, "time_s,current_furlong\n0,1\n1,1\n")
+    with pytest.raises(InputError, match="unknown unit 'furlong'"):
+        duty.profile_csv(p)
+
+
+def test_profile_lookups_hold_each_sample_on_a_long_profile(tmp_path):
+    n = 50_000
+    p = _csv(tmp_path, "time_s,current_A\n" + "".join(f"{i},{i % 7}\n" for i in range(n)))
+    r = duty.resolve(duty.profile_csv(p), CELL)
+    assert r.load_at(12_345.5) == 12_345 % 7 and r.load_at(-1.0) == 0.0
+    assert r.load_at(1e9) == (n - 1) % 7
+    assert r.next_breakpoint(12_345.0) == 12_346.0 and r.next_breakpoint(n - 1.0) == float("inf")

@@ -15,6 +15,16 @@ or of the current in a voltage hold) and never exceed the output interval, on wh
 regular time base (plus the exact moments steps end). A failed rod solve
 retries with a quarter of the step; below ``dt_min`` the run stops cleanly
 with what it computed and a status saying when and why. Ctrl-C does the same.
+
+How the run ended (``Record.status``, contract A of the project notes):
+"completed" when every duty step ended by its own end condition (or its
+profile's end); "cut_short" when a safety limit the step did not ask for
+ended it (the cell's voltage window on a profile or on a step with other
+ends of its own, the temperature cap), and the duty stops there; "stopped"
+on Ctrl-C; "failed" when the solver cannot go on (a step that fails down to
+``dt_min``, a step size stuck at ``dt_min`` over tolerance, a start that
+fails, a terminal voltage outside the physical band). ``Record.step_ends``
+says, per duty step, what ended it.
 """
 
 from __future__ import annotations
@@ -27,7 +37,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from explorer.duty import End, ResolvedStep
-from explorer.rod.base import Control, RodStepError
+from explorer.rod.base import Control, RodStepError, StepResult
+from explorer.validators import InputError
 
 log = logging.getLogger(__name__)
 
@@ -37,6 +48,8 @@ CURRENT_RELATIVE_TOLERANCE = 1e-3  # of the end current
 HEAT_KEYS = ("irreversible", "reversible", "ohmic_electrolyte", "ohmic_solid")
 POINTS_PER_STEP = 120
 AUTO_INTERVAL_S = (0.5, 60.0)  # bounds of the automatic output spacing
+AUTO_PROFILE_RECORDS = 5000  # a denser profile is recorded on a regular time base instead
+MAX_RECORDS = 200_000  # a requested output interval may not ask for more records than this
 
 
 @dataclass
@@ -47,6 +60,13 @@ class Settings:
     voltage_tolerance_V: float = 1e-3  # step-size control: local error in the voltage
     current_tolerance: float = 0.01  # ... in the current of a voltage hold, relative
     voltage_change_V: float = 0.05  # largest voltage change in one step (keeps knees resolved)
+    # physical bounds: the hottest point of the face above the cap cuts the run short; a
+    # terminal voltage outside the band is a non-physical state (the run fails, unrecorded)
+    temperature_cap_C: float = 150.0
+    voltage_band_V: tuple[float, float] = (0.0, math.inf)
+    # steps accepted at the smallest size with the error over tolerance, within one duty step:
+    # beyond this the step size has collapsed (the solution changes faster than it can follow)
+    forced_steps_max: int = 200
 
 
 @dataclass
@@ -84,8 +104,9 @@ class Record:
     charge_C: list = field(default_factory=list)
     electrical_J: list = field(default_factory=list)
     lithium_mol: list = field(default_factory=list)
-    status: str = "completed"
+    status: str = "completed"  # "completed" | "cut_short" | "stopped" | "failed"
     message: str = ""
+    step_ends: list = field(default_factory=list)  # per duty step: what ended it (dicts)
     notes: list = field(default_factory=list)  # what the user should know about the run
     wall_time_s: float = 0.0
     steps_taken: int = 0
@@ -113,13 +134,43 @@ def _extrapolation_error(hist, t, y):
     if len(hist) < 2:
         return None
     (t1, y1), (t2, y2) = hist[-2], hist[-1]
+    if not t2 > t1:  # steps below the clock's resolution: no line to extrapolate
+        return None
     return abs(y - (y2 + (y2 - y1) * (t - t2) / (t2 - t1)))
 
 
+def _nice_ceiling(x: float) -> float:
+    """The smallest of 1, 2, 5 times a power of ten that is >= ``x`` (> 0)."""
+    k = 10.0 ** math.floor(math.log10(x))
+    return next(m * k for m in (1.0, 2.0, 5.0, 10.0) if m * k >= x * (1 - 1e-12))
+
+
+def step_end(index, step: ResolvedStep, ended_by, quantity=None, threshold=None,
+             time_s=None) -> dict:
+    """One entry of ``Record.step_ends`` (contract A): what ended duty step ``index``."""
+    return {"index": index, "label": step.step.label, "ended_by": ended_by,
+            "quantity": quantity, "threshold": threshold, "time_s": time_s}
+
+
+def check_output_interval(steps: list[ResolvedStep], output_interval_s, where="simulate"):
+    """Refuse an output interval that would record more than ``MAX_RECORDS`` points over the
+    duty's expected length (the same rough guess that sets the automatic spacing)."""
+    if output_interval_s is None:
+        return
+    expected = sum(s.expected_duration_s for s in steps)
+    n = expected / output_interval_s
+    if n > MAX_RECORDS:
+        raise InputError(
+            f"{where}: `output_interval_s` = {output_interval_s:g} s would record about "
+            f"{n:,.0f} points over the duty's expected {expected:,.0f} s (at most "
+            f"{MAX_RECORDS:,}); choose output_interval_s >= {expected / MAX_RECORDS:.3g} s, or "
+            "leave it None for the automatic spacing")
+
+
 class _Stop(Exception):
-    def __init__(self, status, message):
+    def __init__(self, status, message, end=None):
         super().__init__(message)
-        self.status, self.message = status, message
+        self.status, self.message, self.end = status, message, end
 
 
 @dataclass
@@ -138,22 +189,32 @@ def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temp
     coupling = coupling or Coupling()
     settings = settings or Settings()
     stepper = _Stepper(rod, thermal, coupling, settings, progress)
+    rec = stepper.rec
+    rec.step_ends = [step_end(i, s, "not_run") for i, s in enumerate(steps)]
     wall = _time.perf_counter()
-    stepper.start(start_soc, start_temperature_C)
+    index = 0
     try:
+        stepper.start(start_soc, start_temperature_C, steps[0] if steps else None)
         for index, step in enumerate(steps):
-            stepper.run_step(index, step)
+            rec.step_ends[index] = stepper.run_step(index, step)
     except _Stop as stop:
-        stepper.rec.status, stepper.rec.message = stop.status, stop.message
+        rec.status, rec.message = stop.status, stop.message
+        if stop.end is not None:
+            rec.step_ends[index] = stop.end
+        left = len(steps) - index - 1
+        if left:
+            rec.message += f"; the {left} later duty step(s) did not run"
     except KeyboardInterrupt:
-        stepper.rec.status = "stopped"
-        stepper.rec.message = f"interrupted by the user at t = {stepper.t:.1f} s"
+        rec.status = "stopped"
+        rec.message = f"interrupted by the user at t = {stepper.t:.1f} s"
+        if steps:
+            rec.step_ends[index] = step_end(index, steps[index], "interrupted", time_s=stepper.t)
     else:
-        stepper.rec.message = f"all {len(steps)} duty step(s) ran to their end conditions"
-    if stepper.rec.notes:
-        stepper.rec.message = "; ".join([stepper.rec.message, *stepper.rec.notes])
-    stepper.rec.wall_time_s = _time.perf_counter() - wall
-    return stepper.rec
+        rec.message = f"all {len(steps)} duty step(s) ran to their end conditions"
+    if rec.notes:
+        rec.message = "; ".join([rec.message, *rec.notes])
+    rec.wall_time_s = _time.perf_counter() - wall
+    return rec
 
 
 class _Trial:
@@ -175,17 +236,41 @@ class _Stepper:
         self.integrals = np.zeros(4)  # heat generated, heat rejected (J), charge (C), work (J)
         self.joule_total = float(self.joule.sum())
         self.field_rods = bool(getattr(rod, "field_temperature", False))
+        self.t = 0.0
+        self.prev = None  # the rod's result at the last accepted step (recorded or not)
+        self.cap_end = End("temperature", settings.temperature_cap_C, "above", "cap")
 
     # -- state ------------------------------------------------------------------------------
-    def start(self, soc, temperature_C):
+    def start(self, soc, temperature_C, first_step=None):
         self.t = 0.0
         self.T_state = self.thermal.initial_state(temperature_C)
         self.rod_state = self.rod.initial_state(soc, temperature_C + 273.15)
         # a zero-current step of zero length would need the rod's OCV; take a tiny rest step
-        res = self.rod.solve_step(self.rod_state, 1e-6, self._rod_temperature(),
-                                  Control("current", 0.0), self.R)
+        try:
+            res = self.rod.solve_step(self.rod_state, 1e-6, self._rod_temperature(),
+                                      Control("current", 0.0), self.R)
+            problem = self._unphysical(res.voltage_V)
+        except RodStepError as exc:
+            res, problem = None, str(exc)
         zero = np.zeros(self.thermal.grid.shape)
+        if problem is not None:  # keep the initial state (no voltage) and say why
+            res = StepResult(self.rod_state, 0.0, math.nan, math.nan, soc)
+            self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0)
+            end = None if first_step is None else step_end(0, first_step, "solver", time_s=0.0)
+            raise _Stop("failed", f"could not start: the cell model failed at rest at SOC "
+                                  f"{soc:g} and {temperature_C:g} degC ({problem})", end)
+        self.prev = res
         self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0, boundary=True)
+
+    def _unphysical(self, voltage_V) -> str | None:
+        """Why a terminal voltage is non-physical (None when it is not)."""
+        lo, hi = self.s.voltage_band_V
+        if not math.isfinite(voltage_V):
+            return "non-physical state: the terminal voltage is not a finite number"
+        if not lo <= voltage_V <= hi:
+            return (f"non-physical state: the terminal voltage would be {voltage_V:.4g} V, "
+                    f"outside the sane band {lo:g} to {hi:g} V")
+        return None
 
     def _record(self, index, res, heat_map, tab_heat, heat, rejected, collector,
                 boundary=False):
@@ -236,31 +321,33 @@ class _Stepper:
         r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
 
     # -- one duty step ------------------------------------------------------------------------
-    def run_step(self, index, step: ResolvedStep):
+    def run_step(self, index, step: ResolvedStep) -> dict:
+        """Run one duty step; return how it ended (``step_end``), or raise ``_Stop`` when the
+        duty must stop here (a safety limit, the temperature cap, the solver giving up)."""
         s = self.s
         t0 = self.t
         self.needs_field = any(e.quantity == "temperature" for e in step.ends)
-        interval = s.output_interval_s or min(max(step.expected_duration_s / POINTS_PER_STEP,
-                                                  AUTO_INTERVAL_S[0]), AUTO_INTERVAL_S[1])
+        interval, grid = self._spacing(step)  # longest step; record time base (None: every step)
         wanted = min(s.dt_first_s, interval)  # the step size the error control asks for
         t_end = t0 + step.step.max_duration_s()
-        prev_voltage = self.rec.voltage[-1]
+        prev_voltage = self.prev.voltage_V
         last_load = None
         hist = []  # (t, y) accepted since the last load change; y is what the control leaves free
         watch_current = step.kind == "voltage"
+        forced = 0  # steps accepted at the smallest size with the error over tolerance
         while True:
             if self.t >= t_end - 1e-9:
-                return
+                return self._ran_its_time(index, step, t0)
             t_in = self.t - t0
-            # land on step ends, profile breakpoints and (when asked for) output times
+            # land on step ends, profile breakpoints and the record's time base
             limit = t_end
-            if s.output_interval_s:
-                limit = min(limit, t0 + (math.floor(t_in / interval + 1e-9) + 1) * interval)
+            if grid:
+                limit = min(limit, t0 + (math.floor(t_in / grid + 1e-9) + 1) * grid)
             if step.kind == "profile":
                 limit = min(limit, t0 + step.next_breakpoint(t_in))
             dt = min(_ladder(wanted), limit - self.t)
             if dt <= 1e-9:  # an output time within round-off: skip to the next one
-                dt = min(wanted, limit - self.t + interval)
+                dt = min(wanted, limit - self.t + (grid or interval))
             control = self._control(step, t_in)
             # a load change jumps the voltage by the Ohmic drop whatever dt is: not an error
             fresh = control.value != last_load
@@ -271,7 +358,7 @@ class _Stepper:
                 self.rec.steps_rejected += 1
                 wanted = dt / 4.0
                 if wanted < s.dt_min_s:
-                    raise _Stop("failed", self._failure_message(step, control))
+                    raise self._failed(index, step, self._failure_message(step, control))
                 continue
             y = trial.rod.current_A if watch_current else trial.rod.voltage_V
             tol = (s.current_tolerance * max(abs(y), 1e-6) if watch_current
@@ -284,25 +371,84 @@ class _Stepper:
                 shrink = 0.5 if err is None or err <= tol else max(0.2, 0.9 * math.sqrt(tol / err))
                 wanted = dt * shrink
                 continue
-            end = self._crossed(step, trial, t0)
-            if end is not None:
-                trial = self._locate(step, end, control, trial, t0, index)
+            forced += too_big
+            if forced > s.forced_steps_max:
+                raise self._failed(index, step, self._collapse_message(step, err, tol))
+            crossed = self._crossed(step, trial, t0) or self._over_cap(trial)
+            if crossed:
+                end, trial = self._locate_first(step, crossed, control, trial, t0, index)
                 self._accept(trial, index, boundary=True)
-                if self.t - t0 < 1e-2:  # e.g. a charge started at the upper voltage limit
-                    unit = {"voltage": " V", "temperature": " degC", "current": " A"}.get(
-                        end.quantity, "")
-                    self.rec.notes.append(
-                        f"duty step {step.step.label!r} ended at once: {end.quantity} was already "
-                        f"{end.direction} {end.threshold:g}{unit} when it started")
-                return
+                return self._ended_by(index, step, end, t0)
             last = self.t + trial.dt >= t_end - 1e-9
-            on_base = s.output_interval_s is None or _on_grid(self.t + trial.dt - t0, interval)
+            on_base = grid is None or _on_grid(self.t + trial.dt - t0, grid)
             self._accept(trial, index, boundary=last, record=last or on_base)
             hist.append((self.t, y))
             prev_voltage = trial.rod.voltage_V
             last_load = control.value
             grow = 1.5 if err is None or err < 0.25 * tol else min(1.5, 0.9 * math.sqrt(tol / err))
-            wanted = min(max(wanted, dt) * grow, interval)
+            # never below dt_min: a step forced there is counted above, not shrunk to nothing
+            wanted = max(min(max(wanted, dt) * grow, interval), s.dt_min_s)
+
+    def _spacing(self, step: ResolvedStep):
+        """(longest step, record time base or None for every step) for a duty step."""
+        s = self.s
+        if s.output_interval_s:
+            return s.output_interval_s, s.output_interval_s
+        interval = min(max(step.expected_duration_s / POINTS_PER_STEP, AUTO_INTERVAL_S[0]),
+                       AUTO_INTERVAL_S[1])
+        samples = len(step.step.profile_time_s)
+        if step.kind == "profile" and samples > AUTO_PROFILE_RECORDS:  # keep the record bounded
+            return interval, _nice_ceiling(step.step.profile_time_s[-1] / AUTO_PROFILE_RECORDS)
+        return interval, None
+
+    # -- how a step ended ----------------------------------------------------------------------
+    def _ran_its_time(self, index, step, t0) -> dict:
+        """The step reached its time end: the profile's last time or its own `end_time_s`."""
+        if step.kind == "profile" and step.step.profile_time_s[-1] <= step.step.max_duration_s():
+            return step_end(index, step, "profile_end", "time", step.step.profile_time_s[-1],
+                            self.t)
+        return step_end(index, step, "time", "time", step.step.max_duration_s(), self.t)
+
+    def _ended_by(self, index, step, end: End, t0) -> dict:
+        """The entry for a step ended by ``end``; a limit it did not ask for stops the duty."""
+        if end.origin == "own":
+            if self.t - t0 < 1e-2:  # e.g. a charge started at the upper voltage limit
+                unit = {"voltage": " V", "temperature": " degC", "current": " A"}.get(
+                    end.quantity, "")
+                self.rec.notes.append(
+                    f"duty step {step.step.label!r} ended at once: {end.quantity} was already "
+                    f"{end.direction} {end.threshold:g}{unit} when it started")
+            return step_end(index, step, "end_condition", end.quantity, end.threshold, self.t)
+        ended_by = "temperature_cap" if end.origin == "cap" else "safety_limit"
+        entry = step_end(index, step, ended_by, end.quantity, end.threshold, self.t)
+        raise _Stop("cut_short", self._cut_message(step, end, t0), entry)
+
+    def _cut_message(self, step, end: End, t0) -> str:
+        if end.origin == "cap":
+            why = (f"the hottest point of the face reached the temperature cap "
+                   f"{end.threshold:g} degC (Settings.temperature_cap_C)")
+        else:
+            side = "lower" if end.direction == "below" else "upper"
+            why = (f"the terminal voltage reached the cell's {side} limit {end.threshold:g} V, "
+                   "a safety limit this step did not ask for")
+        ran = self.t - t0
+        total = step.step.max_duration_s()
+        if math.isfinite(total):
+            left = f"{total - ran:.1f} s of the step's {total:g} s were left"
+        else:
+            own = ", ".join(f"{e.quantity} {e.direction} {e.threshold:g}" for e in step.own_ends)
+            left = f"its own end ({own}) was not reached"
+        return (f"cut short at t = {self.t:.1f} s, {ran:.1f} s into duty step "
+                f"{step.step.label!r}: {why}; {left}")
+
+    def _failed(self, index, step, message) -> _Stop:
+        return _Stop("failed", message, step_end(index, step, "solver", time_s=self.t))
+
+    def _collapse_message(self, step, err, tol) -> str:
+        return (f"stopped at t = {self.t:.1f} s in duty step {step.step.label!r}: the time step "
+                f"collapsed: {self.s.forced_steps_max} steps at the smallest size "
+                f"({self.s.dt_min_s:g} s) missed the error tolerance (last {err or 0:.3g} against "
+                f"{tol:.3g}); the solution changes faster than the model can follow")
 
     def _control(self, step: ResolvedStep, t_in: float) -> Control:
         if step.kind == "rest":
@@ -330,8 +476,9 @@ class _Stepper:
             log.debug("rod step failed at t=%.3f dt=%.3g: %s", self.t, dt, exc)
             self._last_error = str(exc)
             return None
-        if not np.isfinite(res.voltage_V):
-            self._last_error = "the rod returned a non-finite voltage"
+        problem = self._unphysical(res.voltage_V)
+        if problem is not None:  # retried with a shorter step; never recorded
+            self._last_error = problem
             return None
         tr = _Trial()
         tr.dt, tr.rod, tr.heat, tr.thermal = dt, res, res.heat_W, None
@@ -370,13 +517,39 @@ class _Stepper:
             return tr.t_max
         return self.t + tr.dt - t0
 
-    def _crossed(self, step, tr, t0) -> End | None:
-        for end in step.ends:
-            if end.quantity == "time":
-                continue  # handled by landing exactly on t_end
-            if end.crossed(self._value(end, tr, t0)):
-                return end
-        return None
+    def _crossed(self, step, tr, t0) -> list[End]:
+        # time ends are met by landing exactly on t_end
+        return [end for end in step.ends
+                if end.quantity != "time" and end.crossed(self._value(end, tr, t0))]
+
+    def _over_cap(self, tr: _Trial) -> list[End]:
+        """[the cap] when the trial's hottest point passes the temperature cap. The trial's
+        thermal step is taken here (acceptance needs it anyway); locating the crossing then
+        watches the field on every trial."""
+        if not math.isfinite(self.cap_end.threshold):
+            return []
+        if tr.thermal is None:
+            self._thermal_step(tr)
+        t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
+        if not self.cap_end.crossed(t_max):
+            return []
+        tr.t_max = t_max
+        self.needs_field = True
+        return [self.cap_end]
+
+    def _locate_first(self, step, crossed, control, tr, t0, index):
+        """Locate the end met first: when another end is already past its threshold at the
+        located point, it was met earlier, so locate that one instead."""
+        end = crossed[0]
+        tr = self._locate(step, end, control, tr, t0, index)
+        for _ in range(len(step.ends)):
+            earlier = [e for e in self._crossed(step, tr, t0) if e is not end
+                       and e.distance(self._value(e, tr, t0)) < -self._tolerance(e)]
+            if not earlier:
+                break
+            end = earlier[0]
+            tr = self._locate(step, end, control, tr, t0, index)
+        return end, tr
 
     def _tolerance(self, end: End) -> float:
         if end.quantity == "current":
@@ -421,15 +594,16 @@ class _Stepper:
         return best
 
     def _distance_now(self, end, t0):
-        r = self.rec
+        # from the last accepted step, which a thinned-out record may not hold
+        p = self.prev
         if end.quantity == "voltage":
-            return end.distance(r.voltage[-1])
+            return end.distance(p.voltage_V)
         if end.quantity == "current":
-            return end.distance(abs(r.current[-1]))
+            return end.distance(abs(p.current_A))
         if end.quantity == "soc":
-            return end.distance(r.soc[-1])
+            return end.distance(p.soc)
         if end.quantity == "temperature":
-            return end.distance(float(np.max(r.temperature[-1])))
+            return end.distance(float(np.max(self.thermal.temperature_C(self.T_state))))
         return None
 
     def _accept(self, tr: _Trial, index, boundary=False, record=True):
@@ -442,6 +616,7 @@ class _Stepper:
         self.integrals += (generated * dt, sum(tr.rejected.values()) * dt, res.current_A * dt,
                            res.current_A * res.voltage_V * dt)
         self.t += tr.dt
+        self.prev = tr.rod
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
         self.rec.steps_taken += 1
