@@ -58,10 +58,11 @@ from explorer.simulate import (
     _grid,
     _hydraulics,
     _number,
+    _settings,
     cell_pieces,
 )
 from explorer.stepping.distributed import FieldStepResult
-from explorer.stepping.run import HEAT_KEYS, Settings, run
+from explorer.stepping.run import HEAT_KEYS, check_output_interval, run
 from explorer.validators import InputError
 
 __all__ = ["simulate_module", "ModuleThermal", "ModuleRods", "module_cells"]
@@ -131,6 +132,7 @@ def simulate_module(cell, duty, cooling, electrochemistry: str = "spme",
         raise InputError(f"simulate_module: `output_interval_s` must be > 0, "
                          f"got {output_interval_s!r}")
     steps = [_duty.resolve(s, cell) for s in _duty.as_steps(duty)]
+    check_output_interval(steps, output_interval_s, where="simulate_module")
     g = cell.geometry
     the_grid = Grid.single(g.width_m, g.height_m) if layout == "single" else _grid(
         g.width_m, g.height_m, grid)
@@ -143,7 +145,7 @@ def simulate_module(cell, duty, cooling, electrochemistry: str = "spme",
     module_rod = ModuleRods.from_pieces(rod, cells, the_grid, coupling)
     record = run(module_rod, module_thermal, steps, start_soc=start_soc,
                  start_temperature_C=start_temperature_C,
-                 settings=Settings(output_interval_s=output_interval_s), progress=progress)
+                 settings=_settings(cell, output_interval_s), progress=progress)
     per_cell = module_thermal.recorded(record)
     attrs = {
         "electrochemistry": electrochemistry,
