@@ -258,3 +258,18 @@ def test_plate_too_short_for_its_cells(cell):
     with pytest.raises(InputError, match="through the stack"):
         edge.check_fits(cell)
     cooling.convection(10.0, 25.0).check_fits(cell)  # nothing to fit
+
+
+def test_bad_inputs_are_clear_errors(cell):
+    design = _plate_design(cell, 2)
+    cases = [
+        (dict(layout="3d"), "`layout`"),
+        (dict(electrochemistry="p2d"), "`electrochemistry`"),
+        (dict(output_interval_s=-1.0), "`output_interval_s`"),
+        (dict(start_soc=1.5), "`start_soc`"),
+    ]
+    for kwargs, match in cases:
+        with pytest.raises(InputError, match=match):
+            explorer.simulate_module(cell, DUTY, design, grid=GRID, **kwargs)
+    with pytest.raises(InputError, match="`cooling`"):
+        explorer.simulate_module(cell, DUTY, "a cold plate", grid=GRID)
