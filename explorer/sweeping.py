@@ -1,8 +1,9 @@
 """Design sweeps: the cartesian product of design parameters, run on Dask.
 
 :func:`sweep` runs :func:`explorer.simulate` for every combination of the
-values in ``axes`` and gathers one summary per case into a Dataset with one
-dimension per axis.
+values in ``axes`` (:func:`explorer.simulate_module` where the design's
+coolant runs along several cells) and gathers one summary per case into a
+Dataset with one dimension per axis.
 
 Execution
     By default a local Dask cluster on the loopback interface (two worker
@@ -105,6 +106,7 @@ SUMMARY = {
                         "the coolant meets; a single-cell case: the position that was run)"),
     "cell_to_cell_K": ("K", "largest difference between the cells' mean temperatures at one "
                             "time (NaN: one cell was run)"),
+    "cells_run": ("1", "cells run in the case: every cell on the coolant path (a module), or 1"),
     "max_spread_K": ("K", "largest in-cell spread, hottest minus coldest point anywhere at one "
                           "time (NaN: not seen on layout 'single')"),
     "core_temperature_max_C": ("degC", "hottest core temperature estimate"),
@@ -137,6 +139,7 @@ class _Case:
     design: object  # the cooling design of this case (None: adiabatic)
     settings: dict  # simulate keywords of this case
     key: str = ""
+    module: bool = False  # run every cell on the coolant path (explorer.simulate_module)
 
 
 def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = False,
@@ -176,10 +179,12 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
     trace_interval_s : float, optional
         Spacing of the common time base of the traces.
     **simulate_kwargs
-        Passed to :func:`explorer.simulate` for every case. Each case runs
-        simulate's default cell position (the last cell along a shared
-        coolant path, which sees the warmest coolant) unless ``position`` is
-        given here.
+        Passed to :func:`explorer.simulate` for every case. A case whose
+        design runs its coolant along more than one cell
+        (``cooling.positions_to_check()`` has more than one entry) runs the
+        whole module with :func:`explorer.simulate_module` instead and is
+        judged by its worst cell and its cell-to-cell difference (DESIGN.md
+        §3); ``position=k`` here runs only cell ``k`` instead.
 
     Returns
     -------
@@ -299,11 +304,22 @@ def _cases(cell, duty, cooling, axes, simulate_kwargs, keep_fields) -> list[_Cas
             except (ValueError, TypeError) as exc:
                 raise InputError(f"sweep: the case {design_values} is not a valid design: "
                                  f"{exc}") from None
+        module = _runs_module(design, settings)
         key_data = {**base, "cooling": design.describe() if design is not None else None,
-                    "settings": settings}
+                    "settings": settings, "module": module}
         key = hashlib.sha256(json.dumps(key_data, sort_keys=True, default=str).encode())
-        cases.append(_Case(index, values, design, settings, key.hexdigest()))
+        cases.append(_Case(index, values, design, settings, key.hexdigest(), module))
     return cases
+
+
+def _runs_module(design, settings: dict) -> bool:
+    """Whether a case runs the whole module: its design has a coolant path along more than
+    one cell (DESIGN.md §3 rule 3), and no single `position` (or `rods`, which only
+    explorer.simulate takes) was asked for."""
+    if design is None or "position" in settings or "rods" in settings:
+        return False
+    positions = getattr(design, "positions_to_check", None)
+    return positions is not None and len(list(positions())) > 1
 
 
 def _cell_key(cell) -> str:
@@ -330,14 +346,22 @@ def _duty_key(duty) -> list:
 # --------------------------------------------------------------------------- running a case
 
 
-def _simulate(cell, duty, **kwargs):
+def _simulate(cell, duty, module: bool = False, **kwargs):
+    if module:
+        from explorer.module import simulate_module
+
+        return simulate_module(cell, duty, **kwargs)
     from explorer.simulate import simulate
 
     return simulate(cell, duty, **kwargs)
 
 
-def run_case(cell, duty, design, settings: dict, keep_fields: bool = False) -> xr.Dataset:
+def run_case(cell, duty, design, settings: dict, keep_fields: bool = False,
+             module: bool = False) -> xr.Dataset:
     """Run one case and reduce it to what a sweep keeps (never raises on a failed run).
+
+    ``module``: run every cell on the design's coolant path
+    (:func:`explorer.simulate_module`) instead of one cell.
 
     Returns a small Dataset: the traces over ``time``, the summary figures as
     0-d variables, the fields when ``keep_fields``, and ``case_status`` /
@@ -345,7 +369,8 @@ def run_case(cell, duty, design, settings: dict, keep_fields: bool = False) -> x
     """
     wall, cpu = time.perf_counter(), time.process_time()
     try:
-        ds = _simulate(cell, duty, cooling=design, **settings)
+        ds = _simulate(cell, duty, cooling=design, **settings, **({"module": True} if module
+                                                                  else {}))
         out = reduce_run(ds, keep_fields)
     except Exception as exc:  # one bad case must not stop the sweep
         log.warning("sweep case %s failed: %s", settings, exc)
@@ -365,6 +390,7 @@ def reduce_run(ds: xr.Dataset, keep_fields: bool = False) -> xr.Dataset:
         "peak_temperature_C": fig["peak_temperature_C"],
         "worst_cell": fig["worst_cell"] if module else _number(ds.attrs.get("cell_position")),
         "cell_to_cell_K": fig.get("cell_to_cell_K", math.nan),
+        "cells_run": ds.sizes["cell"] if module else 1,
         "max_spread_K": fig["max_spread_K"],
         "core_temperature_max_C": _nanmax(ds, "temperature_core_max"),
         "coolant_outlet_max_C": _nanmax(ds, "coolant_outlet"),
@@ -509,7 +535,8 @@ def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
 def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
     if isinstance(scheduler, str) and scheduler.lower() in ("serial", "local-serial"):
         for case in todo:
-            _finish(done, case, run_case(cell, duty, case.design, case.settings, keep_fields))
+            _finish(done, case, run_case(cell, duty, case.design, case.settings, keep_fields,
+                                         case.module))
         return
     with _quiet_cluster_logs(scheduler is None):
         _execute_dask(cell, duty, todo, scheduler, keep_fields, done)
@@ -545,7 +572,7 @@ def _execute_dask(cell, duty, todo, scheduler, keep_fields, done) -> None:
         cell_f = client.scatter(cell, broadcast=True)  # ship the cell once, not per case
         for case in todo:
             fut = client.submit(run_case, cell_f, duty, case.design, case.settings, keep_fields,
-                                pure=False)
+                                case.module, pure=False)
             futures[fut] = case
         for fut in as_completed(futures):
             case = futures[fut]
