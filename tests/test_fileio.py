@@ -128,11 +128,12 @@ def test_read_only_folder_refused_by_the_system(tmp_path, monkeypatch):
 
 
 def test_netcdf_through_results_save(tmp_path):
-    from explorer.results import open_results, save
+    from explorer.results import save
 
     ds = xr.Dataset({"a": ("t", np.arange(3.0))}, attrs={"flag": True, "meta": {"k": 1}})
     path = save(ds, tmp_path / "sub" / "r.nc")  # save creates the folder
-    assert float(open_results(path)["a"].sum()) == 3.0
+    with xr.open_dataset(path) as back:
+        assert float(back["a"].sum()) == 3.0 and back.attrs["flag"] == 1
     assert _names(path.parent) == ["r.nc"]
     with pytest.raises(OutputError, match="is a folder"):
         save(ds, tmp_path / "sub")
