@@ -349,7 +349,9 @@ class ModuleThermal:
         return inlets, outlets
 
     def _key(self, field) -> bytes:
-        return np.asarray(field, dtype=float).ravel()[self._probe].tobytes()
+        """Fingerprint of a stacked field: 97 spread values and the sum of all."""
+        flat = np.asarray(field, dtype=float).ravel()
+        return flat[self._probe].tobytes() + flat.sum().tobytes()
 
     def _keep_flows(self, state, generated, rejected) -> None:
         """The heat flows of a state a step produced (they come with the step, free)."""
