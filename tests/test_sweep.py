@@ -439,3 +439,28 @@ def test_module_cases_on_real_runs():
                 limits=lim, electrochemistry="spm", layout="single", position=1)
     assert int(one["cells_run"][0]) == 1 and int(one["worst_cell"][0]) == 1
     assert str(one["verdict_cell_to_cell_K"].values[0]) == "not evaluated"
+
+
+def test_cut_short_real_run_is_cached_with_its_status(tmp_path, monkeypatch):
+    """A discharge asked to run 4000 s reaches the cell's lower voltage first: "cut_short"
+    (contracts A), a result of that design: cached, shown, and its warning carried."""
+    import explorer
+    from explorer import duty
+
+    cell = explorer.load_cell("rack_lfp_26ah")
+    d = duty.discharge(c_rate=2.0, end_time_s=4000.0)
+    settings = {"electrochemistry": "spm", "layout": "single"}
+    axes = {"start_temperature_C": [25.0, 35.0]}
+    first = sweep(cell, d, None, axes, scheduler="serial", progress=False, cache_dir=tmp_path,
+                  **settings)
+    assert (first["case_status"] == "cut_short").all()
+    assert all("lower limit" in str(m) for m in first["case_message"].values)
+    assert all("cut short" in str(w) for w in first["case_warnings"].values)
+    assert len(list(tmp_path.glob("*.nc"))) == 2
+    again = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", again)
+    second = sweep(cell, d, None, axes, scheduler="serial", progress=False, cache_dir=tmp_path,
+                   **settings)
+    assert again.calls == 0
+    np.testing.assert_array_equal(second["case_status"], first["case_status"])
+    np.testing.assert_array_equal(second["case_message"], first["case_message"])
