@@ -13,6 +13,8 @@ measured side by side in the same run. Sections:
 * ``module``    a face plate shared by 12 cells: ``simulate_module`` (all 12 cells,
                 coupled along the coolant) against one ``simulate`` of the same design,
                 SPMe averaged on the default grid, 1C discharge; target ratio <= 3
+* ``profile``   1 Hz load profiles of 10 000, 30 000 and 86 400 rows (single layout, SPMe):
+                the cost per row must stay flat (linear time in the profile's length)
 * ``inplane``   collector network set-up and thermal steps on the 32 x 48 grid
 * ``sweep``     48-case sweep, serial against the local Dask cluster
 * ``app``       the notebook app's run-to-figure and time-slider update
@@ -133,6 +135,10 @@ def _section(name, quick):
         from explorer.rod_bench import bench_rods as bench_rod_models
 
         return bench_rod_models(repeat=1 if quick else 3)
+    if name == "profile":  # one timed run per length (a day-long profile takes a while)
+        from explorer.stepping.profile_bench import bench_profile
+
+        return bench_profile()
     if name == "inplane":
         from explorer.inplane.bench import bench_inplane
 
@@ -148,7 +154,8 @@ def _section(name, quick):
     raise ValueError(name)
 
 
-SECTIONS = ("rods", "rod_only", "averaged", "distributed", "module", "inplane", "sweep", "app")
+SECTIONS = ("rods", "rod_only", "averaged", "distributed", "module", "profile", "inplane",
+            "sweep", "app")
 
 
 def _table(rows) -> str:
