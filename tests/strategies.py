@@ -325,6 +325,30 @@ def mutated_csv(text: str):
     return mutated_text_file(text, line_edits=_csv_line_mutation)
 
 
+#: load values (W or A) that parse but push the cell: huge, negative (charging), tiny, zero
+LOADS = ("0", "-1e4", "1e4", "1e6", "1e-300", "-5", "5000", "1e300", "-1e300", "250", "-250")
+
+
+@st.composite
+def _csv_load_edit(draw, lines: list[str]) -> list[str]:
+    lines = list(lines)
+    rows = [i for i, ln in enumerate(lines) if ln[:1].isdigit()]
+    head = rows[0] - 1
+    if draw(st.integers(0, 4)) == 0:
+        unit = draw(st.sampled_from(["[kW]", "[mW]", "[W]"]))
+        lines[head] = lines[head].replace("[W]", unit)
+    else:
+        i = draw(st.sampled_from(rows))
+        t, _ = lines[i].split(",", 1)
+        lines[i] = f"{t},{draw(st.sampled_from(LOADS))}"
+    return lines
+
+
+def scaled_csv(text: str):
+    """The profile with one or two loads (or the load unit) changed: files that parse."""
+    return mutated_text_file(text, line_edits=_csv_load_edit, damage=False)
+
+
 # ------------------------------------------------------------------------------- JSON mutations
 
 @st.composite

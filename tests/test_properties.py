@@ -36,6 +36,7 @@ from strategies import (
     mutated_csv,
     mutated_json,
     mutated_toml,
+    scaled_csv,
     scaled_toml,
     weighted,
     wild_values,
@@ -622,6 +623,7 @@ SIM_PLAUSIBLE = {
     "position": st.sampled_from([None, 0, 1, 5]),
     "output_interval_s": st.sampled_from([None, 5.0, 20.0, 60.0]),
     "rods": st.sampled_from([None, (1, 1), (2, 2)]),
+    "mesh": st.sampled_from([None, {"shells": 5}, {"negative": 3, "separator": 2, "positive": 3}]),
 }
 SIM_WILD = {
     "grid": st.sampled_from([(1, 4), (0, 0), (4,), "4x4", (4.5, 4), (math.nan, 4), (-3, 4),
@@ -629,6 +631,8 @@ SIM_WILD = {
     "rods": st.sampled_from([(0, 2), "x", (2.5, 2), (100, 100), (-1, 1)]),
     "position": st.sampled_from([-1, 2.5, "a", math.nan, 10**9]),
     "output_interval_s": st.sampled_from([0, -1.0, math.nan, math.inf, "x", 1e-9]),
+    "mesh": st.sampled_from([{"shells": "x"}, {"shells": None}, {"shells": 2}, {"x": 1}, [],
+                             "fine", {"shells": 2.5}, {"shells": math.nan}, {"negative": 0}]),
 }
 
 
@@ -682,6 +686,49 @@ def test_simulate_arguments(data):
     kwargs = data.draw(simulate_kwargs(), label="kwargs")
     outcome(lambda: explorer.simulate(cell, the_duty, design, **kwargs),
             [*kwargs, "simulate", "cooling", "duty"], check=check_dataset)
+
+
+@props(N_RUN)
+@given(data=st.data())
+def test_scenario_runs(folder, data):
+    """A scenario file that loads runs its cell, cooling and [model] settings cleanly (one
+    minute, 4 x 4 grid) or raises an InputError naming a field."""
+    source = data.draw(st.sampled_from(SCENARIOS), label="source")
+    raw = data.draw(weighted((3, scaled_toml(_text(source))), (1, mutated_toml(_text(source)))),
+                    label="bytes")
+    path = _write(folder, source.stem, ".toml", raw)
+    try:
+        sc = load_scenario(path)
+    except InputError:
+        return
+    model = {**sc.model, "grid": (4, 4)}
+    interval = model.get("output_interval_s")
+    if isinstance(interval, int | float) and 0 < interval < 5:
+        model["output_interval_s"] = 5.0  # cost only: a fine output spacing is tested elsewhere
+    if model.get("layout") == "distributed":
+        model["rods"] = (2, 2)
+    outcome(lambda: explorer.simulate(sc.cell, duty.discharge(c_rate=1.0, end_time_s=60.0),
+                                      sc.cooling, **model),
+            [*sc.model, "simulate", "cooling"], check=check_dataset)
+
+
+@props(N_RUN)
+@given(data=st.data())
+def test_profile_runs(folder, data):
+    """A load profile that parses (one minute of the bundled route, damaged) runs cleanly."""
+    text = short_profile().read_text(encoding="utf-8")
+    raw = data.draw(weighted((3, scaled_csv(text)), (1, mutated_csv(text))), label="bytes")
+    path = _write(folder, "short_profile", ".csv", raw)
+    try:
+        step = duty.profile_csv(path)
+    except InputError:
+        return
+    if step.profile_time_s[-1] > 600.0:
+        return  # a mutated time column can stretch the run; cost only
+    layout = data.draw(st.sampled_from(["single", "averaged"]), label="layout")
+    outcome(lambda: explorer.simulate(demo_cell(), step, cooling.convection(10.0, 25.0),
+                                      electrochemistry="spm", layout=layout, grid=(4, 4)),
+            [path.name, "simulate"], check=check_dataset)
 
 
 @props(N_SIZE)
