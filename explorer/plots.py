@@ -95,6 +95,36 @@ def _require(ds, names: Sequence[str], where: str) -> None:
         )
 
 
+def worst_cell_view(ds):
+    """A module Dataset (a ``cell`` dimension) as its worst cell: the one whose hottest point
+    anywhere is the highest (``attrs["shown_cell"]`` says which); a single run as it is.
+
+    The single-cell figures (fields, traces) show that cell; the module view is
+    :func:`module_figure`.
+    """
+    if "cell" not in getattr(ds, "dims", ()):
+        return ds  # a single run, or not a Dataset (the figure's own check names it)
+    from explorer.results import hottest_anywhere
+
+    hot = hottest_anywhere(ds)
+    row = int(np.unravel_index(int(np.nanargmax(hot)), hot.shape)[0])
+    view = ds.isel(cell=row)
+    view.attrs = {**ds.attrs, "shown_cell": int(ds["cell"].values[row]) if "cell" in ds.coords
+                  else row}
+    return view
+
+
+def _module_totals(ds):
+    """A module's per-cell heat series added up over the cells (the split is already a sum)."""
+    if "cell" not in getattr(ds, "dims", ()):
+        return ds
+    out = ds.copy()
+    for name in ("heat_total", "heat_rejected"):
+        if name in ds and "cell" in ds[name].dims:
+            out[name] = ds[name].sum("cell", keep_attrs=True)
+    return out
+
+
 def time_axis(ds) -> tuple[np.ndarray, str, float]:
     """Return (time values to plot, axis label, divisor from s): minutes for runs over 20 min."""
     t = np.asarray(ds["time"].values, dtype=float)
@@ -212,6 +242,7 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
         badly) and ``layout.meta`` holds the variable and the time index shown.
     """
     label, unit, _, colorscale = _scale(variable)
+    ds = worst_cell_view(ds)
     _require(ds, [variable, "time", "x", "y"], "field_figure")
     n_time = ds.sizes["time"]
     if n_time == 0:
@@ -295,6 +326,7 @@ def traces_figure(ds, limits=None) -> go.Figure:
     user's :class:`explorer.Limits` dashed (``temperature_max_C`` on the temperature panel,
     ``spread_K`` on the spread panel).
     """
+    ds = worst_cell_view(ds)
     _require(ds, ["voltage", "current", "temperature_max", "temperature_min"], "traces_figure")
     t, t_label, _ = time_axis(ds)
     fig = make_subplots(
@@ -353,6 +385,7 @@ def traces_figure(ds, limits=None) -> go.Figure:
 
 def heat_split_figure(ds) -> go.Figure:
     """The generated heat split by source over time (stacked areas) with the rejected heat."""
+    ds = _module_totals(ds)
     present = [name for name in HEAT_PARTS if name in ds]
     _require(ds, ["heat_total"], "heat_split_figure")
     if not present:
@@ -386,9 +419,9 @@ def heat_split_figure(ds) -> go.Figure:
 
 
 _COMPARE = {
-    "temperature_max": ("Hottest point of the mean field (°C)", 1.0),
+    "temperature_max": ("Hottest point anywhere in the cell, core included (°C)", 1.0),
     "voltage": ("Terminal voltage (V)", 1.0),
-    "spread": ("Spread of the mean field over the face (K)", 1.0),
+    "spread": ("In-cell spread, hottest minus coldest point (K)", 1.0),
     "soc_mean": ("State of charge (%)", 100.0),
     "heat_total": ("Generated heat (W)", 1.0),
     "temperature_mean": ("Face mean temperature (°C)", 1.0),
@@ -397,9 +430,18 @@ _COMPARE = {
 
 
 def _series(ds, name: str) -> np.ndarray:
+    """A comparison trace: the figures the verdicts read (hottest point anywhere, in-cell
+    spread), the worst over a module's cells; per-cell series of a module are averaged."""
+    from explorer.results import coldest_anywhere, hottest_anywhere
+
+    if name == "temperature_max":
+        return np.nanmax(hottest_anywhere(ds), axis=0)
     if name == "spread":
-        return np.asarray(ds["temperature_max"].values - ds["temperature_min"].values, dtype=float)
-    return np.asarray(ds[name].values, dtype=float) * _COMPARE[name][1]
+        return np.nanmax(hottest_anywhere(ds) - coldest_anywhere(ds), axis=0)
+    v = ds[name]
+    if "cell" in v.dims:
+        v = v.mean("cell")
+    return np.asarray(v.values, dtype=float) * _COMPARE[name][1]
 
 
 def comparison_figure(scenarios, variables: Sequence[str] = ("temperature_max", "spread", "voltage"),

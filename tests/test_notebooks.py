@@ -79,7 +79,7 @@ def test_cooling_design_review(tmp_path):
     assert len(figures) == 3  # comparison, sizing curve, field at the design point
     comparison, sizing, field = figures
     names = {tr.get("name") for tr in comparison["data"]}
-    assert {"baseline: edge plate", "A: edge plate + 1.5 mm fin", "B: face plate"} <= names
+    assert {"baseline: edge plate", "A: edge plate + 1.5 mm fin", "B: face plates"} <= names
     assert "Sizing" in json.dumps(sizing["layout"])
     assert _trace_types(field)[0] == "heatmap"
     text = _text(nb)

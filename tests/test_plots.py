@@ -12,6 +12,7 @@ import pytest
 from synthetic import SyntheticSizing, synthetic_dataset
 
 from explorer import plots
+from explorer.results import hottest_anywhere
 
 LIMITS = {"temperature_max_C": 45.0, "spread_K": 5.0}
 
@@ -19,6 +20,10 @@ LIMITS = {"temperature_max_C": 45.0, "spread_K": 5.0}
 @pytest.fixture(scope="module")
 def ds():
     return synthetic_dataset()
+
+
+HEAT_SUMS = ("heat_irreversible", "heat_reversible", "heat_ohmic_electrolyte", "heat_ohmic_solid",
+             "heat_collector", "heat_tab")
 
 
 def _hlines(fig) -> list[float]:
@@ -125,8 +130,36 @@ def test_comparison_overlays_each_scenario(ds):
     assert len(fig.data) == 2 * 3
     assert sorted({tr.name for tr in fig.data}) == ["baseline", "bigger plate"]
     hot = [tr for tr in fig.data if tr.yaxis in ("y", None) or tr.yaxis == "y1"]
-    np.testing.assert_allclose(hot[1].y, other["temperature_max"].values)
+    # the panel the temperature limit is drawn on shows the figure the verdict reads: the hottest
+    # point anywhere in the cell, core included (DESIGN.md verdict rule 1)
+    np.testing.assert_allclose(hot[1].y, hottest_anywhere(other)[0])
     assert 45.0 in _hlines(fig) and 5.0 in _hlines(fig)
+
+
+def test_module_figures_show_the_worst_cell(ds):
+    """A module Dataset (a `cell` dimension): the field and trace figures show the cell with the
+    hottest point anywhere and say which; the heat split adds up the cells."""
+    import xarray as xr
+
+    other = synthetic_dataset(rise_K=9.0)
+    per_cell = [v for v in ds.data_vars if "time" in ds[v].dims and v not in HEAT_SUMS]
+    module = xr.concat([ds[per_cell], other[per_cell]], dim="cell")
+    module = module.assign_coords(cell=[0, 1])
+    for name in HEAT_SUMS:
+        if name in ds:
+            module[name] = ds[name]
+    module.attrs = dict(ds.attrs)
+    hot = hottest_anywhere(module)
+    worst = int(np.argmax(hot.max(axis=1)))
+    assert plots.worst_cell_view(module).attrs["shown_cell"] == worst
+    fig = plots.field_figure(module, animate=False)
+    np.testing.assert_allclose(np.asarray(fig.data[0].z),
+                               module["temperature"].isel(cell=worst,
+                                                          time=fig.layout.meta["index"]).values)
+    split = plots.heat_split_figure(module)
+    total = next(tr for tr in split.data if tr.name.startswith("total generated"))
+    np.testing.assert_allclose(np.asarray(total.y),
+                               ds["heat_total"].values + other["heat_total"].values)
 
 
 def test_sizing_curve_design_point_and_limits():
