@@ -207,7 +207,29 @@ def _model(where, table) -> dict:
     for key in ("start_soc", "start_temperature_C", "output_interval_s"):
         if key in model:
             _number(where, f"model.{key}", model[key])
+    from explorer.simulate import ELECTROCHEMISTRY, LAYOUTS
+
+    for key, choices in (("electrochemistry", ELECTROCHEMISTRY), ("layout", LAYOUTS)):
+        if key in model and (not isinstance(model[key], str)
+                             or model[key].lower() not in choices):
+            raise ScenarioError(f"{where}: `model.{key}` = {model[key]!r}; expected one of "
+                                f"{', '.join(map(repr, choices))}")
+    if "position" in model and (isinstance(model["position"], bool)
+                                or not isinstance(model["position"], int) or model["position"] < 0):
+        raise ScenarioError(f"{where}: `model.position` = {model['position']!r}; expected a whole "
+                            "number >= 0 (0 = the first cell the coolant meets)")
+    if "mesh" in model:
+        model["mesh"] = _mesh(where, model["mesh"])
     return model
+
+
+def _mesh(where, mesh) -> dict:
+    """``[model.mesh]``: a table of whole numbers (the rod model checks the keys and minimums)."""
+    if not isinstance(mesh, dict) or not all(
+            isinstance(v, int) and not isinstance(v, bool) and 0 < v <= 1000 for v in mesh.values()):
+        raise ScenarioError(f"{where}: `model.mesh` = {mesh!r}; expected a table of whole "
+                            "numbers from 1 to 1000, e.g. `mesh = {shells = 10, negative = 10}`")
+    return mesh
 
 
 def _number(where, name, value) -> float:

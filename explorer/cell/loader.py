@@ -194,6 +194,11 @@ class _Reader:
         if f.check == "range" and not f.low <= v <= f.high:
             self.add(path, raw, f"a value between {f.low:g} and {f.high:g}{unit}")
             return None
+        band = schema.plausible_band(path)
+        if band is not None and not band[0] <= v <= band[1]:
+            self.add(path, raw, f"a value between {band[0]:g} and {band[1]:g}{unit} (no real "
+                     "pouch cell lies outside; check the number and its unit)")
+            return None
         return v
 
 

@@ -47,7 +47,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["Field", "SECTIONS", "TAB_FIELDS", "OPTIONAL_SECTIONS"]
+__all__ = ["Field", "SECTIONS", "TAB_FIELDS", "OPTIONAL_SECTIONS", "PLAUSIBLE", "plausible_band"]
 
 
 @dataclass(frozen=True)
@@ -185,3 +185,59 @@ SECTIONS = {
     "thermal": THERMAL,
 }
 OPTIONAL_SECTIONS = ("thermal",)
+
+# Wide bands (orders of magnitude around real pouch cells, common practice) outside which a
+# value is a typo or a wrong unit, in each field's unit. Beyond them derived properties and the
+# later solves stop being finite (a 200 km wide electrode, a 1e-300 m foil). Keys are
+# "<table>.<key>"; "electrode.", "collector." and "tabs." cover both electrodes, both collectors
+# and every tab.
+PLAUSIBLE = {
+    "cell.nominal_capacity": (1e-3, 1e4),
+    "cell.voltage_min": (0.1, 10.0),
+    "cell.voltage_max": (0.1, 10.0),
+    "geometry.width": (1e-3, 5.0),
+    "geometry.height": (1e-3, 5.0),
+    "geometry.thickness": (1e-5, 0.2),
+    "geometry.pouch_foil_thickness": (1e-6, 2e-3),
+    "tabs.centre": (0.0, 5.0),
+    "tabs.width": (1e-4, 5.0),
+    "tabs.thickness": (1e-6, 0.01),
+    "tabs.free_length": (0.0, 1.0),
+    "tabs.weld_resistance": (0.0, 1.0),
+    "collector.thickness": (1e-7, 1e-3),
+    "electrode.thickness": (1e-7, 5e-3),
+    "electrode.particle_radius": (1e-9, 1e-3),
+    "electrode.max_concentration": (100.0, 1e6),
+    "electrode.diffusivity": (1e-24, 1e-6),
+    "electrode.diffusivity_activation": (0.0, 5e5),
+    "electrode.rate_constant": (1e-20, 1e-3),
+    "electrode.rate_activation": (0.0, 5e5),
+    "electrode.solid_conductivity": (1e-8, 1e8),
+    "electrode.density": (10.0, 3e4),
+    "electrode.specific_heat": (10.0, 1e5),
+    "electrode.thermal_conductivity": (1e-3, 1e3),
+    "separator.thickness": (1e-7, 1e-3),
+    "separator.density": (10.0, 3e4),
+    "separator.specific_heat": (10.0, 1e5),
+    "separator.thermal_conductivity": (1e-3, 1e3),
+    "electrolyte.concentration": (1.0, 1e4),
+    "electrolyte.conductivity_activation": (0.0, 5e5),
+    "electrolyte.diffusivity_activation": (0.0, 5e5),
+    "electrolyte.density": (10.0, 3e4),
+    "electrolyte.specific_heat": (10.0, 1e5),
+    "thermal.inplane_conductivity": (1e-3, 1e3),
+    "thermal.throughplane_conductivity": (1e-3, 1e3),
+    "thermal.heat_capacity": (1e-3, 1e7),
+}
+_GROUPS = {"negative": "electrode", "positive": "electrode", "negative_collector": "collector",
+           "positive_collector": "collector"}
+
+
+def plausible_band(path: str) -> tuple[float, float] | None:
+    """The plausible band of a field path such as ``"negative.thickness"`` or
+    ``"tabs.positive.width"`` (None when the field has none)."""
+    parts = path.split(".")
+    if parts[0] == "tabs":
+        return PLAUSIBLE.get(f"tabs.{parts[-1]}")
+    table = _GROUPS.get(parts[0], parts[0])
+    return PLAUSIBLE.get(f"{table}.{parts[-1]}")
