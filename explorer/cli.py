@@ -34,7 +34,7 @@ import sys
 import traceback
 from pathlib import Path
 
-from explorer.validators import MESSAGE_CHARS, InputError, clip
+from explorer.validators import MESSAGE_CHARS, InputError, OutputError, clip
 
 DEMO_CELL = "van_nmc_66ah"
 
@@ -175,6 +175,11 @@ def _check_out(args) -> None:
     elif path.exists() and not path.is_dir():
         raise InputError(f"`--out` {clip(out)}: is an existing file; expected a folder (it is "
                          "created when missing)")
+    else:  # say it before a long run rather than after it
+        folder = next((p for p in (path, *path.parents) if p.is_dir()), Path("."))
+        if not os.access(folder, os.W_OK | os.X_OK):
+            raise OutputError(f"`--out` {clip(out)}: cannot write into the folder "
+                              f"{clip(str(folder))} (permission denied)")
 
 
 def _dispatch(args) -> int:

@@ -114,6 +114,14 @@ def test_unwritable_folder_names_the_path_and_the_reason(tmp_path, capsys, monke
     assert str(out) in err and "Permission denied" in err
 
 
+def test_an_unwritable_out_folder_is_refused_before_running(tmp_path, capsys, monkeypatch):
+    scenario = _scenario(tmp_path)
+    monkeypatch.setattr(os, "access", lambda path, mode: False)  # what a read-only folder says
+    err = _clean_error(capsys, main(["run", str(scenario), "--out", str(tmp_path / "a" / "b")]))
+    assert str(tmp_path / "a" / "b") in err and "permission denied" in err
+    assert not (tmp_path / "a").exists()
+
+
 @pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() == 0,
                     reason="root writes into read-only folders")
 def test_read_only_folder(tmp_path, capsys):
@@ -125,7 +133,7 @@ def test_read_only_folder(tmp_path, capsys):
         err = _clean_error(capsys, main(["run", str(scenario), "--out", str(out)]))
     finally:
         out.chmod(0o755)
-    assert str(out) in err and "Permission denied" in err
+    assert str(out) in err and "permission denied" in err.lower()
 
 
 def test_demo_that_cannot_write_says_so_and_keeps_its_figures(tmp_path, capsys, monkeypatch):
