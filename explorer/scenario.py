@@ -518,11 +518,15 @@ def cmd_sweep(scenario, out=None, scheduler=None) -> int:
 def sweep_table(ds) -> str:
     """One line per case: the axis values, peak temperature, spread, hydraulics, status."""
     axes = list(json.loads(ds.attrs["axes"]))
-    cols = [("peak_temperature_C", "peak degC"), ("max_spread_K", "spread K"),
-            ("end_soc", "end SOC"), ("pressure_drop_kPa", "dp kPa"), ("pump_power_W", "pump W")]
+    cols = [("peak_temperature_C", "hottest C"), ("max_spread_K", "in-cell K"),
+            ("cell_to_cell_K", "cells K"), ("end_soc", "end SOC"),
+            ("pressure_drop_kPa", "dp kPa"), ("pump_power_W", "pump W")]
+    cols = [c for c in cols if c[0] in ds]
     head = "".join(f"{a:>14}" for a in axes) + "".join(f"{c[1]:>11}" for c in cols)
     head += "   meets" if "meets_limits" in ds else ""
-    lines = [head + "   status"]
+    lines = ["hottest: hottest point anywhere in the worst cell (core included); in-cell: hottest "
+             "minus coldest point in a cell; cells: warmest minus coolest cell mean; dp and pump: "
+             "plate channels only", head + "   status"]
     stacked = ds[[c for c, _ in cols] + ["case_status"] +
                  (["meets_limits"] if "meets_limits" in ds else [])].stack(case=axes)
     for k in range(stacked.sizes["case"]):
