@@ -61,6 +61,7 @@ from __future__ import annotations
 
 import inspect
 import json
+import logging
 import math
 import sys
 import tomllib
@@ -68,7 +69,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from explorer.limits import Limits
-from explorer.validators import InputError
+from explorer.validators import InputError, clip
+
+log = logging.getLogger(__name__)
 
 # Step functions of explorer.duty a scenario may use.
 DUTY_STEPS = ("discharge", "charge", "hold_voltage", "rest", "profile_csv", "cc_cv_charge",
@@ -403,7 +406,8 @@ def _guard(fn):
         try:
             return fn(*args, **kwargs)
         except InputError as exc:
-            print(f"error: {exc}", file=sys.stderr)
+            print(f"error: {clip(str(exc), 2000)}", file=sys.stderr)
+            log.debug("scenario command failed", exc_info=True)  # -v shows where
             return 2
 
     wrapper.__name__, wrapper.__doc__ = fn.__name__, fn.__doc__

@@ -16,7 +16,7 @@ from __future__ import annotations
 import re
 from functools import lru_cache
 
-from explorer.validators import InputError
+from explorer.validators import InputError, short_repr
 
 __all__ = ["UnitError", "registry", "parse", "to_si"]
 
@@ -28,7 +28,7 @@ class UnitError(InputError):
     """A quantity string could not be read or has the wrong dimension."""
 
     def __init__(self, expected: str, got: str, kind: str):
-        super().__init__(f"expected {expected}, got {got!r}")
+        super().__init__(f"expected {expected}, got {short_repr(got)}")
         self.expected = expected  # what would have been accepted
         self.kind = kind  # "syntax" | "unit" | "dimension"
 
@@ -44,6 +44,10 @@ def registry():
 @lru_cache(maxsize=256)
 def _unit(text: str):
     return registry().Unit(text)
+
+
+# Longest unit text handed to pint ("W/(m*K)", "mol/m^3/s"...); beyond it the text is refused.
+_UNIT_TEXT_MAX = 60
 
 
 def parse(text: str, unit: str) -> float:
@@ -68,10 +72,14 @@ def parse(text: str, unit: str) -> float:
     if not m:
         raise UnitError(f"'<number> <unit>' such as '1 {unit}'", text, "syntax")
     number, unit_text = float(m.group(1)), m.group(2) or "dimensionless"
+    if len(unit_text) > _UNIT_TEXT_MAX:  # pint's parser slows steeply on long text
+        raise UnitError(f"a unit of at most {_UNIT_TEXT_MAX} characters such as '{unit}'",
+                        text, "unit")
     try:
         given = _unit(unit_text)
     except Exception:  # pint raises many types (even AssertionError) on bad unit text
-        raise UnitError(f"a known unit convertible to {unit} (could not read {unit_text!r})",
+        raise UnitError(f"a known unit convertible to {unit} (could not read "
+                        f"{short_repr(unit_text)})",
                         text, "unit") from None
     target = _unit(unit)
     if given.dimensionality != target.dimensionality:
