@@ -111,6 +111,9 @@ KNOWN_ISSUES = {
                    "upper bound on fin or interface sizes); the run then raises RuntimeError "
                    "('Factor is exactly singular') from the thermal factorisation in "
                    "explorer/stepping/run.py start (STEPPER) instead of a failed status",
+    "choice-array": "explorer/validators.py (shared): check_choice(name, <a numpy array>, ...), "
+                    "e.g. face_plate(plate, face=np.array([1., 2.])), raises ValueError (truth "
+                    "value of an array is ambiguous) from `value not in choices`",
     "sizing-vary": "explorer/sizing.py (SIZING): size_cooling(..., vary=<list or dict>) raises "
                    "TypeError (unhashable) from `vary not in params`",
 }
@@ -612,6 +615,9 @@ def test_cooling_constructor_arguments(data):
         known = (TypeError, "tab-cooling-tabs")
     if any(isinstance(kwargs.get(k), list | dict | np.ndarray) for k in ("material", "fin_material")):
         known = (TypeError, "solid-name")
+    if any(isinstance(kwargs.get(k), np.ndarray) and kwargs[k].size > 1
+           for k in ("face", "edge", "fin_face", "flow_direction")):
+        known = (ValueError, "choice-array")
     design = outcome(lambda: fn(**kwargs), names, check=check, known=known)
     if isinstance(design, Exception) or not hasattr(design, "sinks"):
         return
@@ -695,7 +701,7 @@ def simulate_kwargs(draw):
             continue
         wild = SIM_WILD.get(name, wild_values())
         kwargs[name] = draw(weighted((5, plausible), (1, wild)))
-    if kwargs.get("layout") == "distributed" or kwargs.get("rods") is not None:
+    if kwargs.get("rods") is not None:
         kwargs["layout"] = draw(st.sampled_from(["distributed", kwargs.get("layout")]))
     return kwargs
 
