@@ -524,9 +524,15 @@ def _cache_problem(entry: xr.Dataset, key: str) -> str:
 
 
 def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
+    import dask
+
     entry = result.copy()
     entry.attrs.update(cache_key=key, cache_format=CACHE_FORMAT)
-    write_netcdf(entry, cache / f"{key}.nc")
+    # With a Dask client active, xarray guards netCDF writes with a lock held on the
+    # scheduler: a round trip per entry, and a Ctrl-C caught inside it left later writes
+    # waiting forever. The entry is in memory: a local lock is the right one.
+    with dask.config.set(scheduler="synchronous"):
+        write_netcdf(entry, cache / f"{key}.nc")
 
 
 # --------------------------------------------------------------------------- execution
@@ -597,6 +603,28 @@ def _finish(done, case, result) -> None:
         raise _Stopped(result.attrs.get("case_message", ""))
 
 
+@contextlib.contextmanager
+def _sigint_ignored():
+    """Start worker processes that ignore Ctrl-C (SIGINT ignored at their start stays ignored).
+
+    Ctrl-C in a terminal reaches every process of the foreground group: workers hit
+    mid-task leave the cluster unable to close, and the sweep hangs. With the workers deaf
+    to it, only this process stops: it cancels the cases and closes the cluster. A Ctrl-C
+    during the cluster's start-up (a second or two) is ignored too.
+    """
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield  # only the main thread may set handlers (and only it receives SIGINT)
+        return
+    old = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, old)
+
+
 def _main_reruns_sweep() -> bool:
     """Whether Dask worker processes started now would run this sweep call again.
 
@@ -654,7 +682,8 @@ def _connect(scheduler):
         raise InputError("sweep: Dask distributed is needed for parallel sweeps "
                          "(pip install 'dask[distributed]'); or use scheduler='serial'") from None
     if scheduler is None:
-        cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.WARNING)
+        with _sigint_ignored():
+            cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.WARNING)
         return Client(cluster), cluster, True
     if isinstance(scheduler, Client):
         return scheduler, None, False

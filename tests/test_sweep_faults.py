@@ -38,10 +38,10 @@ BOOKKEEPING = ["case_status", "case_message", "case_warnings", "case_wall_s", "c
 # --------------------------------------------------------------------------- helpers
 
 
-def logged_standin(log, slow_call=None, *args, **kwargs):
+def logged_standin(log, slow_call=None, delay_s=0.0, *args, **kwargs):
     """The stand-in run, logging 'start'/'end' with the case; the ``slow_call``-th call of this
     process waits (up to 60 s) and, like the stepper (contracts A), turns Ctrl-C into a run
-    with status "stopped" that keeps what it computed."""
+    with status "stopped" that keeps what it computed. Every run takes ``delay_s`` at least."""
     cooling = kwargs["cooling"]
     case = f"{cooling.flow_L_min:g} {cooling.inlet_C:g}"
     logged_standin.calls = getattr(logged_standin, "calls", 0) + 1
@@ -59,6 +59,7 @@ def logged_standin(log, slow_call=None, *args, **kwargs):
     else:
         with open(log, "a") as fh:
             fh.write(f"start {case}\n")
+    time.sleep(delay_s)
     ds = standin_simulate(*args, **kwargs)
     with open(log, "a") as fh:
         fh.write(f"end {case}\n")
@@ -102,7 +103,8 @@ from test_sizing import DUTY, STANDIN_CELL, StandInPlate
 from test_sweep_faults import AXES, logged_standin
 
 cache, log, out, mode = sys.argv[1:5]
-sweep_mod._simulate = functools.partial(logged_standin, log, 3 if mode == "sigint" else None)
+sweep_mod._simulate = functools.partial(logged_standin, log, 3 if mode == "sigint" else None,
+                                        0.0)
 if mode == "sigkill":
     # the third cache write stays open (written, not yet renamed) until the test kills us
     real, writes = xr.Dataset.to_netcdf, []
@@ -138,7 +140,7 @@ def _resume_and_check(tmp_path, monkeypatch, cache, first_log):
     assert cached <= ended  # only cases that ran to their end were cached
     second_log = tmp_path / "run2.log"
     monkeypatch.setattr(sweep_mod, "_simulate", functools.partial(logged_standin, second_log,
-                                                                  None))
+                                                                  None, 0.0))
     ds = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", cache_dir=cache,
                progress=False)
     rerun = [case for what, case in _log(second_log) if what == "start"]
@@ -183,6 +185,49 @@ def test_sweep_interrupted_by_ctrl_c_resumes(tmp_path, monkeypatch):
     assert ("stopped", "2 20") in _log(log)
     cached = _resume_and_check(tmp_path, monkeypatch, cache, log)
     assert cached == {"1 20", "1 30"}  # the stopped case was not cached
+
+
+CLUSTER_CHILD = """
+import sys
+sys.path.insert(0, {tests!r})
+import functools
+import explorer.sweeping as sweep_mod
+from explorer.results import save
+from test_sizing import DUTY, STANDIN_CELL, StandInPlate
+from test_sweep_faults import AXES, logged_standin
+
+# top level: the worker processes run this too (they start by running the main script)
+sweep_mod._simulate = functools.partial(logged_standin, {log!r}, None, 1.0)
+
+if __name__ == "__main__":
+    ds = sweep_mod.sweep(STANDIN_CELL, DUTY, StandInPlate(), AXES, cache_dir={cache!r},
+                         progress=False)
+    save(ds, {out!r})
+"""
+
+
+def test_ctrl_c_in_a_terminal_stops_the_default_cluster_sweep(tmp_path, monkeypatch):
+    """Ctrl-C in a terminal reaches the whole process group, the local cluster's workers
+    included: the sweep still stops at once, closes its cluster and keeps what it has."""
+    cache, log, out = tmp_path / "cache", tmp_path / "run1.log", tmp_path / "out.nc"
+    script = tmp_path / "child.py"
+    script.write_text(CLUSTER_CHILD.format(tests=str(TESTS), log=str(log), cache=str(cache),
+                                           out=str(out)))
+    proc = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True, start_new_session=True)
+    _wait_for(lambda: len(list(cache.glob("*.nc"))) >= 2, proc, timeout=120)
+    os.killpg(proc.pid, signal.SIGINT)
+    try:
+        _, stderr = proc.communicate(timeout=60)
+    except subprocess.TimeoutExpired:
+        os.killpg(proc.pid, signal.SIGKILL)
+        raise AssertionError("the sweep did not stop within 60 s of Ctrl-C") from None
+    assert proc.returncode == 0, stderr
+    assert "sweep stopped" in stderr
+    with xr.open_dataset(out) as part:
+        assert part.attrs["status"] == "stopped"
+        assert (part["case_status"] == "stopped").any()
+    _resume_and_check(tmp_path, monkeypatch, cache, log)
 
 
 # --------------------------------------------------------------------------- Dask workers
