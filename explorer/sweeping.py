@@ -60,7 +60,7 @@ import xarray as xr
 from explorer.limits import UNITS as LIMIT_UNITS
 from explorer.limits import Limits
 from explorer.sizing import parameter_unit, run_hydraulics
-from explorer.validators import InputError
+from explorer.validators import InputError, OutputError
 
 log = logging.getLogger(__name__)
 
@@ -223,7 +223,11 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
     def done(case, result):
         results[case.index] = result
         if cache is not None and result.attrs.get("case_status") in CACHEABLE:
-            _write_cache(cache, case.key, result)
+            try:
+                _write_cache(cache, case.key, result)
+            except OutputError as exc:  # the result is here; only the resume loses it
+                log.warning("sweep: case %s not cached (%s); the sweep goes on", case.values,
+                            exc)
         bar.update(1)
 
     if todo and scheduler is None and _main_reruns_sweep():
@@ -477,7 +481,6 @@ def _open_cache(cache_dir) -> Path | None:
     if cache_dir is None:
         return None
     from explorer.fileio import remove_stale_temp
-    from explorer.validators import OutputError
 
     cache = Path(cache_dir)
     try:

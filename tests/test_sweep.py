@@ -215,6 +215,19 @@ def test_cache_entry_is_checked_against_its_key(tmp_path, monkeypatch):
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(p.name for p in entry.values())
 
 
+def test_cache_write_failure_does_not_stop_the_sweep(tmp_path, standin, monkeypatch, caplog):
+    from explorer.validators import OutputError
+
+    def full(ds, path):
+        raise OutputError(f"{path}: cannot write the file (No space left on device)")
+
+    monkeypatch.setattr(sweep_mod, "write_netcdf", full)
+    ds = sweep(STANDIN_CELL, DUTY, StandInPlate(), AXES, scheduler="serial", progress=False,
+               cache_dir=tmp_path)
+    assert (ds["case_status"] == "completed").all() and standin.calls == 6
+    assert "not cached" in caplog.text and "No space left" in caplog.text
+
+
 def test_cache_dir_that_is_a_file(tmp_path, standin):
     from explorer.validators import OutputError
 
