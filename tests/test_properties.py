@@ -13,6 +13,11 @@ No other exception type may escape. The mutations start from the repository's re
 examples that run a simulation use a 4 x 4 grid, the single or averaged layout and one-minute
 duties, and are capped. Settings are derandomized (the same examples on every machine) and keep
 no example database, so CI is reproducible.
+
+Failures found in other areas are listed in ``KNOWN_ISSUES`` and tolerated only for the call
+and exception type named there. For a hunt beyond CI's fixed examples, run with
+``PROPS_EXPLORE=<factor>`` (random examples, that many times as many); ``PROPS_EVENTS=1`` with
+``--hypothesis-show-statistics`` shows which errors the examples met and which calls were slow.
 """
 
 from __future__ import annotations
@@ -547,6 +552,7 @@ PLAUSIBLE = {
     "temperature_max_C": _F(-60.0, 200.0), "spread_K": _F(0.1, 50.0),
     "core_temperature_max_C": _F(-60.0, 200.0), "coolant_outlet_C": _F(-60.0, 200.0),
     "pressure_drop_kPa": _F(0.1, 500.0), "pump_power_W": _F(0.1, 500.0),
+    "cell_to_cell_K": _F(0.1, 20.0),
 }
 
 
