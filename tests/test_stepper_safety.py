@@ -38,6 +38,16 @@ def _cell_with(old, new):
     return cell_from_text(text.replace(old, new, 1))
 
 
+def _extreme(cell, section, **changes):
+    """``cell`` with values of one section replaced in Python. The cell-file loader refuses such
+    values (its plausibility bands); a cell built in code reaches the stepper, which must still
+    end cleanly."""
+    import dataclasses
+
+    return dataclasses.replace(cell, **{section: dataclasses.replace(getattr(cell, section),
+                                                                     **changes)})
+
+
 class _Wrapped:
     """A real rod whose steps are altered by ``change(result)`` (raise, or return a result)."""
 
@@ -76,11 +86,14 @@ def test_a_start_that_fails_ends_failed_with_the_initial_state(cell, monkeypatch
     assert run_warnings(ds) and "failed" in run_warnings(ds)[0]
 
 
-def test_extreme_activation_energy_at_minus_20_fails_cleanly():
+def test_extreme_activation_energy_at_minus_20_fails_cleanly(cell):
     """A DFN whose start fails (electrolyte conductivity activation 1000 kJ/mol at -20 degC,
-    far outside any electrolyte) ends as "failed" rather than raising."""
-    odd = _cell_with('conductivity_activation = "13 kJ/mol"',
-                     'conductivity_activation = "1000 kJ/mol"')
+    far outside any electrolyte) ends as "failed" rather than raising; the cell-file loader
+    refuses the value outright."""
+    with pytest.raises(InputError, match="conductivity_activation"):
+        _cell_with('conductivity_activation = "13 kJ/mol"',
+                   'conductivity_activation = "1000 kJ/mol"')
+    odd = _extreme(cell, "electrolyte", conductivity_activation_J_mol=1.0e6)
     ds = explorer.simulate(odd, duty.discharge(c_rate=1.0), electrochemistry="dfn",
                            layout="single", start_temperature_C=-20.0)
     assert ds.attrs["status"] == "failed"
@@ -124,8 +137,11 @@ def test_extrapolation_error_with_two_points_at_one_time_is_none():
 
 def test_a_non_physical_voltage_fails_the_run_and_is_not_recorded(cell):
     """Positive-electrode conductivity 1e-12 S/m (absurd by construction): the first load step
-    would put the terminal voltage far below 0 V."""
-    odd = _cell_with('solid_conductivity = "10 S/m"', 'solid_conductivity = "1e-12 S/m"')
+    would put the terminal voltage far below 0 V. The cell-file loader refuses the value; a cell
+    built in code reaches the stepper."""
+    with pytest.raises(InputError, match="solid_conductivity"):
+        _cell_with('solid_conductivity = "10 S/m"', 'solid_conductivity = "1e-12 S/m"')
+    odd = _extreme(cell, "positive", solid_conductivity_S_m=1e-12)
     ds = explorer.simulate(odd, duty.discharge(c_rate=1.0), layout="single")
     assert ds.attrs["status"] == "failed"
     assert "non-physical" in ds.attrs["status_message"]
