@@ -47,6 +47,7 @@ import xarray as xr
 
 from explorer import duty as _duty
 from explorer.inplane.grid import Grid
+from explorer.results import THROUGH_VARIABLES
 from explorer.rod.base import Control, RodStepError
 from explorer.rod.control import solve_current
 from explorer.simulate import (
@@ -522,16 +523,7 @@ _PER_CELL = {
     "temperature_mean": ("mean", "degC", "area-mean of the through-thickness-mean temperature"),
     "temperature_core_max": ("core_max", "degC", "hottest through-plane (core) temperature "
                              "estimate from the local generation"),
-    "temperature_hottest": ("hottest", "degC",
-                            "hottest point anywhere in the cell (core and faces included)"),
-    "temperature_coldest": ("coldest", "degC",
-                            "coldest point anywhere in the cell (core and faces included)"),
-    "temperature_front_max": ("front_max", "degC", "hottest point of the front face surface"),
-    "temperature_front_min": ("front_min", "degC", "coldest point of the front face surface"),
-    "temperature_back_max": ("back_max", "degC", "hottest point of the back face surface"),
-    "temperature_back_min": ("back_min", "degC", "coldest point of the back face surface"),
-    "through_thickness_difference": ("through_difference", "K", "largest difference through "
-                                     "the thickness (hottest minus coldest at one point)"),
+    **THROUGH_VARIABLES,  # the through-thickness figures, named as in a single run
     "heat_total": ("generated_W", "W", "total generated heat of the cell"),
     "heat_rejected": ("rejected_W", "W", "heat from the cell into all its sinks"),
     "heat_stored": ("stored_J", "J", "heat stored in the cell (and fin) relative to 0 degC"),

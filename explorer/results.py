@@ -172,7 +172,7 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
 
 
 # through-thickness variables: name -> (Record field, units, long_name)
-_THROUGH = {
+THROUGH_VARIABLES = {
     "temperature_hottest": ("hottest", "degC",
                             "hottest point anywhere in the cell (core and faces included)"),
     "temperature_coldest": ("coldest", "degC",
@@ -196,7 +196,7 @@ def _through_vars(record, Tmax, Tmin) -> dict:
     fallback = {"hottest": core, "coldest": Tmin, "front_max": Tmax, "front_min": Tmin,
                 "back_max": Tmax, "back_min": Tmin, "through_difference": np.zeros(n)}
     out = {}
-    for name, (key, units, long_name) in _THROUGH.items():
+    for name, (key, units, long_name) in THROUGH_VARIABLES.items():
         values = getattr(record, key, None)
         out[name] = _var("time", values if values is not None and len(values) == n
                          else fallback[key], units, long_name)
