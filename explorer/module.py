@@ -55,12 +55,11 @@ from explorer.simulate import (
     LAYOUTS,
     _cell,
     _choice,
-    _describe,
     _grid,
-    _hydraulics,
     _number,
     _settings,
     cell_pieces,
+    run_attrs,
 )
 from explorer.stepping.distributed import FieldStepResult
 from explorer.stepping.run import HEAT_KEYS, check_output_interval, run
@@ -148,24 +147,17 @@ def simulate_module(cell, duty, cooling, electrochemistry: str = "spme",
                  start_temperature_C=start_temperature_C,
                  settings=_settings(cell, output_interval_s), progress=progress)
     per_cell = module_thermal.recorded(record)
-    attrs = {
-        "electrochemistry": electrochemistry,
-        "layout": layout,
-        "start_soc": start_soc,
-        "start_temperature_C": start_temperature_C,
-        "heat_capacity_J_per_K": thermal.heat_capacity_J_per_K,
-        "collector_resistance_ohm": r_collector,
-        "output_interval_s": output_interval_s or "auto",
-        "duty": [s.step.describe() for s in steps],
-        "cooling": _describe(cooling),
-        "hydraulics": _hydraulics(cooling, _mean_into_coolant(per_cell), cell),
-        "rod_mesh": mesh or {},
-        "rods": list(rod_grid) if rod_grid is not None else [1, 1],
+    attrs = run_attrs(cell, cooling, steps, electrochemistry=electrochemistry, layout=layout,
+                      start_soc=start_soc, start_temperature_C=start_temperature_C,
+                      thermal=thermal, r_collector=r_collector,
+                      output_interval_s=output_interval_s,
+                      into_coolant_W=_mean_into_coolant(per_cell), mesh=mesh, rod_grid=rod_grid)
+    attrs.update({
         "module_cells": cells,
         "module_coupling": ("cells in series (one current; voltage = string voltage / cells); "
                             "cell k's coolant inlet = cell k-1's outlet at each time step "
                             "(coolant transit time neglected)"),
-    }
+    })
     return _dataset(record, per_cell, cell=cell, grid=the_grid, cells=cells, attrs=attrs)
 
 

@@ -139,7 +139,19 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     # the plate's hydraulics see the mean heat this cell puts into the coolant
     into_coolant = record.rejected_by_sink.get(sinks.coolant.name, []) if sinks.coolant else []
     mean_rejected = float(np.mean(into_coolant)) if into_coolant else 0.0
-    attrs = {
+    attrs = run_attrs(cell, cooling, steps, electrochemistry=electrochemistry, layout=layout,
+                      start_soc=start_soc, start_temperature_C=start_temperature_C,
+                      thermal=thermal, r_collector=r_collector,
+                      output_interval_s=output_interval_s, into_coolant_W=mean_rejected,
+                      mesh=mesh, rod_grid=rod_grid if layout == "distributed" else None)
+    attrs["cell_position"] = position
+    return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
+
+
+def run_attrs(cell, cooling, steps, *, electrochemistry, layout, start_soc, start_temperature_C,
+              thermal, r_collector, output_interval_s, into_coolant_W, mesh, rod_grid) -> dict:
+    """The model settings a results Dataset carries (shared by a single run and a module)."""
+    return {
         "electrochemistry": electrochemistry,
         "layout": layout,
         "start_soc": start_soc,
@@ -149,12 +161,10 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         "output_interval_s": output_interval_s or "auto",
         "duty": [s.step.describe() for s in steps],
         "cooling": _describe(cooling),
-        "hydraulics": _hydraulics(cooling, mean_rejected, cell),
-        "cell_position": position,
+        "hydraulics": _hydraulics(cooling, into_coolant_W, cell),
         "rod_mesh": mesh or {},
-        "rods": list(rod_grid) if layout == "distributed" else [1, 1],
+        "rods": list(rod_grid) if rod_grid is not None else [1, 1],
     }
-    return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
 
 
 def _settings(cell, output_interval_s) -> Settings:
