@@ -379,3 +379,58 @@ def test_real_module_sizing_in_the_app():
     assert f"{result.value:.6g} {unit}" in text and f"step of {step:g} {unit}" in text
     head = app_widget._LIMITED_BY[result.limited_by][0]
     assert head in text
+
+
+# ---------------------------------------------------------------------------------------------
+# display details seen in a browser (driven here without one)
+
+
+def test_figure_on_a_newly_shown_tab_is_refitted_to_its_width():
+    # a plotly figure first drawn on a hidden tab keeps plotly's 700 px default width until the
+    # browser is asked to measure again: showing the tab sends a relayout with `autosize`
+    from explorer.app.live import figure_widgets_available
+
+    if not figure_widgets_available():
+        pytest.skip("plotly FigureWidget needs the anywidget package")
+    app = explorer.explore()
+    sent = []
+    app.fig_traces.figure.observe(lambda ch: sent.append(ch["new"]), names="_py2js_relayout")
+    traces_tab = app._tab_figures.index([app.fig_traces])
+    for _ in range(2):  # every time the tab is shown, not only the first
+        sent.clear()
+        app.output_tabs.selected_index = traces_tab
+        assert any(m and m["relayout_data"].get("autosize") is True for m in sent)
+        app.output_tabs.selected_index = 0
+
+
+def test_limit_numbers_and_units_stay_on_one_line():
+    text = app_widget.limits_html(synthetic_dataset(), explorer.Limits(temperature_max_C=45.0,
+                                                                       spread_K=20.0))
+    for row in _limit_rows(text).values():
+        numbers = row.split("</td>")[1:4]  # limit, figure, margin
+        assert all("white-space:nowrap" in cell for cell in numbers)
+
+
+@needs_verdicts
+def test_headline_met_points_at_the_warning_of_a_cut_short_run():
+    ds = synthetic_dataset()
+    limits = explorer.Limits(temperature_max_C=200.0)  # invented, far above the synthetic run
+    if not limits.check(ds)["warnings"]:  # no warning: a plain "every limit met"
+        assert "warning below" not in app_widget.limits_html(ds, limits)
+    ds.attrs.update(status="cut_short", status_message="t = 1234 s: cut short (invented)",
+                    duty_step_ends=json.dumps([{"index": 0, "label": "profile",
+                                                "ended_by": "safety_limit", "quantity": "voltage",
+                                                "threshold": 2.7, "time_s": 1234.0}]))
+    if not limits.check(ds)["met"] or not limits.check(ds)["warnings"]:
+        pytest.skip("the synthetic cut-short run is not 'met with a warning' here")
+    head = _text(app_widget.limits_html(ds, limits)).split("</h4>")[0]
+    assert "every limit met" in head and "⚠ read with the warning below" in head
+
+
+def test_sizing_answer_names_the_parameter_as_the_size_menu_does():
+    result = SyntheticSizing(vary="fin_mm")
+    result.value, result.unit, result.resolution, result.limited_by = 1.55, "mm", 0.05, "limits"
+    result.hydraulics, result.module, result.warnings = {}, None, []
+    head = _text(app_widget.sizing_html(result, None)).split("</h4>")[0]
+    assert head.startswith("<h4>Fin thickness = 1.55 mm")
+    assert "0 = none" not in head

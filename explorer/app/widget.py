@@ -282,6 +282,8 @@ class ExplorerApp(widgets.VBox):
         for k, figures in enumerate(self._tab_figures):
             for live in figures:
                 live.show(k == selected)
+                if k == selected:
+                    _refit(live)
 
     # -----------------------------------------------------------------------------------------
     # inputs
@@ -735,6 +737,20 @@ class ExplorerApp(widgets.VBox):
         return f"<ExplorerApp: {state}, {len(self.pinned)} pinned>"
 
 
+def _refit(live) -> None:
+    """Make a shown figure widget take its tab's width again.
+
+    A plotly figure drawn while its tab is hidden has no width to read and keeps plotly's 700 px
+    default; a relayout with ``autosize`` makes the browser measure the now visible tab (the
+    first assignment clears it so the second is always sent).
+    """
+    if not getattr(live, "native", False):
+        return  # a plain figure is redrawn into its visible Output, at the right width
+    layout = live.figure.layout
+    layout.autosize = None
+    layout.autosize = True
+
+
 def _with_suffix(path: str, suffix: str) -> str:
     p = Path(path.strip() or "scenario")
     return str(p.with_suffix(suffix))
@@ -777,6 +793,9 @@ _NOT_MET = "<b style='color:#B2182B'>NOT met</b>"
 _NOT_EVALUATED_STYLE = "color:#8A5A00"
 _WARNING_STYLE = ("background:#FFF4E0;border-left:4px solid #E69F00;padding:0.3em 0.6em;"
                   "margin:0.3em 0;white-space:pre-wrap")
+_NUMBER_STYLE = "text-align:right;white-space:nowrap"  # "45 °C" stays on one line
+_TABLE_CSS = ("<style>.pte-table td,.pte-table th{padding:1px 8px;text-align:left;"
+              "vertical-align:top}</style>")
 _DISPLAY_UNITS = {"degC": "°C", "W/(m2 K)": "W/(m² K)", "um": "µm", "1": ""}
 _CHANNELS_ONLY = ("pressure_drop", "pump_power", "Pressure drop", "Pump power")
 
@@ -891,21 +910,23 @@ def limits_html(ds, limits) -> str:
         where = f" (cell {_esc(cell)})" if cell is not None else ""
         lines.append(
             f"<tr><td>{_esc(_limit_label(name))}</td>"
-            f"<td style='text-align:right'>{getattr(limits, name):.4g} {_esc(unit)}</td>"
-            f"<td style='text-align:right'>"
+            f"<td style='{_NUMBER_STYLE}'>{getattr(limits, name):.4g} {_esc(unit)}</td>"
+            f"<td style='{_NUMBER_STYLE}'>"
             f"{'—' if figure is None else f'{figure:.4g} {_esc(unit)}{where}'}</td>"
-            f"<td style='text-align:right'>"
+            f"<td style='{_NUMBER_STYLE}'>"
             f"{'—' if margin is None else f'{margin:+.3g} {_esc(delta)}'}</td>"
             f"<td>{text}{mark}</td></tr>")
     if check["met"]:
         overall = "every limit met"
+        if warnings:  # a headline "met" must not hide that the run was cut short
+            overall += " <span style='color:#8A5A00'>⚠ read with the warning below</span>"
     elif any(v == "not met" for v in check["verdicts"].values()):
         overall = f"<b style='color:#B2182B'>NOT met</b> (worst: {_esc(_limit_label(check['worst']))})"
     else:
         overall = (f"<span style='{_NOT_EVALUATED_STYLE}'>not every limit could be evaluated; no "
                    "verdict on those</span>")
     return (f"<h4>Limits (margin = limit − figure): {overall}</h4>{_warnings_html(warnings)}"
-            "<table><tr><th>limit on</th><th>limit</th><th>figure</th><th>margin</th><th>verdict"
+            f"{_TABLE_CSS}<table class='pte-table'><tr><th>limit on</th><th>limit</th><th>figure</th><th>margin</th><th>verdict"
             f"</th></tr>{''.join(lines)}</table>")
 
 
@@ -957,7 +978,8 @@ def module_html(ds, limits=None) -> str:
             f"{_warnings_html(warnings)}"
             f"<p>Cell-to-cell difference (largest minus smallest cell mean temperature at one "
             f"time): <b>{c2c:.3g} K</b> — {against}</p>"
-            "<table><tr><th>cell</th><th>peak, hottest point anywhere (°C)</th>"
+            f"{_TABLE_CSS}<table class='pte-table'><tr><th>cell</th>"
+            "<th>peak, hottest point anywhere (°C)</th>"
             f"<th>coolant outlet, highest (°C)</th></tr>{''.join(rows)}</table>")
 
 
@@ -985,6 +1007,15 @@ _LIMITED_BY = {  # limited_by -> (what decided the answer, in words)
 }
 
 
+def _parameter_name(vary: str) -> str:
+    """The varied parameter in words, as the Size menu names it without its unit ("fin
+    thickness", not the input label "Fin thickness, 0 = none")."""
+    for value, text in FIELDS["size_vary"].choices:
+        if value == vary:
+            return text.split(" (")[0]
+    return FIELDS[vary].label if vary in FIELDS else vary
+
+
 def sized_run(result):
     """The run at the sized value: the whole module when it was judged as one, else the cell."""
     module = getattr(result, "module", None)
@@ -997,7 +1028,8 @@ def sizing_html(result, limits) -> str:
     vary = result.vary
     unit = _display_unit(result.unit)
     u = f" {unit}" if unit else ""
-    label = FIELDS[vary].label if vary in FIELDS else vary
+    label = _parameter_name(vary)
+    label = label[:1].upper() + label[1:]
     step = f" (rounded in the safe direction to a step of {result.resolution:g}{u})"
     verdict = "meets the limits" if result.feasible else _NOT_MET
     head, why = _LIMITED_BY.get(result.limited_by, (f"limited by {result.limited_by}", ""))
