@@ -335,6 +335,14 @@ def _warnings(ds, lumped: bool) -> list[str]:
     if lumped:
         out.append("layout 'single': one temperature over the face; figures over the face are "
                    "not seen")
+    from explorer.results import is_module
+
+    path = int(float(ds.attrs.get("cells_on_coolant_path", 1) or 1))
+    if path > 1 and not is_module(ds):
+        out.append(f"one cell (position {ds.attrs.get('cell_position', '?')}) of the {path} on "
+                   "its coolant path was run, its upstream cells taken as equal to it; the "
+                   "module's worst cell and cell-to-cell difference need "
+                   "explorer.simulate_module")
     return out
 
 

@@ -145,6 +145,9 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
                       output_interval_s=output_interval_s, into_coolant_W=mean_rejected,
                       mesh=mesh, rod_grid=rod_grid if layout == "distributed" else None)
     attrs["cell_position"] = position
+    # cells in series on this cell's coolant path: more than one means a module verdict needs
+    # explorer.simulate_module (the limits check says so)
+    attrs["cells_on_coolant_path"] = _cells_on_path(cooling)
     return to_dataset(record, cell=cell, grid=the_grid, attrs=attrs)
 
 
@@ -250,6 +253,11 @@ def _position(cooling, position):
         raise InputError(f"simulate: `position` must be a whole number >= 0 (0 = the first cell "
                          f"the coolant meets), or None for the last cell; got {position!r}"
                          ) from None
+
+
+def _cells_on_path(cooling) -> int:
+    positions = getattr(cooling, "positions_to_check", None) if cooling is not None else None
+    return int(max(positions())) + 1 if positions else 1
 
 
 def _sinks(cooling, cell, grid, position) -> Sinks:

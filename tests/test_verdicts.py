@@ -253,3 +253,24 @@ def test_older_dataset_without_surface_temperatures(one_face):
     core = float(one_face["temperature_core_max"].max())
     assert check["figures"]["temperature_max_C"] == pytest.approx(core)
     assert any("older version" in w for w in check["warnings"])
+
+
+def test_one_cell_of_a_shared_coolant_path_says_the_module_was_not_run():
+    """DESIGN.md verdict rule 3: cells sharing a coolant path are judged as one module. A single
+    cell of such a path (``simulate(position=k)``) carries a warning that says so; a design with
+    one cell per path does not."""
+    import explorer
+    from explorer import cooling, duty
+
+    cell = explorer.load_cell("van_nmc_66ah")
+    short = duty.discharge(c_rate=1.0, end_time_s=60)
+    limits = explorer.Limits(temperature_max_C=45.0)
+    shared = cooling.edge_plate(cooling.cold_plate(coolant="water", flow_L_min=2.0, inlet_C=25.0,
+                                                   cells_per_plate=4))
+    one = explorer.simulate(cell, short, shared, grid=(6, 4), position=1)
+    warnings = limits.check(one)["warnings"]
+    assert any("position 1" in w and "of the 4" in w and "simulate_module" in w
+               for w in warnings)
+    alone = cooling.edge_plate(cooling.cold_plate(coolant="water", flow_L_min=2.0, inlet_C=25.0))
+    ds = explorer.simulate(cell, short, alone, grid=(6, 4))
+    assert not any("simulate_module" in w for w in limits.check(ds)["warnings"])
