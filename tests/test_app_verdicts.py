@@ -434,3 +434,20 @@ def test_sizing_answer_names_the_parameter_as_the_size_menu_does():
     head = _text(app_widget.sizing_html(result, None)).split("</h4>")[0]
     assert head.startswith("<h4>Fin thickness = 1.55 mm")
     assert "0 = none" not in head
+
+
+def test_placeholder_text_is_cleared_from_the_browser_when_results_arrive(fake_runs):
+    # the browser merges a new layout into the old one: the placeholder's "Run to see ..." text
+    # must be removed explicitly when the result's figure has no annotations (the heat split)
+    from explorer.app.live import figure_widgets_available
+
+    if not figure_widgets_available():
+        pytest.skip("plotly FigureWidget needs the anywidget package")
+    app = explorer.explore()
+    fig = app.fig_heat.figure
+    assert fig.layout.annotations  # the placeholder text
+    sent = []
+    fig.observe(lambda ch: sent.append(ch["new"]), names="_py2js_relayout")
+    app.run()
+    assert not fig.layout.annotations
+    assert any(m and m["relayout_data"].get("annotations") == [] for m in sent)

@@ -485,10 +485,10 @@ class ExplorerApp(widgets.VBox):
                                       "sharing the coolant (Cooling tab) to run the module along "
                                       "the plate.</p>")
             if not self.fig_module.empty:  # an earlier module must not pass for this run
-                self.fig_module.replace(_placeholder("the last run was one cell",
+                _replace(self.fig_module, _placeholder("the last run was one cell",
                                                      self.fig_module.figure.layout.height))
             return
-        self.fig_module.replace(plots.module_figure(ds, limits=self._limits))
+        _replace(self.fig_module, plots.module_figure(ds, limits=self._limits))
         self.module_text.value = module_html(ds, self._limits)
         options = [(f"cell {c}" + (" (the hottest)" if k == cell else ""), k)
                    for k, c in enumerate(ds["cell"].values)]
@@ -513,9 +513,9 @@ class ExplorerApp(widgets.VBox):
         index = int(np.nanargmax(ds[hottest].values)) if n else 0  # open at the peak
         for live, variable in self._field_figures():
             if variable in ds:
-                live.replace(plots.field_figure(ds, variable, index=index, animate=False))
+                _replace(live, plots.field_figure(ds, variable, index=index, animate=False))
             else:  # a module run keeps only each cell's mean SOC
-                live.replace(_placeholder(f"{plots.FIELDS[variable][0]}: no field recorded for "
+                _replace(live, _placeholder(f"{plots.FIELDS[variable][0]}: no field recorded for "
                                           "this run", live.figure.layout.height))
         traces = plots.traces_figure(ds, limits=self._limits)
         _, _, divisor = plots.time_axis(ds)
@@ -523,12 +523,12 @@ class ExplorerApp(widgets.VBox):
         traces.add_vline(x=t0, line=dict(color="#555", width=1), row="all", col=1,
                          name=_TIME_MARKER)
         self._marker_shape = [k for k, s in enumerate(traces.layout.shapes) if s.name == _TIME_MARKER]
-        self.fig_traces.replace(traces)
+        _replace(self.fig_traces, traces)
         heat = plots.heat_split_figure(heat_view(self.dataset))
         if "cell" in self.dataset.dims:
             heat.update_layout(title_text=f"Heat generation by source, whole module "
                                           f"({self.dataset.sizes['cell']} cells)")
-        self.fig_heat.replace(heat)
+        _replace(self.fig_heat, heat)
         self.summary.value = self._summary_html(ds, self.dataset)
         self.play.max = max(0, n - 1)
         self.time_slider.max = max(0, n - 1)
@@ -624,7 +624,7 @@ class ExplorerApp(widgets.VBox):
             return
         named = {name: ds for name, (ds, _) in self.pinned.items()}
         views = {name: cell_view(ds)[0] for name, ds in named.items()}  # a module: its hottest
-        self.fig_compare.replace(plots.comparison_figure(views, limits=self._limits))
+        _replace(self.fig_compare, plots.comparison_figure(views, limits=self._limits))
         self.compare_table.value = _compare_html(named)
 
     # -----------------------------------------------------------------------------------------
@@ -686,7 +686,7 @@ class ExplorerApp(widgets.VBox):
         self.last_error = None
         self.sizing = result
         self._limits = call.limits
-        self.fig_sizing.replace(plots.sizing_figure(result, limits=call.limits))
+        _replace(self.fig_sizing, plots.sizing_figure(result, limits=call.limits))
         self.sizing_text.value = sizing_html(result, call.limits)
         self.status.value = f"sized in {time.perf_counter() - t0:.1f} s"
         run = sized_run(result)
@@ -735,6 +735,21 @@ class ExplorerApp(widgets.VBox):
         state = "no result" if self.dataset is None else \
             f"last run {self.dataset.attrs.get('cell_name', '')} ({self.dataset.attrs.get('status')})"
         return f"<ExplorerApp: {state}, {len(self.pinned)} pinned>"
+
+
+def _replace(live, source) -> None:
+    """``live.replace(source)``, first clearing the annotations and shapes ``source`` lacks.
+
+    A figure widget swapped for one with other traces gets the new layout as a relayout, which
+    merges: a key the new layout lacks keeps its old value in the browser (the placeholder's
+    "Run to see ..." text stayed over the heat split).
+    """
+    if getattr(live, "native", False):
+        layout = live.figure.layout
+        for key in ("annotations", "shapes"):
+            if layout[key] and not source.layout[key]:
+                layout[key] = ()
+    live.replace(source)
 
 
 def _refit(live) -> None:
