@@ -552,7 +552,7 @@ def sizing_figure(result, limits=None, vary: str | None = None) -> go.Figure:
         fig.add_trace(go.Scatter(x=[value], y=[float(np.interp(value, v, spread))], mode="markers",
                                  marker=dict(size=12, symbol="diamond", color="#000000"),
                                  showlegend=False, name="design point"), row=2, col=1)
-    verdict = f"design point {vary} = {value:.4g}" if value is not None and feasible else \
+    verdict = f"design point {_axis_label(vary)} = {value:.4g}" if value is not None and feasible else \
         "no value within the bounds meets the limits"
     fig.update_layout(**_LAYOUT)
     fig.update_layout(title=dict(text=f"Sizing: {verdict}"), height=560, hovermode="closest")

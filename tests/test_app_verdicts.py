@@ -451,3 +451,9 @@ def test_placeholder_text_is_cleared_from_the_browser_when_results_arrive(fake_r
     app.run()
     assert not fig.layout.annotations
     assert any(m and m["relayout_data"].get("annotations") == [] for m in sent)
+
+
+def test_sizing_figure_title_names_the_parameter_with_its_unit():
+    result = SyntheticSizing(vary="flow_L_min")
+    title = plots.sizing_figure(result).layout.title.text  # the synthetic result is feasible
+    assert "flow (L/min) = " in title and "flow_L_min" not in title
