@@ -183,13 +183,17 @@ def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None)
     j, i = np.unravel_index(k, z.shape)
     t = float(ds["time"].values[index])
     word = "lowest" if variable == "soc" else "hottest" if variable == "temperature" else "peak"
+    # the picture is the through-thickness mean: its hottest point is not the hottest anywhere
+    # (core included) that the limits hold, so the title says which it is; a module's cell is named
+    extreme = f"through-thickness mean, {word}" if variable == "temperature" else word
+    where = f", cell {ds['cell'].item()}" if "cell" in ds.coords and ds["cell"].ndim == 0 else ""
     return {
         "z": z,
         "spot_x_mm": float(ds["x"].values[i]) * 1e3,
         "spot_y_mm": float(ds["y"].values[j]) * 1e3,
         "spot_value": float(z[j, i]),
         "spot_word": word,
-        "title": f"{label} at t = {t:.0f} s — {word} {z[j, i]:.3g} {unit}",
+        "title": f"{label} at t = {t:.0f} s{where} — {extreme} {z[j, i]:.3g} {unit}",
     }
 
 

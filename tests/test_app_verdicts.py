@@ -457,3 +457,13 @@ def test_sizing_figure_title_names_the_parameter_with_its_unit():
     result = SyntheticSizing(vary="flow_L_min")
     title = plots.sizing_figure(result).layout.title.text  # the synthetic result is feasible
     assert "flow (L/min) = " in title and "flow_L_min" not in title
+
+
+def test_field_title_says_mean_field_and_which_cell_of_a_module():
+    # the temperature picture is the through-thickness mean; the limits hold the hottest point
+    # anywhere (core included), so the title must not pass for that figure
+    frame = plots.field_frame(synthetic_dataset(), "temperature", 0)
+    assert "— through-thickness mean, hottest " in frame["title"]
+    view, _ = app_widget.cell_view(module_dataset(cells=3), 1)
+    assert " s, cell 1 — " in plots.field_frame(view, "temperature", 0)["title"]
+    assert ", cell" not in plots.field_frame(synthetic_dataset(), "soc", 0)["title"]
