@@ -422,10 +422,10 @@ def heat_split_figure(ds) -> go.Figure:
     return fig
 
 
-_COMPARE = {
-    "temperature_max": ("Hottest point anywhere in the cell, core included (°C)", 1.0),
+_COMPARE = {  # axis titles fit a 260 px panel: the long ones break onto a second line
+    "temperature_max": ("Hottest point anywhere<br>(core included) (°C)", 1.0),
     "voltage": ("Terminal voltage (V)", 1.0),
-    "spread": ("In-cell spread, hottest minus coldest point (K)", 1.0),
+    "spread": ("In-cell spread<br>(hottest − coldest) (K)", 1.0),
     "soc_mean": ("State of charge (%)", 100.0),
     "heat_total": ("Generated heat (W)", 1.0),
     "temperature_mean": ("Face mean temperature (°C)", 1.0),

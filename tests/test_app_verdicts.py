@@ -467,3 +467,12 @@ def test_field_title_says_mean_field_and_which_cell_of_a_module():
     view, _ = app_widget.cell_view(module_dataset(cells=3), 1)
     assert " s, cell 1 — " in plots.field_frame(view, "temperature", 0)["title"]
     assert ", cell" not in plots.field_frame(synthetic_dataset(), "soc", 0)["title"]
+
+
+def test_comparison_axis_titles_fit_their_panels():
+    # three 260 px panels: a one-line title longer than ~30 characters ran into the next panel
+    fig = plots.comparison_figure({"a": synthetic_dataset(), "b": synthetic_dataset()})
+    for axis in (fig.layout.yaxis, fig.layout.yaxis2, fig.layout.yaxis3):
+        assert all(len(line) <= 30 for line in axis.title.text.split("<br>"))
+    table = app_widget._compare_html({"a": synthetic_dataset(), "b": synthetic_dataset()})
+    assert "class='pte-table'" in table  # padded columns, not run together

@@ -798,7 +798,7 @@ def _compare_html(named: dict) -> str:
         cells = "".join(f"<td style='color:#8A5A00'>{_esc('; '.join(w)) if w else '—'}</td>"
                         for w in warnings.values())
         rows.append(f"<tr><td>⚠ warnings (every figure of the run carries them)</td>{cells}</tr>")
-    return f"<table>{head}{''.join(rows)}</table>"
+    return f"{_TABLE_CSS}<table class='pte-table'>{head}{''.join(rows)}</table>"
 
 
 # ---------------------------------------------------------------------------------------------
