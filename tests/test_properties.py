@@ -123,6 +123,11 @@ KNOWN_ISSUES = {
     "huge-c-rate": "explorer/duty.py (STEPPER): discharge/charge/cc_cv_charge accept any finite "
                    "c_rate (e.g. 2.7e306, no upper bound); duty.resolve against a cell then "
                    "gives a current of -inf A",
+    "results-hang": "explorer/results.py open_results (owner of results I/O): a saved run with "
+                    "a few bytes overwritten inside (same length) can make "
+                    "xr.open_dataset(engine='netcdf4') spin at 100 % CPU for ever inside the "
+                    "HDF5 open (xarray file_manager._acquire_with_cache_info); no exception, so "
+                    "only a subprocess with a timeout or a header check before opening can help",
     "sizing-vary": "explorer/sizing.py (SIZING): size_cooling(..., vary=<list or dict>) raises "
                    "TypeError (unhashable) from `vary not in params`",
 }
@@ -386,12 +391,10 @@ def _saved_run() -> bytes:
 def test_results_file_damage(folder, data):
     """A damaged saved run opens to a Dataset or raises an InputError naming the file."""
     raw = _saved_run()
-    kind = data.draw(st.sampled_from(["truncate", "flip", "empty", "text"]), label="damage")
+    # Overwritten bytes inside the file are not drawn: KNOWN_ISSUES["results-hang"].
+    kind = data.draw(st.sampled_from(["truncate", "empty", "text"]), label="damage")
     if kind == "truncate":
         raw = raw[:data.draw(st.integers(0, len(raw) - 1), label="length")]
-    elif kind == "flip":
-        at = data.draw(st.integers(0, len(raw) - 1), label="offset")
-        raw = raw[:at] + data.draw(st.binary(min_size=1, max_size=8), label="bytes") + raw[at + 8:]
     elif kind == "empty":
         raw = b""
     else:
