@@ -476,3 +476,17 @@ def test_comparison_axis_titles_fit_their_panels():
         assert all(len(line) <= 30 for line in axis.title.text.split("<br>"))
     table = app_widget._compare_html({"a": synthetic_dataset(), "b": synthetic_dataset()})
     assert "class='pte-table'" in table  # padded columns, not run together
+
+
+def test_single_layout_shows_no_field_picture(fake_runs, monkeypatch):
+    # layout 'single' has one temperature over the face: a 1 x 1 "field" drew as a 1 mm square
+    monkeypatch.setattr(explorer, "simulate",
+                        lambda *a, progress=None, **k: synthetic_dataset(layout="single"))
+    app = explorer.explore(layout="single")
+    ds = app.run()
+    assert ds is not None, app.last_error
+    fig = app.fig_temperature.figure
+    assert len(fig.data) == 0
+    assert "one value over the face" in fig.layout.annotations[0].text
+    app.set_time(0)  # the time slider leaves the placeholder alone
+    assert len(fig.data) == 0 and app.time_label.value.startswith("t = ")

@@ -512,8 +512,12 @@ class ExplorerApp(widgets.VBox):
         hottest = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
         index = int(np.nanargmax(ds[hottest].values)) if n else 0  # open at the peak
         for live, variable in self._field_figures():
-            if variable in ds:
+            if _has_field(ds, variable):
                 _replace(live, plots.field_figure(ds, variable, index=index, animate=False))
+            elif variable in ds:  # layout 'single': one value, not a 1 mm square of colour
+                _replace(live, _placeholder(f"{plots.FIELDS[variable][0]}: one value over the "
+                                            "face (layout 'single'); no field to show",
+                                            live.figure.layout.height))
             else:  # a module run keeps only each cell's mean SOC
                 _replace(live, _placeholder(f"{plots.FIELDS[variable][0]}: no field recorded for "
                                           "this run", live.figure.layout.height))
@@ -553,7 +557,7 @@ class ExplorerApp(widgets.VBox):
             return
         self._time_index = index
         for live, variable in self._field_figures():
-            if variable not in ds:
+            if not _has_field(ds, variable):
                 continue
             frame = plots.field_frame(ds, variable, index)
             fig = live.figure
@@ -735,6 +739,11 @@ class ExplorerApp(widgets.VBox):
         state = "no result" if self.dataset is None else \
             f"last run {self.dataset.attrs.get('cell_name', '')} ({self.dataset.attrs.get('status')})"
         return f"<ExplorerApp: {state}, {len(self.pinned)} pinned>"
+
+
+def _has_field(ds, variable: str) -> bool:
+    """Whether ``ds`` holds ``variable`` as a field over the face (more than one point)."""
+    return variable in ds and ds.sizes.get("x", 1) * ds.sizes.get("y", 1) > 1
 
 
 def _replace(live, source) -> None:
