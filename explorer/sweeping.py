@@ -501,6 +501,12 @@ def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
     path = cache / f"{key}.nc"
     if not path.is_file():
         return None
+    # Damaged bytes inside a netCDF file can make the HDF5 open spin for ever: check the
+    # entry's checksum (written beside it) before opening it at all.
+    if _checksum(path) != _stored_checksum(path):
+        log.warning("sweep cache entry %s does not match its checksum; the case runs again and "
+                    "the entry is replaced", path)
+        return None
     try:
         with xr.open_dataset(path, engine="netcdf4") as ds:
             entry = ds.load()
@@ -535,7 +541,31 @@ def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
     # scheduler: a round trip per entry, and a Ctrl-C caught inside it left later writes
     # waiting forever. The entry is in memory: a local lock is the right one.
     with dask.config.set(scheduler="synchronous"):
-        write_netcdf(entry, cache / f"{key}.nc")
+        path = write_netcdf(entry, cache / f"{key}.nc")
+    from explorer.fileio import atomic_write_text
+
+    atomic_write_text(_checksum_path(path), _checksum(path) + "\n")
+
+
+def _checksum_path(path: Path) -> Path:
+    return path.with_name(path.name + ".sha256")
+
+
+def _checksum(path: Path) -> str:
+    """SHA-256 of a cache entry's bytes ('' when it cannot be read)."""
+    import hashlib
+
+    try:
+        return hashlib.sha256(path.read_bytes()).hexdigest()
+    except OSError:
+        return ""
+
+
+def _stored_checksum(path: Path) -> str | None:
+    try:
+        return _checksum_path(path).read_text(encoding="ascii").strip()
+    except (OSError, UnicodeDecodeError):
+        return None
 
 
 # --------------------------------------------------------------------------- execution

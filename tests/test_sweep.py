@@ -10,6 +10,7 @@ of explorer.simulate on a demo cell.
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -212,7 +213,35 @@ def test_cache_entry_is_checked_against_its_key(tmp_path, monkeypatch):
                progress=False)
     assert third.calls == 1
     xr.testing.assert_allclose(ds.drop_vars(BOOKKEEPING), ref.drop_vars(BOOKKEEPING))
-    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(p.name for p in entry.values())
+    expected = [p.name for p in entry.values()] + [p.name + ".sha256" for p in entry.values()]
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(expected)
+
+
+def test_damaged_cache_entry_is_recomputed_without_opening_it(tmp_path, monkeypatch):
+    """A few bytes overwritten inside an entry (same length) can make the HDF5 open spin for
+    ever: the checksum beside each entry is compared first, so the damaged entry is never opened
+    and the case runs again."""
+    plate = StandInPlate()
+    axes = {"flow_L_min": [1.0, 2.0]}
+    keys = _keys(plate, axes)
+    monkeypatch.setattr(sweep_mod, "_simulate", Counter())
+    ref = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+                progress=False)
+    path = tmp_path / f"{keys[(2.0,)]}.nc"
+    data = bytearray(path.read_bytes())
+    middle = len(data) // 2
+    data[middle:middle + 8] = bytes(255 - b for b in data[middle:middle + 8])
+    path.write_bytes(bytes(data))
+    opened = []
+    real_open = xr.open_dataset
+    monkeypatch.setattr(xr, "open_dataset", lambda p, *a, **k: opened.append(Path(p).name)
+                        or real_open(p, *a, **k))
+    again = Counter()
+    monkeypatch.setattr(sweep_mod, "_simulate", again)
+    ds = sweep(STANDIN_CELL, DUTY, plate, axes, scheduler="serial", cache_dir=tmp_path,
+               progress=False)
+    assert again.calls == 1 and path.name not in opened
+    xr.testing.assert_allclose(ds.drop_vars(BOOKKEEPING), ref.drop_vars(BOOKKEEPING))
 
 
 def test_cache_write_failure_does_not_stop_the_sweep(tmp_path, standin, monkeypatch, caplog):

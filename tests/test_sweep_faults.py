@@ -145,7 +145,9 @@ def _resume_and_check(tmp_path, monkeypatch, cache, first_log):
                progress=False)
     rerun = [case for what, case in _log(second_log) if what == "start"]
     assert sorted(rerun) == sorted(set(names.values()) - cached)  # none lost, none redone
-    assert sorted(p.name for p in cache.iterdir()) == sorted(f"{k}.nc" for k in names)
+    # every entry with its checksum beside it, no temporary file left
+    expected = [f"{k}.nc" for k in names] + [f"{k}.nc.sha256" for k in names]
+    assert sorted(p.name for p in cache.iterdir()) == sorted(expected)
     monkeypatch.setattr(sweep_mod, "_simulate", standin_simulate)
     ref = sweep(STANDIN_CELL, DUTY, plate, AXES, scheduler="serial", progress=False)
     xr.testing.assert_allclose(ds.drop_vars(BOOKKEEPING), ref.drop_vars(BOOKKEEPING))
