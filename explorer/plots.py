@@ -360,10 +360,14 @@ def traces_figure(ds, limits=None) -> go.Figure:
     fig.add_trace(go.Scatter(x=t, y=spread, name="spread of the mean field over the face",
                              line=dict(color=PALETTE[3], dash="dash")), row=4, col=1)
     if "temperature_hottest" in ds and "temperature_coldest" in ds:
+        # layout 'single' sees only the through-thickness part: a lower bound, not the spread
+        lumped = _lumped(ds)
         fig.add_trace(go.Scatter(x=t, y=ds["temperature_hottest"].values
                                  - ds["temperature_coldest"].values,
-                                 name="in-cell spread (hottest − coldest anywhere)",
-                                 line=dict(color=PALETTE[3])), row=4, col=1)
+                                 name=_LOWER_BOUND_SPREAD if lumped else
+                                 "in-cell spread (hottest − coldest anywhere)",
+                                 line=dict(color=PALETTE[3], dash="dot" if lumped else None)),
+                      row=4, col=1)
     lim = limit_values(ds, limits)
     if "datasheet_C" in lim:
         fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=3, col=1,
@@ -433,6 +437,15 @@ _COMPARE = {  # axis titles fit a 260 px panel: the long ones break onto a secon
 }
 
 
+_LOWER_BOUND_SPREAD = "through-thickness difference only (layout 'single': a lower bound)"
+
+
+def _lumped(ds) -> bool:
+    from explorer.results import is_lumped
+
+    return is_lumped(ds)
+
+
 def _series(ds, name: str) -> np.ndarray:
     """A comparison trace: the figures the verdicts read (hottest point anywhere, in-cell
     spread), the worst over a module's cells; per-cell series of a module are averaged."""
@@ -477,6 +490,11 @@ def comparison_figure(scenarios, variables: Sequence[str] = ("temperature_max", 
         t = np.asarray(ds["time"].values, dtype=float) / (60.0 if minutes else 1.0)
         color = PALETTE[k % len(PALETTE)]
         for row, var in enumerate(variables, start=1):
+            if var == "spread" and _lumped(ds):  # through the thickness only: a lower bound
+                fig.add_trace(go.Scatter(x=t, y=_series(ds, var), legendgroup=name,
+                                         name=f"{name}: {_LOWER_BOUND_SPREAD}",
+                                         line=dict(color=color, dash="dot")), row=row, col=1)
+                continue
             fig.add_trace(go.Scatter(x=t, y=_series(ds, var), name=name, legendgroup=name,
                                      showlegend=row == 1, line=dict(color=color)), row=row, col=1)
     lim = limit_values(next(iter(named.values())), limits)

@@ -490,3 +490,32 @@ def test_single_layout_shows_no_field_picture(fake_runs, monkeypatch):
     assert "one value over the face" in fig.layout.annotations[0].text
     app.set_time(0)  # the time slider leaves the placeholder alone
     assert len(fig.data) == 0 and app.time_label.value.startswith("t = ")
+
+
+def test_compare_gives_no_difference_to_a_figure_not_evaluated():
+    # a spread not evaluated (layout 'single') against an evaluated one: the second column must
+    # read as its own figure, not "7.40 (not evaluated ...)"
+    table = _text(app_widget._compare_html({"single": synthetic_dataset(layout="single"),
+                                            "averaged": synthetic_dataset()}))
+    spread_row = [r for r in table.split("<tr>") if r.startswith("<td>Largest in-cell spread")][0]
+    first, second = spread_row.split("</td>")[1:3]
+    assert "not evaluated" in first
+    assert "not evaluated" not in second and "(" not in second
+
+
+def test_single_layout_spread_is_drawn_as_a_lower_bound():
+    # layout 'single' sees only the through-thickness difference; drawn beside the spread limit
+    # as "in-cell spread" it passed for the figure the verdict calls not evaluated
+    single, averaged = synthetic_dataset(layout="single"), synthetic_dataset()
+    for ds in (single, averaged):  # the through-thickness extremes a real run records
+        ds["temperature_hottest"] = ds["temperature_core_max"]
+        ds["temperature_coldest"] = ds["temperature_min"]
+    names = [tr.name for tr in plots.traces_figure(single).data]
+    assert "in-cell spread (hottest − coldest anywhere)" not in names
+    assert any("lower bound" in n for n in names)
+    assert "in-cell spread (hottest − coldest anywhere)" in [
+        tr.name for tr in plots.traces_figure(averaged).data]
+    fig = plots.comparison_figure({"one": single, "two": averaged})
+    spread = [tr for tr in fig.data if tr.yaxis == "y2"]
+    assert [("lower bound" in tr.name, tr.line.dash) for tr in spread] == [(True, "dot"),
+                                                                            (False, None)]

@@ -797,7 +797,8 @@ def _compare_html(named: dict) -> str:
         for n in names[1:]:
             value = figs[n].get(key)
             _, vtext = format_figure(key, value)
-            if isinstance(value, float) and isinstance(base, float):
+            if isinstance(value, float) and isinstance(base, float) and \
+                    np.isfinite(value) and np.isfinite(base):  # no Δ to a figure not evaluated
                 _, dtext = format_figure(key, value - base)
                 vtext = f"{vtext} ({'+' if value >= base else ''}{dtext})"
             cells.append(f"<td style='text-align:right'>{_esc(vtext)}</td>")
