@@ -382,7 +382,12 @@ def traces_figure(ds, limits=None) -> go.Figure:
                       annotation_text=f"spread limit {lim['spread_K']:g} K",
                       annotation_position="top left")
     fig.update_layout(**_LAYOUT)
-    fig.update_layout(title=dict(text=_run_title(ds)), height=820)
+    # eleven legend entries run to six rows of two in a notebook-wide figure: room for them
+    # above the plots, under the title (the fixed 110 px let them cover the title)
+    rows = -(-sum(1 for tr in fig.data if tr.showlegend is not False) // 2)
+    top = max(_LAYOUT["margin"]["t"], 50 + 21 * rows)
+    fig.update_layout(title=dict(text=_run_title(ds)), height=820 + top - _LAYOUT["margin"]["t"],
+                      margin=dict(t=top))
     fig.update_yaxes(title_text="Voltage (V)", row=1, col=1)
     fig.update_yaxes(title_text="Current (A)", row=2, col=1)
     fig.update_yaxes(title_text="Temperature (°C)", row=3, col=1)
@@ -437,7 +442,7 @@ _COMPARE = {  # axis titles fit a 260 px panel: the long ones break onto a secon
 }
 
 
-_LOWER_BOUND_SPREAD = "through-thickness difference only (layout 'single': a lower bound)"
+_LOWER_BOUND_SPREAD = "through-thickness only (lower bound)"  # layout 'single'
 
 
 def _lumped(ds) -> bool:

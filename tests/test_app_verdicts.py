@@ -519,3 +519,10 @@ def test_single_layout_spread_is_drawn_as_a_lower_bound():
     spread = [tr for tr in fig.data if tr.yaxis == "y2"]
     assert [("lower bound" in tr.name, tr.line.dash) for tr in spread] == [(True, "dot"),
                                                                             (False, None)]
+
+
+def test_traces_legend_has_room_under_the_title():
+    # at notebook widths the legend wraps to two entries a row; it grew up over the title
+    fig = plots.traces_figure(synthetic_dataset(), limits=explorer.Limits(temperature_max_C=45.0))
+    entries = sum(1 for tr in fig.data if tr.showlegend is not False)
+    assert fig.layout.margin.t >= 50 + 20 * -(-entries // 2)
