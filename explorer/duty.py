@@ -18,12 +18,13 @@ from __future__ import annotations
 
 import csv
 import math
+import os
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 
-from explorer.validators import InputError
+from explorer.validators import InputError, check_integer, short_repr
 
 QUANTITIES = ("voltage", "current", "soc", "temperature", "time")
 # Units accepted in a profile CSV header, converted to SI by these factors.
@@ -32,6 +33,12 @@ _PROFILE_UNITS = {
     "current": {"A": 1.0, "mA": 1e-3},
     "power": {"W": 1.0, "kW": 1e3, "mW": 1e-3},
 }
+# Upper bounds that keep a duty meaningful and its resolved values finite: no cell is run at
+# more than 100 C (common practice: high-power cells are rated to tens of C at most), and a
+# repeated cycle is a list held in memory.
+MAX_C_RATE = 100.0
+MAX_REPEATS = 10_000
+MAX_REPEATED_STEPS = 100_000
 
 
 @dataclass(frozen=True)
@@ -146,6 +153,12 @@ def _positive(where, name, value) -> float:
     return v
 
 
+def _c_rate_bound(where, name, value: float, given) -> None:
+    if value > MAX_C_RATE:
+        raise InputError(f"{where}: `{name}` must be at most {MAX_C_RATE:g} (C-rate), got "
+                         f"{short_repr(given)}")
+
+
 def _one_of(where, **given):
     chosen = {k: v for k, v in given.items() if v is not None}
     if len(chosen) != 1:
@@ -158,6 +171,7 @@ def _one_of(where, **given):
 def _constant(where, sign, c_rate, current_A, power_W, ends, label):
     name, value = _one_of(where, c_rate=c_rate, current_A=current_A, power_W=power_W)
     if name == "c_rate":
+        _c_rate_bound(where, "c_rate", value, c_rate)
         return Step("current", c_rate=sign * value, ends=ends, label=label,
                     default_limit=not any(e.quantity == "voltage" for e in ends))
     kind = "current" if name == "current_A" else "power"
@@ -203,7 +217,9 @@ def hold_voltage(voltage_V=None, *, end_current_A=None, end_c_rate=None, end_tim
     if end_current_A is None and end_c_rate is None:
         end_c_rate = 0.05
     if end_c_rate is not None:
+        given = end_c_rate
         end_c_rate = _positive("duty.hold_voltage", "end_c_rate", end_c_rate)
+        _c_rate_bound("duty.hold_voltage", "end_c_rate", end_c_rate, given)
     ends = _ends("duty.hold_voltage", current_A=end_current_A, time_s=end_time_s,
                  temperature_C=end_temperature_C)
     return Step("voltage", value=v, ends=ends, end_c_rate=end_c_rate, default_limit=False,
@@ -226,12 +242,18 @@ def cc_cv_charge(c_rate, *, end_c_rate=0.05, voltage_V=None, end_temperature_C=N
 
 
 def repeat(steps, times: int) -> list[Step]:
-    """The steps ``times`` times over (a cycle)."""
-    if int(times) != times or times < 1:
-        raise InputError(f"duty.repeat: `times` must be a whole number >= 1, got {times!r}")
+    """The steps ``times`` times over (a cycle); at most ``MAX_REPEATS`` times and
+    ``MAX_REPEATED_STEPS`` steps in all."""
+    try:
+        times = check_integer("times", times, 1, MAX_REPEATS)
+    except InputError as exc:
+        raise InputError(f"duty.repeat: {exc}") from None
     steps = as_steps(steps)
+    if len(steps) * times > MAX_REPEATED_STEPS:
+        raise InputError(f"duty.repeat: {len(steps)} step(s) `times` {times} makes "
+                         f"{len(steps) * times:,} steps; at most {MAX_REPEATED_STEPS:,}")
     out = []
-    for k in range(int(times)):
+    for k in range(times):
         out.extend(replace(s, label=f"{s.label} #{k + 1}") for s in steps)
     return out
 
@@ -248,7 +270,10 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
     the next; the profile ends at the last time. The cell's voltage window
     guards it: reaching the window cuts the duty short (run status "cut_short").
     """
-    path = Path(path)
+    path = _profile_path(path)
+    if label is not None and not isinstance(label, str):
+        raise InputError(f"duty.profile_csv: `label` must be a string, got "
+                         f"{type(label).__name__} {short_repr(label)}")
     where = f"{path}"
     text = _read_text(path)
     numbered = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1)
@@ -299,6 +324,21 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
                 profile_value=tuple(data[quantity].tolist()), profile_quantity=quantity,
                 label=label or path.stem, source=str(path),
                 default_limit=end_voltage_V is None)
+
+
+def _profile_path(path) -> Path:
+    """``path`` as a Path: a non-empty str or os.PathLike naming a file (no NUL character)."""
+    text = os.fspath(path) if isinstance(path, str | os.PathLike) else None
+    if not isinstance(text, str):
+        raise InputError(f"duty.profile_csv: `path` must be a file path (str or pathlib.Path), "
+                         f"got {type(path).__name__} {short_repr(path)}")
+    if not text.strip():
+        raise InputError(f"duty.profile_csv: `path` is empty ({short_repr(text)}); expected "
+                         "the path of a profile CSV file")
+    if "\x00" in text:
+        raise InputError(f"duty.profile_csv: `path` {short_repr(text)} contains a NUL "
+                         "character; expected the path of a profile CSV file")
+    return Path(text)
 
 
 def _read_text(path: Path) -> str:
@@ -411,6 +451,10 @@ def resolve(step: Step, cell) -> ResolvedStep:
         else:
             ends.append(End("voltage", cell.voltage_max_V, "above", origin))
     value = 0.0 if value is None else float(value)
+    if not math.isfinite(value):  # e.g. a cell built in code with an absurd capacity
+        raise InputError(f"duty step {step.label!r}: resolves to {value!r} against the cell "
+                         f"{cell.name!r} (nominal capacity {capacity!r} A h); expected a finite "
+                         "load")
     return ResolvedStep(step, kind, value, ends, _expected_duration(kind, value, step, cell))
 
 

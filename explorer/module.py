@@ -62,8 +62,7 @@ from explorer.simulate import (
     run_attrs,
 )
 from explorer.stepping.distributed import FieldStepResult
-from explorer.stepping.run import HEAT_KEYS, check_output_interval, run
-from explorer.validators import InputError
+from explorer.stepping.run import HEAT_KEYS, check_output_interval, output_interval, run
 
 __all__ = ["simulate_module", "ModuleThermal", "ModuleRods", "module_cells"]
 
@@ -128,9 +127,7 @@ def simulate_module(cell, duty, cooling, electrochemistry: str = "spme",
     layout = _choice("layout", layout, LAYOUTS)
     start_soc = _number("start_soc", start_soc, 0.0, 1.0)
     start_temperature_C = _number("start_temperature_C", start_temperature_C, -40.0, 80.0)
-    if output_interval_s is not None and not output_interval_s > 0:
-        raise InputError(f"simulate_module: `output_interval_s` must be > 0, "
-                         f"got {output_interval_s!r}")
+    output_interval_s = output_interval(output_interval_s, "simulate_module")
     steps = [_duty.resolve(s, cell) for s in _duty.as_steps(duty)]
     check_output_interval(steps, output_interval_s, where="simulate_module")
     g = cell.geometry

@@ -12,7 +12,7 @@ from explorer.inplane.grid import Grid
 from explorer.inplane.lumped import LumpedThermal
 from explorer.inplane.sinks import Sinks
 from explorer.results import to_dataset
-from explorer.stepping.run import Coupling, Settings, check_output_interval, run
+from explorer.stepping.run import Coupling, Settings, check_output_interval, output_interval, run
 from explorer.validators import InputError, check_integer
 
 log = logging.getLogger(__name__)
@@ -99,8 +99,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     layout = _choice("layout", layout, LAYOUTS)
     start_soc = _number("start_soc", start_soc, 0.0, 1.0)
     start_temperature_C = _number("start_temperature_C", start_temperature_C, -40.0, 80.0)
-    if output_interval_s is not None and not output_interval_s > 0:
-        raise InputError(f"simulate: `output_interval_s` must be > 0, got {output_interval_s!r}")
+    output_interval_s = output_interval(output_interval_s)
     steps = [_duty.resolve(s, cell) for s in _duty.as_steps(duty)]
     check_output_interval(steps, output_interval_s)
 

@@ -162,6 +162,8 @@ def _as_float(name: str, value) -> float:
         out = float(value)
     except (TypeError, ValueError):
         raise InputError(f"`{name}`: expected a number, got {short_repr(value)}") from None
+    except OverflowError:  # an int beyond the float range
+        raise InputError(f"`{name}`: expected a finite number, got {short_repr(value)}") from None
     return out
 
 
@@ -239,14 +241,17 @@ def check_integer(name: str, value, low: int | None = None, high: int | None = N
     """Return ``value`` as an int if it is a whole number within the optional bounds."""
     if isinstance(value, bool):
         raise InputError(f"`{name}`: expected a whole number, got {short_repr(value)}")
-    try:
-        f = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"`{name}`: expected a whole number, "
-                         f"got {short_repr(value)}") from None
-    if not math.isfinite(f) or f != int(f):
-        raise InputError(f"`{name}`: expected a whole number, got {short_repr(value)}")
-    i = int(f)
+    if isinstance(value, int | np.integer):  # exact, also beyond the float range
+        i = int(value)
+    else:
+        try:
+            f = float(value)
+        except (TypeError, ValueError):
+            raise InputError(f"`{name}`: expected a whole number, "
+                             f"got {short_repr(value)}") from None
+        if not math.isfinite(f) or f != int(f):
+            raise InputError(f"`{name}`: expected a whole number, got {short_repr(value)}")
+        i = int(f)
     if (low is not None and i < low) or (high is not None and i > high):
         lo = "" if low is None else f"{low} <= "
         hi = "" if high is None else f" <= {high}"
@@ -264,13 +269,28 @@ def check_choice(name: str, value, choices: Iterable[str]) -> str:
     'top'
     """
     choices = tuple(choices)
-    if value not in choices:
+    if not _is_one_of(value, choices):
         import difflib
 
-        text = str(value)  # a near miss only for a short value: difflib is slow on a long one
-        close = (difflib.get_close_matches(text, [str(c) for c in choices], n=1)
-                 if len(text) <= VALUE_CHARS else [])
+        # a near miss only for a short string: difflib is slow on a long one
+        close = (difflib.get_close_matches(value, [str(c) for c in choices], n=1)
+                 if isinstance(value, str) and len(value) <= VALUE_CHARS else [])
         hint = f" (did you mean {close[0]!r}?)" if close else ""
         valid = ", ".join(repr(c) for c in choices)
         raise InputError(f"`{name}`: expected one of {valid}, got {short_repr(value)}{hint}")
     return value
+
+
+def _is_one_of(value, choices: tuple) -> bool:
+    """``value in choices`` without asking an array (or any odd object) for a truth value."""
+    if isinstance(value, str):
+        return value in choices
+    for c in choices:
+        if isinstance(c, str) or type(c) is not type(value):
+            continue
+        try:
+            if bool(c == value):
+                return True
+        except (TypeError, ValueError):  # e.g. arrays, whose == is elementwise
+            continue
+    return False

@@ -18,7 +18,6 @@ from explorer import duty
 from explorer.cell.loader import cell_from_text
 from explorer.inplane.lumped import LumpedThermal
 from explorer.inplane.sinks import Sinks
-from explorer.results import run_warnings
 from explorer.rod import RodParameters
 from explorer.rod.base import RodStepError
 from explorer.stepping.run import Settings, _extrapolation_error, run
@@ -71,33 +70,28 @@ def _ends(ds):
     return json.loads(ds.attrs["duty_step_ends"])
 
 
-def test_a_start_that_fails_ends_failed_with_the_initial_state(cell, monkeypatch):
+def test_a_start_that_fails_is_an_input_error_not_a_record_without_voltage(cell, monkeypatch):
+    """Nothing is computed when the cell model fails at rest at the start state: an InputError
+    naming the start state and the reason, never a record whose only point has no voltage."""
     def always_fails(res):
         raise RodStepError("invented failure")
 
     _wrap_rods(monkeypatch, always_fails)
-    ds = explorer.simulate(cell, duty.discharge(c_rate=1.0), layout="single")
-    assert ds.attrs["status"] == "failed"
-    assert "could not start" in ds.attrs["status_message"]
-    assert "invented failure" in ds.attrs["status_message"]
-    assert ds.sizes["time"] == 1  # the initial state, kept
-    assert float(ds.temperature_max[0]) == pytest.approx(25.0)
-    assert _ends(ds)[0]["ended_by"] == "solver"
-    assert run_warnings(ds) and "failed" in run_warnings(ds)[0]
+    with pytest.raises(InputError, match=r"could not start.*`start_soc`.*invented failure"):
+        explorer.simulate(cell, duty.discharge(c_rate=1.0), layout="single")
 
 
 def test_extreme_activation_energy_at_minus_20_fails_cleanly(cell):
     """A DFN whose start fails (electrolyte conductivity activation 1000 kJ/mol at -20 degC,
-    far outside any electrolyte) ends as "failed" rather than raising; the cell-file loader
-    refuses the value outright."""
+    far outside any electrolyte) is a clear InputError (nothing was computed to keep), not a
+    traceback from the solver; the cell-file loader refuses the value outright."""
     with pytest.raises(InputError, match="conductivity_activation"):
         _cell_with('conductivity_activation = "13 kJ/mol"',
                    'conductivity_activation = "1000 kJ/mol"')
     odd = _extreme(cell, "electrolyte", conductivity_activation_J_mol=1.0e6)
-    ds = explorer.simulate(odd, duty.discharge(c_rate=1.0), electrochemistry="dfn",
-                           layout="single", start_temperature_C=-20.0)
-    assert ds.attrs["status"] == "failed"
-    assert ds.sizes["time"] >= 1
+    with pytest.raises(InputError, match=r"could not start.*`start_temperature_C` -20"):
+        explorer.simulate(odd, duty.discharge(c_rate=1.0), electrochemistry="dfn",
+                          layout="single", start_temperature_C=-20.0)
 
 
 def test_a_rod_that_gives_up_midway_keeps_the_records_so_far(cell, monkeypatch):

@@ -14,9 +14,13 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
-from explorer.validators import InputError
+from explorer.validators import InputError, check_integer, short_repr
 
 __all__ = ["RodMesh", "ThroughMesh"]
+
+# Most cells per region (or shells) a mesh may ask for: far finer than any run needs, and it
+# keeps a mistyped size from allocating without end.
+MAX_MESH_CELLS = 1000
 
 
 @dataclass(frozen=True)
@@ -37,16 +41,15 @@ class RodMesh:
             return mesh
         if not isinstance(mesh, dict):
             raise InputError(f"`mesh`: expected None, a RodMesh or a dict with keys "
-                             f"{[f.name for f in fields(cls)]}, got {mesh!r}")
+                             f"{[f.name for f in fields(cls)]}, got {short_repr(mesh)}")
         valid = {f.name for f in fields(cls)}
-        unknown = set(mesh) - valid
+        unknown = [k for k in mesh if k not in valid]
         if unknown:
-            raise InputError(f"`mesh`: unknown key(s) {sorted(unknown)}; valid keys: {sorted(valid)}")
-        for k, v in mesh.items():
-            minimum = 3 if k == "shells" else 1
-            if isinstance(v, bool) or int(v) != v or v < minimum:
-                raise InputError(f"`mesh.{k}`: expected an integer of at least {minimum}, got {v!r}")
-        return cls(**{k: int(v) for k, v in mesh.items()})
+            raise InputError(f"`mesh`: unknown key(s) {short_repr(sorted(map(repr, unknown)))}; "
+                             f"valid keys: {sorted(valid)}")
+        # a whole number (1000.0 is fine), e.g. `mesh.shells`: a whole number 3 <= value <= 1000
+        return cls(**{k: check_integer(f"mesh.{k}", v, 3 if k == "shells" else 1,
+                                       MAX_MESH_CELLS) for k, v in mesh.items()})
 
 
 class ThroughMesh:

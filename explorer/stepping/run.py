@@ -37,8 +37,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from explorer.duty import End, ResolvedStep
-from explorer.rod.base import Control, RodStepError, StepResult
-from explorer.validators import InputError
+from explorer.rod.base import Control, RodStepError
+from explorer.validators import InputError, short_repr
 
 log = logging.getLogger(__name__)
 
@@ -50,6 +50,9 @@ POINTS_PER_STEP = 120
 AUTO_INTERVAL_S = (0.5, 60.0)  # bounds of the automatic output spacing
 AUTO_PROFILE_RECORDS = 5000  # a denser profile is recorded on a regular time base instead
 MAX_RECORDS = 200_000  # a requested output interval may not ask for more records than this
+# What a thermal model's linear algebra raises when its matrix is broken (e.g. a design's
+# conductances overflow to inf): the run fails with a status rather than a traceback.
+THERMAL_ERRORS = (RuntimeError, ArithmeticError, np.linalg.LinAlgError)
 
 
 @dataclass
@@ -152,6 +155,18 @@ def step_end(index, step: ResolvedStep, ended_by, quantity=None, threshold=None,
             "quantity": quantity, "threshold": threshold, "time_s": time_s}
 
 
+def output_interval(value, where="simulate") -> float | None:
+    """``output_interval_s`` as given to simulate: None (automatic) or a number > 0."""
+    if value is None:
+        return None
+    if isinstance(value, bool | str | bytes) or not isinstance(value, int | float | np.number):
+        raise InputError(f"{where}: `output_interval_s` must be None or a number of seconds "
+                         f"> 0, got {type(value).__name__} {short_repr(value)}")
+    if not value > 0:
+        raise InputError(f"{where}: `output_interval_s` must be > 0, got {short_repr(value)}")
+    return float(value)
+
+
 def check_output_interval(steps: list[ResolvedStep], output_interval_s, where="simulate"):
     """Refuse an output interval that would record more than ``MAX_RECORDS`` points over the
     duty's expected length (the same rough guess that sets the automatic spacing)."""
@@ -242,8 +257,19 @@ class _Stepper:
 
     # -- state ------------------------------------------------------------------------------
     def start(self, soc, temperature_C, first_step=None):
+        """The initial state and its record. Nothing is computed yet when this fails, so a
+        start the models cannot make is an InputError (never a record without a voltage)."""
         self.t = 0.0
-        self.T_state = self.thermal.initial_state(temperature_C)
+        try:
+            self.T_state = self.thermal.initial_state(temperature_C)
+            T = self.thermal.temperature_C(self.T_state)
+            problem = None if np.all(np.isfinite(T)) else "its temperatures are not finite"
+        except THERMAL_ERRORS as exc:
+            problem = f"{type(exc).__name__}: {exc}"
+        if problem is not None:
+            raise InputError(f"simulate: could not start: the thermal model of the cell and its "
+                             f"`cooling` failed at {temperature_C:g} degC ({problem}); a "
+                             "conductance or size of the cooling design is probably out of range")
         self.rod_state = self.rod.initial_state(soc, temperature_C + 273.15)
         # a zero-current step of zero length would need the rod's OCV; take a tiny rest step
         try:
@@ -252,13 +278,12 @@ class _Stepper:
             problem = self._unphysical(res.voltage_V)
         except RodStepError as exc:
             res, problem = None, str(exc)
+        if problem is not None:
+            raise InputError(f"simulate: could not start: the cell model failed at rest at "
+                             f"`start_soc` {soc:g} and `start_temperature_C` {temperature_C:g} "
+                             f"degC ({problem}); the cell's parameters are outside what the "
+                             "electrochemical model can solve at this state")
         zero = np.zeros(self.thermal.grid.shape)
-        if problem is not None:  # keep the initial state (no voltage) and say why
-            res = StepResult(self.rod_state, 0.0, math.nan, math.nan, soc)
-            self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0)
-            end = None if first_step is None else step_end(0, first_step, "solver", time_s=0.0)
-            raise _Stop("failed", f"could not start: the cell model failed at rest at SOC "
-                                  f"{soc:g} and {temperature_C:g} degC ({problem})", end)
         self.prev = res
         self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0, boundary=True)
 
@@ -326,6 +351,7 @@ class _Stepper:
         duty must stop here (a safety limit, the temperature cap, the solver giving up)."""
         s = self.s
         t0 = self.t
+        self.index, self.step = index, step  # for a failure deep in a trial's thermal step
         self.needs_field = any(e.quantity == "temperature" for e in step.ends)
         interval, grid = self._spacing(step)  # longest step; record time base (None: every step)
         wanted = min(s.dt_first_s, interval)  # the step size the error control asks for
@@ -500,8 +526,20 @@ class _Stepper:
                 tr.heat_map += I2 * self.joule
             tr.tab_heat = {k: I2 * v for k, v in self.c.tab_joule_W_per_A2.items()}
             tr.collector = I2 * self.joule_total
-        tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
-                                                    tr.tab_heat or None)
+        try:
+            tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
+                                                        tr.tab_heat or None)
+            finite = (np.all(np.isfinite(self.thermal.temperature_C(tr.thermal)))
+                      and math.isfinite(sum(tr.rejected.values())))
+            problem = None if finite else "the temperatures are no longer finite numbers"
+        except THERMAL_ERRORS as exc:
+            problem = f"{type(exc).__name__}: {exc}"
+        if problem is not None:
+            raise self._failed(self.index, self.step,
+                               f"stopped at t = {self.t:.1f} s in duty step "
+                               f"{self.step.step.label!r}: the thermal model failed ({problem}); "
+                               "a conductance or size of the cooling design is probably out "
+                               "of range")
         if self.needs_field:
             tr.t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
 
