@@ -153,6 +153,16 @@ def _positive(where, name, value) -> float:
     return v
 
 
+def _label(where, label, default: str) -> str:
+    """A step's label: a string (None gives the constructor's default)."""
+    if label is None:
+        return default
+    if not isinstance(label, str):
+        raise InputError(f"{where}: `label` must be a string, got {type(label).__name__} "
+                         f"{short_repr(label)}")
+    return label
+
+
 def _c_rate_bound(where, name, value: float, given) -> None:
     if value > MAX_C_RATE:
         raise InputError(f"{where}: `{name}` must be at most {MAX_C_RATE:g} (C-rate), got "
@@ -170,6 +180,7 @@ def _one_of(where, **given):
 
 def _constant(where, sign, c_rate, current_A, power_W, ends, label):
     name, value = _one_of(where, c_rate=c_rate, current_A=current_A, power_W=power_W)
+    label = _label(where, label, where.rpartition(".")[2])
     if name == "c_rate":
         _c_rate_bound(where, "c_rate", value, c_rate)
         return Step("current", c_rate=sign * value, ends=ends, label=label,
@@ -212,6 +223,7 @@ def hold_voltage(voltage_V=None, *, end_current_A=None, end_c_rate=None, end_tim
     at ``end_time_s``.
     """
     v = None if voltage_V is None else _positive("duty.hold_voltage", "voltage_V", voltage_V)
+    label = _label("duty.hold_voltage", label, "hold")
     if end_current_A is not None and end_c_rate is not None:
         raise InputError("duty.hold_voltage: give `end_current_A` or `end_c_rate`, not both")
     if end_current_A is None and end_c_rate is None:
@@ -229,7 +241,7 @@ def hold_voltage(voltage_V=None, *, end_current_A=None, end_c_rate=None, end_tim
 def rest(seconds, *, label="rest") -> Step:
     """Open circuit for ``seconds``."""
     return Step("rest", value=0.0, ends=_ends("duty.rest", time_s=seconds), default_limit=False,
-                label=label)
+                label=_label("duty.rest", label, "rest"))
 
 
 def cc_cv_charge(c_rate, *, end_c_rate=0.05, voltage_V=None, end_temperature_C=None) -> list[Step]:
@@ -271,9 +283,7 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
     guards it: reaching the window cuts the duty short (run status "cut_short").
     """
     path = _profile_path(path)
-    if label is not None and not isinstance(label, str):
-        raise InputError(f"duty.profile_csv: `label` must be a string, got "
-                         f"{type(label).__name__} {short_repr(label)}")
+    label = _label("duty.profile_csv", label, "")
     where = f"{path}"
     text = _read_text(path)
     numbered = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1)

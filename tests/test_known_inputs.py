@@ -85,6 +85,19 @@ def test_profile_label_not_a_string(label):
         duty.profile_csv(PROFILE, label=label)
 
 
+@pytest.mark.parametrize("make, where", [
+    (lambda label: duty.discharge(c_rate=1.0, label=label), "duty.discharge"),
+    (lambda label: duty.charge(current_A=5.0, label=label), "duty.charge"),
+    (lambda label: duty.hold_voltage(label=label), "duty.hold_voltage"),
+    (lambda label: duty.rest(10.0, label=label), "duty.rest"),
+])
+def test_step_label_not_a_string(make, where):
+    """An array label used to reach simulate and fail there (its truth value)."""
+    with pytest.raises(InputError, match=rf"{where}: `label` must be a string, got ndarray"):
+        make(np.array([1.0, 2.0]))
+    assert make(None).label == where.rpartition(".")[2].replace("_voltage", "")
+
+
 def test_profile_label_string_and_default():
     assert duty.profile_csv(PROFILE, label="route").label == "route"
     assert duty.profile_csv(PROFILE).label == PROFILE.stem
