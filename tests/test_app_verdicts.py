@@ -526,3 +526,9 @@ def test_traces_legend_has_room_under_the_title():
     fig = plots.traces_figure(synthetic_dataset(), limits=explorer.Limits(temperature_max_C=45.0))
     entries = sum(1 for tr in fig.data if tr.showlegend is not False)
     assert fig.layout.margin.t >= 50 + 20 * -(-entries // 2)
+
+
+def test_not_met_verdict_stays_on_one_line():
+    text = app_widget.limits_html(synthetic_dataset(), explorer.Limits(temperature_max_C=0.0))
+    (row,) = _limit_rows(text).values()
+    assert "<span style='white-space:nowrap'><b style='color:#B2182B'>NOT met</b></span>" in row

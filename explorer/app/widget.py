@@ -927,8 +927,8 @@ def limits_html(ds, limits) -> str:
         why = f" ({_esc(reason)})" if reason else ""
         if verdict == "met":
             text = "met"
-        elif verdict == "not met":
-            text = f"{_NOT_MET}{why}"
+        elif verdict == "not met":  # the verdict itself never breaks over two lines
+            text = f"<span style='white-space:nowrap'>{_NOT_MET}</span>{why}"
         else:
             text = f"<span style='{_NOT_EVALUATED_STYLE}'>not evaluated{why}</span>"
         cell = (check.get("cells") or {}).get(name)
