@@ -48,7 +48,7 @@ import numpy as np
 import xarray as xr
 
 from explorer.limits import UNITS, Limits
-from explorer.validators import InputError
+from explorer.validators import InputError, check_integer, short_repr
 
 log = logging.getLogger(__name__)
 
@@ -56,6 +56,9 @@ log = logging.getLogger(__name__)
 # limit) are noise of the time stepping, not a change of trend.
 TREND_ATOL = 1e-3
 BOUND_NAMES = {"lower": "lower bound", "higher": "upper bound"}
+SPACINGS = ("auto", "linear", "geometric")
+# First samples at most: each is a full simulation, and a typo (10**9) must not allocate them.
+MAX_SAMPLES = 1000
 
 
 class SizingError(InputError):
@@ -67,9 +70,25 @@ class SizingError(InputError):
 
 
 def _check_cheaper(cheaper, where) -> str:
-    if cheaper not in ("lower", "higher"):
-        raise InputError(f"{where}: `cheaper` must be 'lower' or 'higher', got {cheaper!r}")
+    if not isinstance(cheaper, str) or cheaper not in ("lower", "higher"):
+        raise InputError(f"{where}: `cheaper` must be 'lower' or 'higher', "
+                         f"got {short_repr(cheaper)}")
     return cheaper
+
+
+def _check_spacing(spacing) -> str:
+    if not isinstance(spacing, str) or spacing not in SPACINGS:
+        raise InputError(f"size_cooling: `spacing` must be 'auto', 'linear' or 'geometric', "
+                         f"got {short_repr(spacing)}")
+    return spacing
+
+
+def _check_count(name: str, value, low: int, high: int | None = None) -> int:
+    """A whole-number search setting, the error prefixed like the other sizing errors."""
+    try:
+        return check_integer(name, value, low, high)
+    except InputError as exc:
+        raise InputError(f"size_cooling: {exc}") from None
 
 
 @dataclass(frozen=True)
@@ -231,9 +250,8 @@ class _Lattice:
 
 def sample_points(lo: float, hi: float, samples: int, spacing: str = "auto") -> np.ndarray:
     """The first evaluation points: ``samples`` values from ``lo`` to ``hi`` inclusive."""
-    if spacing not in ("auto", "linear", "geometric"):
-        raise InputError(f"size_cooling: `spacing` must be 'auto', 'linear' or 'geometric', "
-                         f"got {spacing!r}")
+    _check_spacing(spacing)
+    samples = _check_count("samples", samples, 2, MAX_SAMPLES)
     geometric = spacing == "geometric" or (spacing == "auto" and lo > 0 and hi / lo >= 4.0)
     if geometric:
         if lo <= 0:
@@ -299,8 +317,9 @@ def find_boundary(margin, lo: float, hi: float, *, cheaper: str, resolution: flo
     (1.5, 'limits', (1.5, 1.45))
     """
     _check_cheaper(cheaper, "find_boundary")
-    if samples < 3:
-        raise InputError(f"size_cooling: `samples` must be >= 3, got {samples!r}")
+    _check_spacing(spacing)
+    samples = _check_count("samples", samples, 3, MAX_SAMPLES)
+    max_evaluations = _check_count("max_evaluations", max_evaluations, 1)
     lat = _Lattice(lo, hi, resolution)
     seen: dict[int, float] = {}
 
@@ -596,9 +615,11 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
         raise InputError(f"size_cooling: `limits` must be an explorer.Limits, got "
                          f"{type(limits).__name__}")
     params = _parameters(cooling)
-    if vary not in params:
-        raise InputError(f"size_cooling: `vary` = {vary!r} is not a parameter of this cooling "
-                         f"design; expected one of {sorted(params)}")
+    if not isinstance(vary, str) or vary not in params:
+        raise InputError(f"size_cooling: `vary` = {short_repr(vary)} is not a parameter of this "
+                         f"cooling design; expected one of {sorted(params)}")
+    samples, max_evaluations, spacing = _check_search(samples, max_evaluations, spacing, strict,
+                                                      module, on_evaluation)
     entry = _entry(vary, bounds, cheaper, resolution)
     lo, hi = _check_bounds(entry.bounds if bounds is None else bounds)
     lattice = _Lattice(lo, hi, entry.resolution)
@@ -651,6 +672,22 @@ def _result(runner, outcome, entry, bounds) -> SizingResult:
         cells=runner.module_cells if runner.as_module else None, warnings=worst["warnings"])
 
 
+def _check_search(samples, max_evaluations, spacing, strict, module, on_evaluation):
+    """size_cooling's search settings checked before any run: (samples, max_evaluations,
+    spacing)."""
+    samples = _check_count("samples", samples, 3, MAX_SAMPLES)
+    max_evaluations = _check_count("max_evaluations", max_evaluations, 1)
+    for name, value in (("strict", strict), ("module", module)):
+        if not isinstance(value, bool | np.bool_) and not (name == "module" and value is None):
+            allowed = "True or False" + (" (or None: automatic)" if name == "module" else "")
+            raise InputError(f"size_cooling: `{name}` must be {allowed}, got {short_repr(value)}")
+    if on_evaluation is not None and not callable(on_evaluation):
+        raise InputError("size_cooling: `on_evaluation` must be a function called as "
+                         f"on_evaluation(value, met, worst_margin), or None, got "
+                         f"{short_repr(on_evaluation)}")
+    return samples, max_evaluations, _check_spacing(spacing)
+
+
 def _entry(vary, bounds, cheaper, resolution) -> DesignParameter:
     """The parameter's sizing entry, with the caller's overrides."""
     try:
@@ -663,14 +700,17 @@ def _entry(vary, bounds, cheaper, resolution) -> DesignParameter:
         entry = DesignParameter(vary, parameter_unit(vary), "lower", (0.0, 1.0), 1.0, vary)
     cheaper = _check_cheaper(entry.cheaper if cheaper is None else cheaper, "size_cooling")
     if resolution is not None:
+        given = resolution
         try:
-            resolution = float(resolution)
+            if isinstance(given, bool):
+                raise TypeError("a flag is not a step")
+            resolution = float(given)
         except (TypeError, ValueError):
-            raise InputError(f"size_cooling: `resolution` must be a number > 0, got "
-                             f"{resolution!r}") from None
+            raise InputError(f"size_cooling: `resolution` must be a number > 0 (in the unit of "
+                             f"`vary`), got {short_repr(given)}") from None
         if not (math.isfinite(resolution) and resolution > 0):
-            raise InputError(f"size_cooling: `resolution` must be a number > 0, got "
-                             f"{resolution!r}")
+            raise InputError(f"size_cooling: `resolution` must be a number > 0 (in the unit of "
+                             f"`vary`), got {short_repr(given)}")
     return DesignParameter(entry.name, entry.unit, cheaper, entry.bounds,
                            entry.resolution if resolution is None else resolution, entry.label)
 
@@ -759,19 +799,31 @@ def _use_module(cooling, module) -> bool:
 
 def _positions(cooling, positions, as_module):
     """(positions run one at a time, cells the module check keeps or None for all)."""
-    if as_module:
-        if positions is None:
-            return [None], None
-        n = _cells_in_series(cooling)
-        cells = sorted({int(p) for p in positions})
-        if not cells or cells[0] < 0 or cells[-1] >= n:
-            raise InputError(f"size_cooling: `positions` = {positions!r}; expected cells "
-                             f"0..{n - 1} of the module")
-        return [None], cells
     if positions is None:
+        if as_module:
+            return [None], None
         positions = list(cooling.positions_to_check()) if hasattr(cooling, "positions_to_check") \
             else [None]
-    return list(positions) or [None], None
+        return positions or [None], None
+    cells = _check_positions(positions, _cells_in_series(cooling))
+    return ([None], sorted(set(cells))) if as_module else (cells, None)
+
+
+def _check_positions(positions, n: int) -> list[int]:
+    """``positions`` as a non-empty list of whole numbers ``0..n-1`` (cells along the coolant)."""
+    expected = (f"expected cells 0..{n - 1} along the coolant (a list of whole numbers, 0 = the "
+                "first cell the coolant meets), or None")
+    try:
+        if isinstance(positions, str | bytes | dict):
+            raise TypeError("not a list of cells")
+        items = list(positions)
+        if not items or not all(isinstance(p, int | float | np.integer | np.floating)
+                                for p in items):
+            raise TypeError("not a list of whole numbers")
+        return [check_integer("positions", p, 0, n - 1) for p in items]
+    except (TypeError, InputError):
+        raise InputError(f"size_cooling: `positions` = {short_repr(positions)}; {expected}") \
+            from None
 
 
 def _simulate(cell, duty, **kwargs):

@@ -58,6 +58,7 @@ from explorer.validators import (
     check_nonnegative,
     check_positive,
     check_range,
+    short_repr,
 )
 
 __all__ = [
@@ -80,6 +81,17 @@ DEFAULT_FIN_CONTACT_W_m2K = 2000.0
 # Gap pads and pastes for battery cold plates span about 1-6 W/(m K) (common practice).
 DEFAULT_TIM_W_mK = 3.0
 DEFAULT_TIM_MM = 0.5
+# Thickest fin sheet or interface layer accepted: gap pads run to a few mm and fins to a few
+# mm (common practice); beyond this the value is a typo (e.g. metres given as mm).
+MAX_LAYER_MM = 50.0
+# Widest fin foot (contact width on the plate) accepted: pouch stacks are tens of mm thick.
+MAX_FOOT_MM = 500.0
+# Smallest values accepted, far below any real part (a foil is some um thick, still air
+# conducts 0.026 W/(m K)); a smaller one (say 5e-324) underflows to 0 in the resistances.
+MIN_LAYER_MM = 1e-3
+MIN_FOOT_MM = 1e-2
+MIN_TIM_W_MK = 1e-3
+MIN_TAB_W_K = 1e-6
 # What the plate's pressure drop and pump power cover (said wherever they are shown).
 HYDRAULICS_SCOPE = "channels only"
 HYDRAULICS_NOTE = ("pressure drop and pump power: channels only (friction, entrance, exit and "
@@ -237,15 +249,18 @@ class TabCooling(_Design):
     _own_numeric = ("conductance_W_K", "busbar_C")
 
     def __post_init__(self):
-        object.__setattr__(self, "conductance_W_K",
-                           check_positive("conductance_W_K", self.conductance_W_K, "W/K"))
+        object.__setattr__(self, "conductance_W_K", check_range(
+            "conductance_W_K", self.conductance_W_K, MIN_TAB_W_K, None, "W/K"))
         object.__setattr__(self, "busbar_C",
                            check_range("busbar_C", self.busbar_C, -60.0, 150.0, "degC"))
         if self.tabs is not None:
-            tabs = (self.tabs,) if isinstance(self.tabs, str) else tuple(self.tabs)
-            if not tabs or not all(isinstance(t, str) for t in tabs):
-                raise InputError(f"`tabs`: expected tab names, got {self.tabs!r}")
-            object.__setattr__(self, "tabs", tabs)
+            tabs = (self.tabs,) if isinstance(self.tabs, str) else self.tabs
+            if not isinstance(tabs, list | tuple) or not tabs \
+                    or not all(isinstance(t, str) for t in tabs):
+                raise InputError("`tabs`: expected a tab name or a list of tab names (e.g. "
+                                 f"'negative' or ['negative', 'positive']), or None for every "
+                                 f"tab, got {short_repr(self.tabs)}")
+            object.__setattr__(self, "tabs", tuple(tabs))
 
     def _summary(self) -> str:
         which = "every tab" if self.tabs is None else ", ".join(self.tabs)
@@ -281,8 +296,18 @@ def _check_plate(plate):
 
 
 def _check_tim(obj):
-    object.__setattr__(obj, "tim_W_mK", check_positive("tim_W_mK", obj.tim_W_mK, "W/(m K)"))
-    object.__setattr__(obj, "tim_mm", check_nonnegative("tim_mm", obj.tim_mm, "mm"))
+    object.__setattr__(obj, "tim_W_mK",
+                       check_range("tim_W_mK", obj.tim_W_mK, MIN_TIM_W_MK, None, "W/(m K)"))
+    tim = check_nonnegative("tim_mm", obj.tim_mm, "mm")
+    object.__setattr__(obj, "tim_mm", _at_most("tim_mm", tim, obj.tim_mm, MAX_LAYER_MM))
+
+
+def _at_most(name: str, v: float, given, high: float) -> float:
+    """``v`` (checked >= 0 already) if it is at most ``high`` mm; the error echoes ``given``."""
+    if v > high:
+        raise InputError(f"`{name}`: expected a value <= {high:g} (in mm), "
+                         f"got {short_repr(given)}")
+    return v
 
 
 @dataclass(frozen=True, repr=False)
@@ -432,13 +457,15 @@ class EdgePlate(_Design):
         check_choice("edge", self.edge, EDGES)
         _check_tim(self)
         if self.fin_mm is not None:
-            object.__setattr__(self, "fin_mm", check_positive("fin_mm", self.fin_mm, "mm"))
+            fin = check_range("fin_mm", self.fin_mm, MIN_LAYER_MM, None, "mm")
+            object.__setattr__(self, "fin_mm", _at_most("fin_mm", fin, self.fin_mm, MAX_LAYER_MM))
             solid(self.fin_material, "fin_material")
             check_choice("fin_face", self.fin_face, ("front", "back"))
         object.__setattr__(self, "fin_contact_W_m2K",
                            check_positive("fin_contact_W_m2K", self.fin_contact_W_m2K, "W/(m2 K)"))
         if self.foot_mm is not None:
-            object.__setattr__(self, "foot_mm", check_positive("foot_mm", self.foot_mm, "mm"))
+            foot = check_range("foot_mm", self.foot_mm, MIN_FOOT_MM, None, "mm")
+            object.__setattr__(self, "foot_mm", _at_most("foot_mm", foot, self.foot_mm, MAX_FOOT_MM))
         if isinstance(self.plate, ColdPlate) and self.plate.flow_direction is not None:
             allowed = ("across",) + _ALONG[self.edge]
             if self.plate.flow_direction not in allowed:

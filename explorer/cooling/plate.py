@@ -39,6 +39,7 @@ from explorer.validators import (
     check_nonnegative,
     check_positive,
     check_range,
+    short_repr,
 )
 
 __all__ = ["ColdPlate", "FixedSink", "cold_plate", "fixed_sink", "solid", "PLATE_FLOW_DIRECTIONS",
@@ -49,6 +50,20 @@ __all__ = ["ColdPlate", "FixedSink", "cold_plate", "fixed_sink", "solid", "PLATE
 PLATE_FLOW_DIRECTIONS = ("+x", "-x", "+y", "-y", "across")
 # Small electric coolant pumps reach roughly 30-60 % wire-to-water (common practice).
 DEFAULT_PUMP_EFFICIENCY = 0.5
+# Upper bound on every plate dimension (channel size, rib, wall, flow length, channel band):
+# far beyond any battery cold plate, low enough that the thermal model stays well conditioned.
+MAX_PLATE_MM = 10_000.0
+# ... and at least 10 um (a thinner rib or channel underflows the rib-fin and friction sums).
+MIN_PLATE_MM = 1e-2
+# Cells one plate serves at most (a pack row is tens to a few hundred; the app allows 200).
+MAX_CELLS_PER_PLATE = 1000
+# Most coolant flow through one plate: a module loop runs a few to tens of L/min (common
+# practice); far beyond, the channel velocity overflows the friction and heat-transfer sums.
+MAX_FLOW_L_MIN = 1000.0
+MIN_FLOW_L_MIN = 1e-6  # a smaller flow per channel underflows to zero
+# Smallest fixed-sink coefficient accepted: far below still air (a few W/(m2 K)); a smaller
+# one (say 5e-324) underflows to 0 in the design's series resistances.
+MIN_SINK_COEFFICIENT = 1e-6
 # Above about 2 m/s erosion-corrosion of aluminium channels becomes a concern (common practice).
 VELOCITY_WARN_M_S = 2.0
 
@@ -57,9 +72,9 @@ def solid(name: str, field_name: str):
     """A solid from :data:`explorer.materials.SOLIDS`, with an error naming ``field_name``."""
     from explorer.materials import SOLIDS
 
-    if name not in SOLIDS:
+    if not isinstance(name, str) or name not in SOLIDS:  # a list or dict cannot be looked up
         valid = ", ".join(repr(k) for k in SOLIDS)
-        raise InputError(f"`{field_name}`: expected one of {valid}, got {name!r}")
+        raise InputError(f"`{field_name}`: expected one of {valid}, got {short_repr(name)}")
     return SOLIDS[name]
 
 
@@ -93,10 +108,11 @@ class FixedSink:
                              f"and `conductance_W_mK` (per metre of edge), got h_W_m2K={self.h_W_m2K!r}, "
                              f"conductance_W_mK={self.conductance_W_mK!r}")
         if self.h_W_m2K is not None:
-            set_(self, "h_W_m2K", check_positive("h_W_m2K", self.h_W_m2K, "W/(m2 K)"))
+            set_(self, "h_W_m2K", check_range("h_W_m2K", self.h_W_m2K, MIN_SINK_COEFFICIENT, None,
+                                              "W/(m2 K)"))
         else:
-            set_(self, "conductance_W_mK",
-                 check_positive("conductance_W_mK", self.conductance_W_mK, "W/(m K)"))
+            set_(self, "conductance_W_mK", check_range(
+                "conductance_W_mK", self.conductance_W_mK, MIN_SINK_COEFFICIENT, None, "W/(m K)"))
 
     def parameters(self) -> dict[str, float]:
         out = {"temperature_C": self.temperature_C}
@@ -139,7 +155,7 @@ def fixed_sink(temperature_C: float, h_W_m2K: float | None = None,
 
 
 # Integer-valued plate fields (validated as whole numbers, reported as floats).
-_INTEGERS = {"channels": 1, "cells_per_plate": 1, "bends": 0}
+_INTEGERS = {"channels": (1, None), "cells_per_plate": (1, MAX_CELLS_PER_PLATE), "bends": (0, None)}
 
 
 @dataclass(frozen=True, repr=False)
@@ -168,13 +184,21 @@ class ColdPlate:
     def __post_init__(self):
         set_ = object.__setattr__
         set_(self, "coolant", get_coolant(self.coolant).name)
-        set_(self, "flow_L_min", check_positive("flow_L_min", self.flow_L_min, "L/min"))
+        check_positive("flow_L_min", self.flow_L_min, "L/min")  # the plain message for <= 0
+        set_(self, "flow_L_min", check_range("flow_L_min", self.flow_L_min, MIN_FLOW_L_MIN,
+                                             MAX_FLOW_L_MIN, "L/min, through one plate"))
         set_(self, "inlet_C", check_finite("inlet_C", self.inlet_C, "degC"))
         self.fluid.properties(self.inlet_C, what="inlet_C")  # range / freezing check
-        for name, low in _INTEGERS.items():
-            set_(self, name, check_integer(name, getattr(self, name), low=low))
+        for name, (low, high) in _INTEGERS.items():
+            set_(self, name, check_integer(name, getattr(self, name), low=low, high=high))
         for name in ("channel_width_mm", "channel_height_mm", "rib_mm", "wall_mm", "length_mm"):
-            set_(self, name, check_positive(name, getattr(self, name), "mm"))
+            set_(self, name, _check_size(name, getattr(self, name)))
+        band_mm = self.channels * (self.channel_width_mm + self.rib_mm)
+        if band_mm > MAX_PLATE_MM:
+            raise InputError(f"`channels` x (`channel_width_mm` + `rib_mm`): {self.channels} "
+                             f"channels of {self.channel_width_mm:g} mm with {self.rib_mm:g} mm "
+                             f"ribs make a plate {band_mm:g} mm wide; expected at most "
+                             f"{MAX_PLATE_MM:g} mm (10 m)")
         set_(self, "roughness_um", check_nonnegative("roughness_um", self.roughness_um, "um"))
         set_(self, "pump_efficiency", check_range("pump_efficiency", self.pump_efficiency, 0.0, 1.0,
                                                   inclusive=False))
@@ -341,6 +365,11 @@ class ColdPlate:
         return (f"ColdPlate({self.coolant}, {self.flow_L_min:g} L/min at {self.inlet_C:g} degC, "
                 f"{self.channels} channels {self.channel_width_mm:g} x {self.channel_height_mm:g} mm "
                 f"x {self.length_mm:g} mm, {self.material}, {self.cells_per_plate} cell(s){flow})")
+
+
+def _check_size(name: str, value) -> float:
+    """A plate dimension in mm, from :data:`MIN_PLATE_MM` to :data:`MAX_PLATE_MM` (10 m)."""
+    return check_range(name, value, MIN_PLATE_MM, MAX_PLATE_MM, "mm")
 
 
 def _clip(fluid: Coolant, t: float) -> float:
