@@ -616,8 +616,7 @@ def test_cooling_constructor_arguments(data):
             positions = design.positions_to_check()
             assert positions and all(int(p) == p >= 0 for p in positions)
 
-    known = None
-    design = outcome(lambda: fn(**kwargs), names, check=check, known=known)
+    design = outcome(lambda: fn(**kwargs), names, check=check)
     if isinstance(design, Exception) or not hasattr(design, "sinks"):
         return
     cell = demo_cell()
