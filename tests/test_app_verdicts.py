@@ -532,3 +532,13 @@ def test_not_met_verdict_stays_on_one_line():
     text = app_widget.limits_html(synthetic_dataset(), explorer.Limits(temperature_max_C=0.0))
     (row,) = _limit_rows(text).values()
     assert "<span style='white-space:nowrap'><b style='color:#B2182B'>NOT met</b></span>" in row
+
+
+def test_sizing_with_no_value_meeting_the_limits_says_best_evaluated():
+    # "rounded in the safe direction" is only true of an answer; none met has none
+    result = SyntheticSizing(vary="tim_W_mK")
+    result.value, result.unit, result.resolution, result.limited_by = 8.0, "W/(m K)", 0.5, "none met"
+    result.feasible, result.hydraulics, result.module, result.warnings = False, {}, None, []
+    head = _text(app_widget.sizing_html(result, None)).split("</h4>")[0]
+    assert head.startswith("<h4>Best evaluated: TIM conductivity = 8 W/(m K): ")
+    assert "rounded" not in head and "NOT met" in head

@@ -1053,10 +1053,12 @@ def sizing_html(result, limits) -> str:
     vary = result.vary
     unit = _display_unit(result.unit)
     u = f" {unit}" if unit else ""
-    label = _parameter_name(vary)
-    label = label[:1].upper() + label[1:]
+    name = _parameter_name(vary)
+    label = name[:1].upper() + name[1:]
     step = f" (rounded in the safe direction to a step of {result.resolution:g}{u})"
     verdict = "meets the limits" if result.feasible else _NOT_MET
+    if not result.feasible:  # nothing was sized or rounded: the best value evaluated
+        label, step = f"Best evaluated: {name}", ""
     head, why = _LIMITED_BY.get(result.limited_by, (f"limited by {result.limited_by}", ""))
     parts = [f"<h4>{_esc(label)} = {float(result.value):.6g}{_esc(u)}{_esc(step)}: {verdict}</h4>",
              f"<p><b>{_esc(head)}</b>: {_esc(why)}</p>"]
