@@ -620,6 +620,7 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
                          f"cooling design; expected one of {sorted(params)}")
     samples, max_evaluations, spacing = _check_search(samples, max_evaluations, spacing, strict,
                                                       module, on_evaluation)
+    module = None if module is None else bool(module)  # numpy's False is not `False`
     entry = _entry(vary, bounds, cheaper, resolution)
     lo, hi = _check_bounds(entry.bounds if bounds is None else bounds)
     lattice = _Lattice(lo, hi, entry.resolution)

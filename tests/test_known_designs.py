@@ -192,3 +192,21 @@ def test_size_cooling_positions_numbers_of_any_kind(sizing_case):
     for positions in ([0], (0,), np.array([0]), [np.int64(0)], [0.0]):
         res = sizing_case(positions=positions)
         assert res.value is None or math.isfinite(res.value)
+
+
+def test_size_cooling_numpy_flags(monkeypatch):
+    """numpy's booleans are flags: module=np.False_ runs the cells one at a time."""
+    from explorer import sizing
+
+    def no_module(*args, **kwargs):
+        raise AssertionError("module run despite module=np.False_")
+
+    monkeypatch.setattr(sizing, "_simulate_module", no_module)
+    plate = cooling.cold_plate("eg50", 3.0, 25.0, cells_per_plate=3, length_mm=2000.0)
+    res = explorer.size_cooling(explorer.load_cell("van_nmc_66ah"),
+                                duty.discharge(c_rate=2.0, end_time_s=60.0),
+                                cooling.edge_plate(plate, fin_mm=1.0), "fin_mm", (0.2, 2.0),
+                                explorer.Limits(temperature_max_C=40.0), samples=3,
+                                max_evaluations=4, module=np.False_, strict=np.False_,
+                                layout="single")
+    assert res.module is None and res.cells is None
