@@ -1095,8 +1095,8 @@ def _message(outcome, vary, lo, hi, runner, limits, entry, tps=None) -> str:
     elif outcome.kind == "limits":
         _, fail = outcome.bracket
         msg = (f"`{vary}` = {value:.6g} {unit} is the cheapest value that meets the limits "
-               f"({entry.cheaper} values cost less); one step cheaper, {fail:.6g} {unit}, does "
-               f"not: {figs}")
+               f"({entry.cheaper} values cost less): at {value:.6g} {unit}, {figs}; one step "
+               f"cheaper, {fail:.6g} {unit}, does not meet them")
         if value == (max if entry.cheaper == "lower" else min)(outcome.values):
             msg += "; it sits on the expensive bound (nothing beyond it was tried)"
     else:
