@@ -568,9 +568,11 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
         run one at a time (default ``cooling.positions_to_check()``): all at
         the first samples, the worst next to the boundary while refining, all
         again at the answer (searching again if another one fails there).
+        Cells are numbered ``0 .. n-1`` along the coolant; an empty list is an error.
     samples, spacing, max_evaluations
         Search settings, see :func:`find_boundary` (``"auto"`` spacing is linear for a
-        temperature in degC).
+        temperature in degC): ``3 <= samples <= 1000`` and ``max_evaluations >= 1`` whole
+        numbers, ``spacing`` one of "auto", "linear", "geometric".
     resolution, cheaper : optional
         Override the parameter's entry in :data:`DESIGN_PARAMETERS` (needed
         for a parameter that has none).
@@ -595,8 +597,10 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
 
     Raises
     ------
+    InputError
+        A bad argument (``vary``, ``bounds``, a search setting...), naming it, before any run.
     SizingError
-        Bad search settings, a plate too short for the cells it serves, or a
+        Bounds that hold no valid design, a plate too short for the cells it serves, or a
         failed run (naming the value).
 
     Examples
