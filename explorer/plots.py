@@ -323,6 +323,18 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
     return fig
 
 
+def _temperature_limit_lines(fig, lim: dict, row: int) -> None:
+    """The data-sheet maximum (dotted) and the design limit (dashed) on a temperature panel."""
+    if "datasheet_C" in lim:
+        fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=row, col=1,
+                      annotation_text=f"data-sheet max {lim['datasheet_C']:g} °C",
+                      annotation_position="top left")
+    if "temperature_max_C" in lim:
+        fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=row, col=1,
+                      annotation_text=f"design limit {lim['temperature_max_C']:g} °C",
+                      annotation_position="bottom left")
+
+
 def traces_figure(ds, limits=None) -> go.Figure:
     """Voltage, current, temperatures (max/min/mean, core) and spread against time, with limits.
 
@@ -369,14 +381,7 @@ def traces_figure(ds, limits=None) -> go.Figure:
                                  line=dict(color=PALETTE[3], dash="dot" if lumped else None)),
                       row=4, col=1)
     lim = limit_values(ds, limits)
-    if "datasheet_C" in lim:
-        fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=3, col=1,
-                      annotation_text=f"data-sheet max {lim['datasheet_C']:g} °C",
-                      annotation_position="top left")
-    if "temperature_max_C" in lim:
-        fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=3, col=1,
-                      annotation_text=f"design limit {lim['temperature_max_C']:g} °C",
-                      annotation_position="bottom left")
+    _temperature_limit_lines(fig, lim, row=3)
     if "spread_K" in lim:
         fig.add_hline(y=lim["spread_K"], line=_LIMIT_STYLE, row=4, col=1,
                       annotation_text=f"spread limit {lim['spread_K']:g} K",
@@ -658,14 +663,7 @@ def module_figure(ds, limits=None) -> go.Figure:
     fig.add_trace(go.Scatter(x=cells, y=peaks, mode="lines+markers", name="peak of each cell "
                              "(hottest point anywhere)", line=dict(color=PALETTE[1])), row=1, col=1)
     lim = limit_values(ds, limits)
-    if "datasheet_C" in lim:
-        fig.add_hline(y=lim["datasheet_C"], line=_SHEET_STYLE, row=1, col=1,
-                      annotation_text=f"data-sheet max {lim['datasheet_C']:g} °C",
-                      annotation_position="top left")
-    if "temperature_max_C" in lim:
-        fig.add_hline(y=lim["temperature_max_C"], line=_LIMIT_STYLE, row=1, col=1,
-                      annotation_text=f"design limit {lim['temperature_max_C']:g} °C",
-                      annotation_position="bottom left")
+    _temperature_limit_lines(fig, lim, row=1)
     coolant = _module_coolant(ds)
     if coolant is not None:
         edges = np.arange(cells.size + 1)
