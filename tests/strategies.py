@@ -20,8 +20,8 @@ from hypothesis import strategies as st
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_CELLS = sorted((ROOT / "demo_cells").glob("*.toml"))
-SCENARIOS = sorted((ROOT / "scenarios").glob("*.toml"))
-PROFILES = sorted((ROOT / "profiles").glob("*.csv"))
+SCENARIOS = sorted((ROOT / "demo_cells" / "scenarios").glob("*.toml"))
+PROFILES = sorted((ROOT / "demo_cells" / "profiles").glob("*.csv"))
 
 # ---------------------------------------------------------------------------------- values
 

@@ -240,10 +240,10 @@ def test_cut_short_warning_beside_every_verdict():
 
 
 @needs_verdicts
-@pytest.mark.skipif(not (ROOT / "profiles" / "van_city_route.csv").is_file(),
-                    reason="profiles/van_city_route.csv missing")
+@pytest.mark.skipif(not (ROOT / "demo_cells" / "profiles" / "van_city_route.csv").is_file(),
+                    reason="demo_cells/profiles/van_city_route.csv missing")
 def test_real_cut_short_profile_shows_the_warning():
-    app = explorer.explore(duty="profile", profile_path=str(ROOT / "profiles" / "van_city_route.csv"),
+    app = explorer.explore(duty="profile", profile_path=str(ROOT / "demo_cells" / "profiles" / "van_city_route.csv"),
                            cell="van_nmc_66ah", start_soc_pct=100.0)
     ds = app.run()
     assert ds is not None, app.last_error

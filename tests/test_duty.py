@@ -102,7 +102,7 @@ def test_profile_comments_and_line_numbers(tmp_path):
 def test_bundled_profile_reads():
     from pathlib import Path
 
-    s = duty.profile_csv(Path(__file__).parents[1] / "profiles" / "van_city_route.csv")
+    s = duty.profile_csv(Path(__file__).parents[1] / "demo_cells" / "profiles" / "van_city_route.csv")
     assert s.profile_quantity == "power" and s.profile_time_s[-1] == 1800.0
     assert min(s.profile_value) < 0 < max(s.profile_value)  # regenerative braking included
 

@@ -19,7 +19,7 @@ from explorer.inplane.thermal import PlaneThermal
 from explorer.rod.mesh import RodMesh
 from explorer.validators import InputError, check_choice
 
-PROFILE = Path(__file__).parents[1] / "profiles" / "van_city_route.csv"
+PROFILE = Path(__file__).parents[1] / "demo_cells" / "profiles" / "van_city_route.csv"
 
 
 @pytest.fixture(scope="module")

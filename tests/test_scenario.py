@@ -18,7 +18,7 @@ import xarray as xr
 from explorer.limits import Limits
 from explorer.scenario import ScenarioError, cmd_run, cmd_size, cmd_sweep, load_scenario
 
-BUNDLED = sorted((Path(__file__).parents[1] / "scenarios").glob("*.toml"))
+BUNDLED = sorted((Path(__file__).parents[1] / "demo_cells" / "scenarios").glob("*.toml"))
 
 # A cheap scenario for the commands: averaged layout, SPM, coarse grid, short duty.
 CHEAP = """

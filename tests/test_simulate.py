@@ -229,7 +229,7 @@ def test_profile_runs_and_holds_each_sample(cell):
     at every recorded point, and the run ends at the profile's last time."""
     from pathlib import Path
 
-    step = duty.profile_csv(Path(__file__).parents[1] / "profiles" / "van_city_route.csv")
+    step = duty.profile_csv(Path(__file__).parents[1] / "demo_cells" / "profiles" / "van_city_route.csv")
     ds = explorer.simulate(cell, step, layout="single", start_soc=0.8)
     assert ds.attrs["status"] == "completed"
     assert float(ds.time[-1]) == pytest.approx(1800.0)

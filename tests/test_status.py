@@ -12,7 +12,7 @@ from explorer import duty
 from explorer.results import run_warnings
 
 ROOT = Path(__file__).parents[1]
-ROUTE = ROOT / "profiles" / "van_city_route.csv"
+ROUTE = ROOT / "demo_cells" / "profiles" / "van_city_route.csv"
 
 
 @pytest.fixture(scope="module")
