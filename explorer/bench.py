@@ -18,6 +18,11 @@ measured side by side in the same run. Sections:
 * ``inplane``   collector network set-up and thermal steps on the 32 x 48 grid
 * ``sweep``     48-case sweep, serial against the local Dask cluster
 * ``app``       the notebook app's run-to-figure and time-slider update
+* ``stepper``   the shared stepper's own cost per step, and the heat integration on default steps
+* ``first_answer`` fresh processes: first cold-plate run, a 12-cell sizing, a sweep's first
+                case, as ratios to the bare import of numpy, scipy and xarray
+* ``fidelity``  the fidelity check of an averaged SPMe run at 1C; ``validate`` end to end
+* ``calibrate`` a three-parameter calibration to three discharge curves
 
 Each figure is the best of ``--repeat`` runs (default 3) after one warm-up,
 which suppresses the noise of a shared machine without hiding a slow path.
@@ -151,11 +156,27 @@ def _section(name, quick):
         from explorer.app.bench import bench_app
 
         return bench_app()
+    if name == "stepper":
+        from explorer.stepping.stepper_bench import bench_stepper
+
+        return bench_stepper(repeat=1 if quick else 3)
+    if name == "first_answer":  # fresh processes: cold imports, first calls
+        from explorer.first_answer_bench import bench_first_answer
+
+        return bench_first_answer(quick=quick)
+    if name == "fidelity":
+        from explorer.fidelity_bench import bench_fidelity
+
+        return bench_fidelity(quick=quick)
+    if name == "calibrate":
+        from explorer.calibration_bench import bench_calibration
+
+        return bench_calibration(quick=quick)
     raise ValueError(name)
 
 
 SECTIONS = ("rods", "rod_only", "averaged", "distributed", "module", "profile", "inplane",
-            "sweep", "app")
+            "sweep", "app", "stepper", "first_answer", "fidelity", "calibrate")
 
 
 def _table(rows) -> str:

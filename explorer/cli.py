@@ -8,7 +8,10 @@ show    print the summary of a cell file
 run     simulate a scenario file
 size    size the cooling of a scenario file against its limits
 sweep   sweep the design parameters of a scenario file
-report  write the HTML report of a saved results file
+report  write the HTML report of saved results files (runs, module, sizing, sweep)
+validate run the outside checks and write the validation report
+new-cell build a cell file from data-sheet values and a chemistry template
+calibrate fit a few cell parameters to measured test curves
 
 Errors
 ------
@@ -74,9 +77,29 @@ def _parser() -> argparse.ArgumentParser:
         if name == "sweep":
             c.add_argument("--scheduler", default=None,
                            help="address of a running Dask scheduler (default: a local cluster)")
-    r = sub.add_parser("report", help="write the HTML report of a saved results file")
-    r.add_argument("results", help="results file (netCDF) written by this tool")
+    r = sub.add_parser("report", help="write the HTML report of saved results files")
+    r.add_argument("results", nargs="+", help="results file(s) (netCDF) written by this tool; "
+                   "several runs are compared side by side")
     r.add_argument("--out", default=None, help="report file (default: beside the results)")
+    v = sub.add_parser("validate", help="run the outside checks (published solutions, handbook "
+                       "tables) and write the validation report (HTML and Markdown)")
+    v.add_argument("--out", default="explorer-validation",
+                   help="output folder (default: %(default)s)")
+    v.add_argument("--quick", action="store_true", help="skip the slowest checks and maps")
+    n = sub.add_parser("new-cell", help="build a cell file from data-sheet values and a "
+                       "chemistry template (prompts for the values when no file is given)")
+    n.add_argument("datasheet", nargs="?", default=None,
+                   help="data-sheet values (TOML); omit to be asked for each value")
+    n.add_argument("--out", default=None, help="cell file to write (default: beside the "
+                   "data sheet, or ./<name>.toml)")
+    k = sub.add_parser("calibrate", help="fit a few cell parameters to measured test curves "
+                       "(CSV: time_s, current_A, voltage_V, optional temperature_C)")
+    k.add_argument("cell", help="cell file or demo cell name")
+    k.add_argument("tests", nargs="+", help="test curves (CSV), one file per test")
+    k.add_argument("--fit", default=None, help="comma-separated parameters to fit "
+                   "(default: a resistance, a diffusivity and a rate-constant scale)")
+    k.add_argument("--out", default=None, help="calibrated cell file to write "
+                   "(default: <cell>_calibrated.toml in the current folder)")
     return p
 
 
@@ -162,16 +185,20 @@ def _silence_stdout() -> None:
         pass
 
 
+_OUT_IS_FILE = {"report": "report.html", "new-cell": "my_cell.toml",
+                "calibrate": "my_cell_calibrated.toml"}
+
+
 def _check_out(args) -> None:
     """``--out`` names a folder (demo, run, size, sweep) or a report file (report)."""
     out = getattr(args, "out", None)
     if out is None:
         return
     path = Path(out)
-    if args.command == "report":
+    if args.command in _OUT_IS_FILE:
         if path.is_dir():
-            raise InputError(f"`--out` {clip(out)}: is a folder; expected a report file name "
-                             "such as report.html")
+            raise InputError(f"`--out` {clip(out)}: is a folder; expected a file name "
+                             f"such as {_OUT_IS_FILE[args.command]}")
     elif path.exists() and not path.is_dir():
         raise InputError(f"`--out` {clip(out)}: is an existing file; expected a folder (it is "
                          "created when missing)")
@@ -211,5 +238,17 @@ def _dispatch(args) -> int:
     if args.command == "report":
         from explorer.report import cmd_report
 
-        return cmd_report(args.results, args.out)
+        return cmd_report(args.results[0] if len(args.results) == 1 else args.results, args.out)
+    if args.command == "validate":
+        from explorer.validation import cmd_validate
+
+        return cmd_validate(Path(args.out), quick=args.quick)
+    if args.command == "new-cell":
+        from explorer.cell.datasheet import cmd_new_cell
+
+        return cmd_new_cell(args.datasheet, args.out)
+    if args.command == "calibrate":
+        from explorer.calibration import cmd_calibrate
+
+        return cmd_calibrate(args.cell, args.tests, fit=args.fit, out=args.out)
     raise AssertionError(args.command)
