@@ -86,6 +86,32 @@ def test_cooling_design_review(tmp_path):
     assert "flow_L_min =" in text and "Baseline edge plate" in text
     report = tmp_path / "cooling_design_review.html"
     assert report.is_file() and report.stat().st_size > 1_000_000  # plotly.js inline
+    # the verdict tables are rounded, with units, and name the figures in words
+    tables = [out["data"]["text/html"] for cell in nb.cells if cell.cell_type == "code"
+              for out in cell.get("outputs", []) if "text/html" in out.get("data", {})
+              and "<table" in out["data"]["text/html"]]
+    assert any("hottest point, core included" in t and "°C" in t for t in tables)
+    assert not any("temperature_max_C" in t for t in tables)
+    _shows_figures_offline(nb, tmp_path, expected=3)
+
+
+def _shows_figures_offline(nb, tmp_path: Path, expected: int) -> None:
+    """Exported with nbconvert and opened with the network blocked, every figure draws."""
+    from browser_util import file_url, offline_page, require_browser
+
+    require_browser()
+    nbconvert = pytest.importorskip("nbconvert")
+    html, _ = nbconvert.HTMLExporter().from_notebook_node(nb)
+    exported = tmp_path / "exported.html"
+    exported.write_text(html, encoding="utf-8")
+    with offline_page() as (page, errors):
+        page.goto(file_url(exported))
+        page.wait_for_function(f"document.querySelectorAll('.plotly-graph-div .main-svg')"
+                               f".length >= {expected}", timeout=30_000)
+        drawn = page.evaluate("Array.from(document.querySelectorAll('.plotly-graph-div'))"
+                              ".filter(d => d.querySelector('.main-svg') && d.data"
+                              " && d.data.length > 0).length")
+    assert drawn == expected, (drawn, errors)
 
 
 def test_app_runs_in_a_kernel_background_thread(tmp_path):
