@@ -16,23 +16,14 @@ Public constructors: :func:`discharge`, :func:`charge`, :func:`hold_voltage`,
 
 from __future__ import annotations
 
-import csv
 import math
-import os
 from dataclasses import asdict, dataclass, field, replace
-from pathlib import Path
 
 import numpy as np
 
 from explorer.validators import InputError, check_integer, short_repr
 
 QUANTITIES = ("voltage", "current", "soc", "temperature", "time")
-# Units accepted in a profile CSV header, converted to SI by these factors.
-_PROFILE_UNITS = {
-    "time": {"s": 1.0, "min": 60.0, "h": 3600.0},
-    "current": {"A": 1.0, "mA": 1e-3},
-    "power": {"W": 1.0, "kW": 1e3, "mW": 1e-3},
-}
 # Upper bounds that keep a duty meaningful and its resolved values finite: no cell is run at
 # more than 100 C (common practice: high-power cells are rated to tens of C at most), and a
 # repeated cycle is a list held in memory.
@@ -274,113 +265,37 @@ def profile_csv(path, *, end_voltage_V=None, end_temperature_C=None, end_soc=Non
                 label=None) -> Step:
     """A recorded load profile from a CSV file.
 
-    The file is UTF-8 text (a byte-order mark is fine). Lines starting with
-    ``#`` are comments. The header names the columns with their units, in
-    brackets or as a suffix: ``time [s]`` or ``time_s`` (also ``min``, ``h``)
-    and either ``current [A]``/``current_A`` (``mA``) or ``power [W]``/``power_W``
-    (``kW``, ``mW``), positive on discharge. Each value holds from its time to
-    the next; the profile ends at the last time. The cell's voltage window
-    guards it: reaching the window cuts the duty short (run status "cut_short").
+    The file is read by :func:`explorer.csvdata.read_curves`: UTF-8 text (a
+    byte-order mark is fine), ``#`` comment lines, a header naming each column
+    with its unit as a suffix: ``time_s`` (also ``time_min``, ``time_h``) and
+    either ``current_A`` (``current_mA``) or ``power_W`` (``power_kW``,
+    ``power_mW``), positive on discharge. Headers with the unit in brackets
+    (``time [s]``) are still read, with a FutureWarning naming the suffix form.
+    Each value holds from its time to the next; the profile ends at the last
+    time. The cell's voltage window guards it: reaching the window cuts the
+    duty short (run status "cut_short").
     """
-    path = _profile_path(path)
+    from explorer.csvdata import check_path, read_curves
+
+    path = check_path(path, "duty.profile_csv")
     label = _label("duty.profile_csv", label, "")
-    where = f"{path}"
-    text = _read_text(path)
-    numbered = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1)
-                if ln.strip() and not ln.lstrip().startswith("#")]
-    line_no = [n for n, _ in numbered]  # file line of each row, for the messages
-    rows = list(csv.reader(ln for _, ln in numbered))
-    if len(rows) < 3:
-        raise InputError(f"{where}: a profile needs a header and at least two rows, "
-                         f"found {len(rows)} line(s)")
-    columns = {}
-    for i, head in enumerate(rows[0]):
-        name, unit = _parse_header(where, head)
-        columns[name] = (i, unit)
-    if "time" not in columns:
-        raise InputError(f"{where}: header {rows[0]!r} has no `time [s]` (or `time_s`) column")
-    load = [q for q in ("current", "power") if q in columns]
+    data = read_curves(path, required=("time_s",), optional=("current_A", "power_W"),
+                       where="duty.profile_csv", what="profile")
+    load = [name for name in ("current_A", "power_W") if name in data]
     if len(load) != 1:
-        raise InputError(f"{where}: header {rows[0]!r} needs exactly one of `current [A]` "
-                         f"(`current_A`) or `power [W]` (`power_W`), found {load or 'neither'}")
-    quantity = load[0]
-    data = {}
-    for name in ("time", quantity):
-        col, unit = columns[name]
-        scale = _PROFILE_UNITS[name].get(unit)
-        if scale is None:
-            raise InputError(f"{where}: column `{name}` has unknown unit {unit!r}; expected one "
-                             f"of {sorted(_PROFILE_UNITS[name])}")
-        values = []
-        for line, r in zip(line_no[1:], rows[1:]):
-            try:
-                v = float(r[col])
-            except (IndexError, ValueError):
-                raise InputError(f"{where}, line {line}: column `{name}` value "
-                                 f"{r[col] if col < len(r) else '(missing)'!r} is not a number") from None
-            if not math.isfinite(v):
-                raise InputError(f"{where}, line {line}: column `{name}` is {r[col]!r}; "
-                                 "expected a finite number")
-            values.append(v * scale)
-        data[name] = np.asarray(values)
-    t = data["time"] - data["time"][0]
-    steps = np.diff(t)
-    if np.any(steps <= 0):
-        i = int(np.argmax(steps <= 0))  # rows i and i+1 of the data
-        raise InputError(f"{where}, line {line_no[i + 2]}: times must increase strictly; "
-                         f"found {data['time'][i]:g} then {data['time'][i + 1]:g} s")
-    ends = _ends(where, voltage=end_voltage_V, soc=end_soc, temperature_C=end_temperature_C)
+        raise InputError(f"{path}: the header needs exactly one of `current_A` or `power_W` "
+                         f"(units as suffixes), found {load or 'neither'}")
+    quantity = load[0].partition("_")[0]
+    t = data["time_s"] - data["time_s"][0]
+    if np.any(np.diff(t) <= 0):  # e.g. a first time of -3.6e16 s swallows the others
+        raise InputError(f"{path}: times counted from the first one ({data['time_s'][0]:g} s) "
+                         "do not increase strictly (the first time is too far from the others "
+                         "for double precision); expected increasing times in seconds")
+    ends = _ends(f"{path}", voltage=end_voltage_V, soc=end_soc, temperature_C=end_temperature_C)
     return Step("profile", ends=ends, profile_time_s=tuple(t.tolist()),
-                profile_value=tuple(data[quantity].tolist()), profile_quantity=quantity,
+                profile_value=tuple(data[load[0]].tolist()), profile_quantity=quantity,
                 label=label or path.stem, source=str(path),
                 default_limit=end_voltage_V is None)
-
-
-def _profile_path(path) -> Path:
-    """``path`` as a Path: a non-empty str or os.PathLike naming a file (no NUL character)."""
-    text = os.fspath(path) if isinstance(path, str | os.PathLike) else None
-    if not isinstance(text, str):
-        raise InputError(f"duty.profile_csv: `path` must be a file path (str or pathlib.Path), "
-                         f"got {type(path).__name__} {short_repr(path)}")
-    if not text.strip():
-        raise InputError(f"duty.profile_csv: `path` is empty ({short_repr(text)}); expected "
-                         "the path of a profile CSV file")
-    if "\x00" in text:
-        raise InputError(f"duty.profile_csv: `path` {short_repr(text)} contains a NUL "
-                         "character; expected the path of a profile CSV file")
-    return Path(text)
-
-
-def _read_text(path: Path) -> str:
-    """The file as text: UTF-8, a leading byte-order mark dropped; anything else is an
-    InputError naming the file and the line of the first byte that is not UTF-8."""
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"{path}: cannot read the profile ({exc.strerror})") from None
-    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
-        raise InputError(f"{path}: the profile is UTF-16 text; save it as UTF-8 (plain CSV)")
-    try:
-        return raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[:exc.start].count(b"\n") + 1
-        raise InputError(f"{path}, line {line}: byte 0x{raw[exc.start]:02x} is not UTF-8 text "
-                         "(the file is probably Latin-1 or Windows-1252); save the profile as "
-                         "UTF-8") from None
-
-
-def _parse_header(where, head: str):
-    """(name, unit) from ``time [s]`` or ``time_s``; the name is case-blind, the unit is not."""
-    h = head.strip()
-    if "[" in h and h.endswith("]"):
-        name, unit = h[:-1].split("[", 1)
-        return name.strip().lower(), unit.strip()
-    name, sep, unit = h.rpartition("_")
-    if sep and name.strip() and unit:
-        return name.strip().lower(), unit
-    raise InputError(f"{where}: header {head!r} must state its unit in brackets or as a "
-                     "suffix, e.g. `time [s]` or `time_s`, `current [A]` or `current_A`, "
-                     "`power [W]` or `power_W`")
 
 
 def as_steps(duty) -> list[Step]:
