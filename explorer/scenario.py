@@ -49,6 +49,12 @@ design limits, and what to size or sweep. Tables and keys:
     [sweep.axes]
     flow_L_min = [1.0, 2.0, 4.0]
 
+    [app]                                   # how the notebook app shows it (the commands
+    grid = "coarse"                         # ignore this table)
+
+The same format is written by the app's "Save inputs", read back by its "Load inputs", run by
+``python -m explorer run`` and built from Python with :func:`save`.
+
 Every problem is reported as an :class:`~explorer.validators.InputError`
 naming the file, the field, the value and what was expected.
 
@@ -80,7 +86,7 @@ DESIGNS = ("convection", "face_plate", "edge_plate", "tab_cooling")
 PLATES = ("cold_plate", "fixed_sink")
 MODEL_KEYS = ("electrochemistry", "layout", "start_soc", "start_temperature_C", "grid",
               "position", "output_interval_s", "mesh")
-TABLES = ("scenario", "model", "duty", "cooling", "limits", "size", "sweep")
+TABLES = ("scenario", "model", "duty", "cooling", "limits", "size", "sweep", "app")
 SIZE_KEYS = ("vary", "bounds", "samples", "rtol", "spacing", "max_evaluations", "positions",
              "resolution", "cheaper", "module")
 SWEEP_KEYS = ("axes", "cache", "keep_fields", "trace_interval_s")
@@ -104,6 +110,7 @@ class Scenario:
     limits: Limits | None = None
     size: dict | None = None
     sweep: dict | None = None
+    tables: dict = field(default_factory=dict)  # the file's own tables, as read
 
 
 # --------------------------------------------------------------------------- loading
@@ -144,6 +151,11 @@ def load_scenario(path) -> Scenario:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ScenarioError(f"{where}: not valid TOML ({exc})") from None
+    return _from_tables(where, path, raw)
+
+
+def _from_tables(where: str, path: Path, raw: dict) -> Scenario:
+    """The validated scenario of the file's tables (``path`` anchors relative file names)."""
     _unknown(where, "", raw, TABLES)
     head = _table(where, raw, "scenario", required=True)
     _unknown(where, "scenario", head, ("name", "description", "cell"))
@@ -159,7 +171,8 @@ def load_scenario(path) -> Scenario:
     sweep = _sweep(where, path, raw["sweep"]) if "sweep" in raw else None
     return Scenario(path=path, name=str(head.get("name", path.stem)),
                     description=str(head.get("description", "")), cell=cell, duty=duty,
-                    cooling=cooling, model=model, limits=limits, size=size, sweep=sweep)
+                    cooling=cooling, model=model, limits=limits, size=size, sweep=sweep,
+                    tables=raw)
 
 
 def _table(where, raw, name, required=False) -> dict:
@@ -390,6 +403,97 @@ def _sweep(where, path, table) -> dict:
         out["trace_interval_s"] = _number(where, "sweep.trace_interval_s",
                                           table["trace_interval_s"])
     return out
+
+
+# --------------------------------------------------------------------------- writing
+
+
+def save(path, *, cell, duty, cooling=None, model=None, limits=None, size=None, sweep=None,
+         app=None, name=None, description=None) -> Path:
+    """Write a scenario file from plain values; the same tables :func:`load_scenario` reads.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file to write (atomically; the folder must exist).
+    cell : str or Path
+        A demo cell name, or a cell file (written relative to the scenario's folder when it
+        lies below it, so the pair can be moved together).
+    duty : list of dict
+        One table per step, e.g. ``[{"step": "discharge", "c_rate": 1.0}]``.
+    cooling, model, size, sweep, app : dict, optional
+        The ``[cooling]``, ``[model]``, ``[size]``, ``[sweep]`` and ``[app]`` tables.
+    limits : explorer.Limits or dict, optional
+    name, description : str, optional
+
+    Returns
+    -------
+    Path
+
+    Raises
+    ------
+    ScenarioError
+        When the tables would not load (the file is then not written).
+
+    Examples
+    --------
+    >>> save("van.toml", cell="van_nmc_66ah", duty=[{"step": "discharge", "c_rate": 1.0}],
+    ...      cooling={"design": "convection", "h_W_m2K": 10.0, "ambient_C": 25.0},
+    ...      limits={"temperature_max_C": 45.0})                   # doctest: +SKIP
+    """
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if path.suffix.lower() != ".toml":
+        raise ScenarioError(f"{path}: a scenario file is TOML; expected a name ending in .toml")
+    if not folder.is_dir():
+        raise ScenarioError(f"{path}: the folder {str(folder)!r} does not exist")
+    head = {"name": name or path.stem, "cell": _relative(str(cell), folder)}
+    if description:
+        head["description"] = description
+    if isinstance(limits, Limits):
+        limits = {k: v for k, v in limits.as_dict().items() if v is not None}
+    tables = {"scenario": head, "model": model, "duty": duty, "cooling": cooling,
+              "limits": limits, "size": size, "sweep": sweep, "app": app}
+    tables = {k: _plain(v) for k, v in tables.items() if v}
+    for step in tables.get("duty", []):
+        if isinstance(step, dict) and isinstance(step.get("path"), str):
+            step["path"] = _relative(step["path"], folder)
+    _from_tables(str(path), path, tables)  # refuse what would not load, before writing
+    from explorer.fileio import atomic_write_text
+
+    return atomic_write_text(path, dumps(tables))
+
+
+def dumps(tables: dict) -> str:
+    """The TOML text of a scenario's tables, with this tool's header line."""
+    import tomli_w
+
+    return "# Pouch Thermal Explorer scenario (python -m explorer run <this file>)\n" + \
+        tomli_w.dumps(tables)
+
+
+def _plain(value):
+    """Tuples as lists, numpy scalars as Python numbers: what the TOML writer takes."""
+    if isinstance(value, dict):
+        return {k: _plain(v) for k, v in value.items() if v is not None}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if hasattr(value, "item") and not isinstance(value, (str, bytes)):
+        return value.item()
+    if isinstance(value, Path):
+        return str(value)
+    return value
+
+
+def _relative(name: str, folder: Path) -> str:
+    """A file below ``folder`` as a path relative to it (POSIX form); anything else as given."""
+    candidate = Path(name).expanduser()
+    if not (candidate.suffix or "/" in name or "\\" in name):
+        return name  # a demo cell name
+    try:
+        return candidate.resolve().relative_to(folder.resolve()).as_posix()
+    except ValueError:
+        return str(candidate.resolve()) if candidate.exists() else name
 
 
 # --------------------------------------------------------------------------- commands

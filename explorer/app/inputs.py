@@ -6,7 +6,8 @@ Nothing here touches a widget, so every rule is unit-testable:
 * :func:`validate` — field name -> error text for the inputs that apply (empty when all is well);
 * :func:`inputs_to_call` — the inputs turned into the public calls (``explorer.load_cell``,
   ``explorer.duty.*``, ``explorer.cooling.*``, ``explorer.Limits``) ready for ``explorer.simulate``;
-* :func:`save_inputs` / :func:`load_inputs` — the app's scenario file (JSON or TOML, our own format).
+* :func:`save_inputs` / :func:`load_inputs` — the inputs as a scenario file (``explorer.scenario``'s
+  TOML: the file ``python -m explorer run`` runs).
 
 Examples
 --------
@@ -37,6 +38,7 @@ __all__ = [
     "applies",
     "defaults",
     "inputs_to_call",
+    "inputs_to_tables",
     "load_inputs",
     "save_inputs",
     "validate",
@@ -225,7 +227,7 @@ def _profile_error(value) -> str | None:
     return None
 
 
-def validate(values: dict, check_files: bool = True) -> dict[str, str]:
+def validate(values: dict, check_files: bool = True, check_design: bool = True) -> dict[str, str]:
     """Return field name -> error message for every applicable input that is wrong.
 
     Parameters
@@ -235,6 +237,9 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
     check_files : bool
         Also load the cell file and parse the profile CSV (a real check: the loader's own errors
         are shown next to the field).
+    check_design : bool
+        Also build the duty and the cooling with the public constructors (their own checks, e.g.
+        a coolant's liquid range; the first build loads the coolant's properties).
     """
     values = {**defaults(), **values}
     errors: dict[str, str] = {}
@@ -284,7 +289,7 @@ def validate(values: dict, check_files: bool = True) -> dict[str, str]:
     if float(values["size_low"]) >= float(values["size_high"]):
         errors["size_high"] = (f"expected `to` > `from` ({float(values['size_low']):g}), got "
                                f"{float(values['size_high']):g}")
-    if not errors:
+    if not errors and check_design:
         errors.update(_design_errors(values))
     return errors
 
@@ -517,71 +522,248 @@ class InputsFileError(InputError):
 
 
 def save_inputs(values: dict, path) -> Path:
-    """Write the inputs to ``path`` (``.json`` or ``.toml``) atomically and return the path."""
+    """Write the inputs as a scenario file (``explorer.scenario``'s TOML) and return the path.
+
+    The file is the one ``python -m explorer run`` runs and :func:`load_inputs` reads back: the
+    inputs that apply, in the scenario's tables, plus an ``[app]`` table with what only the app
+    shows (the grid choice, the sizing range when it is not part of a ``[size]``).
+    """
+    from explorer import scenario
+
     path = Path(path)
     values = {**defaults(), **values}
     unknown = sorted(set(values) - set(FIELDS))
     if unknown:
         raise InputsFileError(f"{path}: unknown input(s) {unknown}; expected names from FIELDS")
-    if path.suffix.lower() == ".json":
-        text = json.dumps({"format": FILE_FORMAT, "version": FILE_VERSION, "inputs": values},
-                          indent=2) + "\n"
-    elif path.suffix.lower() == ".toml":
-        text = _to_toml(values)
-    else:
-        raise InputsFileError(f"{path}: expected a file name ending in .json or .toml, got "
+    if path.suffix.lower() != ".toml":
+        raise InputsFileError(f"{path}: expected a scenario file name ending in .toml, got "
                               f"{path.suffix or 'no suffix'!r}")
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputsFileError(f"{path}: the folder {str(folder)!r} does not exist")
-    from explorer.fileio import atomic_write_text
-
-    return atomic_write_text(path, text)
-
-
-def _toml_value(value) -> str:
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, int | float):
-        return repr(float(value)) if isinstance(value, float) else str(value)
-    return json.dumps(str(value), ensure_ascii=False)  # a JSON string is a valid TOML basic string
+    errors = validate(values, check_files=False)
+    if errors:
+        raise InputsError(errors, where=str(path))
+    try:
+        return scenario.save(path, **inputs_to_tables(values))
+    except InputError as exc:
+        raise InputsFileError(str(exc)) from None
 
 
-def _to_toml(values: dict) -> str:
-    lines = ["# Pouch Thermal Explorer: inputs of the notebook app", f'format = "{FILE_FORMAT}"',
-             f"version = {FILE_VERSION}", "", "[inputs]"]
-    group = None
-    for name, f in FIELDS.items():
-        if f.group != group:
-            group = f.group
-            lines.append(f"# {group}")
-        unit = f"  # {f.unit}" if f.unit else ""
-        lines.append(f"{name} = {_toml_value(values[name])}{unit}")
-    return "\n".join(lines) + "\n"
+def inputs_to_tables(values: dict) -> dict:
+    """The keywords of :func:`explorer.scenario.save` for app inputs (those that apply)."""
+    v = {**defaults(), **values}
+    model = {"electrochemistry": v["electrochemistry"], "layout": v["layout"],
+             "start_soc": float(v["start_soc_pct"]) / 100.0,
+             "start_temperature_C": float(v["start_temperature_C"])}
+    if v["grid"] in GRID_CELLS:
+        model["grid"] = list(_grid(v["grid"], _load_cell(v["cell"].strip()))["grid"])
+    if v["duty"] == "discharge":
+        duty = [{"step": "discharge", "c_rate": float(v["discharge_c_rate"])}]
+    elif v["duty"] == "fast_charge":
+        duty = [{"step": "charge", "c_rate": float(v["charge_c_rate"])},
+                {"step": "hold_voltage", "end_c_rate": float(v["charge_end_c_rate"])}]
+    else:
+        duty = [{"step": "profile_csv", "path": v["profile_path"].strip()}]
+    limits = {"temperature_max_C": float(v["limit_temperature_C"]),
+              "spread_K": float(v["limit_spread_K"])}
+    if float(v["limit_cell_to_cell_K"]) > 0.0:
+        limits["cell_to_cell_K"] = float(v["limit_cell_to_cell_K"])
+    return {"cell": v["cell"].strip(), "duty": duty, "cooling": _cooling_table(v),
+            "model": model, "limits": limits,
+            "size": {"vary": v["size_vary"],
+                     "bounds": [float(v["size_low"]), float(v["size_high"])]},
+            "app": {"grid": v["grid"]}, "name": "app inputs"}
 
 
-def load_inputs(path) -> dict:
-    """Read a scenario file written by :func:`save_inputs`; return the full inputs dict.
+def _cooling_table(v: dict) -> dict | None:
+    kind = v["cooling"]
+    table = None
+    if kind == "convection":
+        table = {"design": "convection", "h_W_m2K": float(v["h_W_m2K"]),
+                 "ambient_C": float(v["ambient_C"])}
+    elif kind in _PLATES:
+        table = {"design": kind, "tim_W_mK": float(v["tim_W_mK"]), "tim_mm": float(v["tim_mm"]),
+                 "plate": {"kind": "cold_plate", "coolant": v["coolant"],
+                           "flow_L_min": float(v["flow_L_min"]), "inlet_C": float(v["inlet_C"]),
+                           "cells_per_plate": int(float(v["cells_per_plate"]))}}
+        if kind == "face_plate":
+            table["face"] = v["plate_face"]
+        else:
+            table["edge"] = v["plate_edge"]
+            if float(v["fin_mm"]) > 0:
+                table["fin_mm"] = float(v["fin_mm"])
+    if v["tab_cooling"]:
+        tabs = {"design": "tab_cooling", "conductance_W_K": float(v["tab_conductance_W_K"]),
+                "busbar_C": float(v["busbar_C"])}
+        if table is None:
+            return tabs
+        table["with"] = [tabs]
+    return table
 
-    Raises :class:`InputsFileError` naming the file, the field, the value and what was expected.
-    Inputs missing from the file take their defaults; unknown ones are an error.
+
+def load_inputs(path, notes: list | None = None) -> dict:
+    """Read a scenario file into the app's inputs; return the full inputs dict.
+
+    Reads the scenario TOML of ``explorer.scenario`` (what :func:`save_inputs` and the command
+    line write). What the app cannot show is an :class:`InputsFileError` that says so (several
+    duty steps, a fixed-temperature plate, ...); settings the app leaves to its defaults (the
+    output interval, a grid that is not one of its three) are appended to ``notes`` in words.
+    Inputs missing from the file take their defaults.
     """
+    from explorer import scenario
+
     path = Path(path)
     if not path.is_file():
-        raise InputsFileError(f"{path}: file not found; expected an app inputs file (.json or .toml)")
+        raise InputsFileError(f"{path}: file not found; expected a scenario file (.toml)")
+    if path.suffix.lower() == ".json" or _legacy(path):
+        return _load_legacy(path)
+    try:
+        sc = scenario.load_scenario(path)  # every problem named with the file and field
+    except InputError as exc:
+        raise InputsFileError(str(exc)) from None
+    values = tables_to_inputs(sc.tables, str(path), sc.path.parent, sc.cell, notes)
+    problems = [f"`{name}` = {values.get(name)!r}: {message}"
+                for name, message in validate(values, check_files=False).items()]
+    if problems:
+        raise InputsFileError(f"{path}: the app cannot show these inputs:\n  "
+                              + "\n  ".join(problems))
+    return values
+
+
+def tables_to_inputs(tables: dict, where: str, folder: Path, cell, notes=None) -> dict:
+    """App inputs of a scenario's tables (validated already); :class:`InputsFileError` for
+    what the app cannot show."""
+    notes = [] if notes is None else notes
+    v = defaults()
+    head = tables["scenario"]
+    v["cell"] = _absolute(head["cell"], folder)
+    v.update(_duty_inputs(tables["duty"], where, folder))
+    v.update(_cooling_inputs(tables.get("cooling"), where))
+    model = tables.get("model", {})
+    for key in model:
+        if key not in ("electrochemistry", "layout", "start_soc", "start_temperature_C", "grid"):
+            notes.append(f"`model.{key}` is not an app input; the app uses its own default")
+    v["electrochemistry"] = model.get("electrochemistry", "spme").lower()
+    v["layout"] = model.get("layout", "averaged").lower()
+    v["start_soc_pct"] = 100.0 * float(model.get("start_soc", 1.0))
+    v["start_temperature_C"] = float(model.get("start_temperature_C", 25.0))
+    v["grid"] = _grid_choice(model.get("grid"), tables.get("app", {}).get("grid"), cell, notes)
+    limits = tables.get("limits", {})
+    extra = sorted(set(limits) - {"temperature_max_C", "spread_K", "cell_to_cell_K"})
+    if extra:
+        notes.append(f"limits {', '.join(extra)} are not app inputs; the app does not check them")
+    v["limit_temperature_C"] = float(limits.get("temperature_max_C", v["limit_temperature_C"]))
+    v["limit_spread_K"] = float(limits.get("spread_K", v["limit_spread_K"]))
+    v["limit_cell_to_cell_K"] = float(limits.get("cell_to_cell_K", 0.0))
+    size = tables.get("size", {})
+    if size.get("vary") in dict(FIELDS["size_vary"].choices):
+        v["size_vary"] = size["vary"]
+    if size.get("bounds"):
+        v["size_low"], v["size_high"] = (float(b) for b in size["bounds"])
+    return v
+
+
+def _absolute(name: str, folder: Path) -> str:
+    """A file name of the scenario, relative to its folder, as the app (the working folder)
+    needs it; a demo cell name as it is."""
+    p = Path(name).expanduser()
+    if not (p.suffix or "/" in name or "\\" in name) or p.is_absolute():
+        return name
+    return str(folder / p)
+
+
+def _duty_inputs(steps: list, where: str, folder: Path) -> dict:
+    kinds = [s.get("step") for s in steps]
+    if kinds == ["discharge"] and set(steps[0]) <= {"step", "c_rate"}:
+        return {"duty": "discharge", "discharge_c_rate": float(steps[0]["c_rate"])}
+    if (kinds == ["charge", "hold_voltage"] and set(steps[0]) <= {"step", "c_rate"}
+            and set(steps[1]) <= {"step", "end_c_rate"}):
+        return {"duty": "fast_charge", "charge_c_rate": float(steps[0]["c_rate"]),
+                "charge_end_c_rate": float(steps[1]["end_c_rate"])}
+    if kinds == ["profile_csv"] and set(steps[0]) <= {"step", "path"}:
+        return {"duty": "profile", "profile_path": _absolute(steps[0]["path"], folder)}
+    raise InputsFileError(
+        f"{where}: the duty ({' + '.join(map(str, kinds))}) is not one the app shows (one "
+        "discharge at a C-rate, a CC-CV fast charge, or a load profile); run this scenario "
+        "with `python -m explorer run`")
+
+
+_PLATE_KEYS = {"kind", "coolant", "flow_L_min", "inlet_C", "cells_per_plate"}
+_DESIGN_KEYS = {"design", "plate", "face", "edge", "fin_mm", "tim_W_mK", "tim_mm"}
+
+
+def _cooling_inputs(table, where: str) -> dict:
+    out = {"cooling": "adiabatic", "tab_cooling": False}
+    if not table:
+        return out
+    parts = [{k: v for k, v in table.items() if k != "with"}, *table.get("with", [])]
+    main = [p for p in parts if p["design"] != "tab_cooling"]
+    tabs = [p for p in parts if p["design"] == "tab_cooling"]
+    shown = len(main) <= 1 and len(tabs) <= 1 and not (tabs and "tabs" in tabs[0])
+    if shown and tabs:
+        out.update(tab_cooling=True, tab_conductance_W_K=float(tabs[0].get("conductance_W_K", 2.0)),
+                   busbar_C=float(tabs[0].get("busbar_C", 25.0)))
+    if shown and main:
+        part, plate = main[0], main[0].get("plate", {})
+        if part["design"] == "convection":
+            out.update(cooling="convection", h_W_m2K=float(part["h_W_m2K"]),
+                       ambient_C=float(part["ambient_C"]))
+        elif (part["design"] in _PLATES and plate.get("kind", "cold_plate") == "cold_plate"
+              and set(plate) <= _PLATE_KEYS and set(part) <= _DESIGN_KEYS):
+            out.update(cooling=part["design"], coolant=plate.get("coolant", "water"),
+                       flow_L_min=float(plate["flow_L_min"]), inlet_C=float(plate["inlet_C"]),
+                       cells_per_plate=int(plate.get("cells_per_plate", 1)),
+                       tim_W_mK=float(part.get("tim_W_mK", FIELDS["tim_W_mK"].default)),
+                       tim_mm=float(part.get("tim_mm", FIELDS["tim_mm"].default)))
+            if part["design"] == "face_plate":
+                out["plate_face"] = part.get("face", "back")
+            else:
+                out.update(plate_edge=part.get("edge", "bottom"),
+                           fin_mm=float(part.get("fin_mm") or 0.0))
+        else:
+            shown = False
+    if not shown:
+        raise InputsFileError(
+            f"{where}: the cooling ({' + '.join(p['design'] for p in parts)}, with its settings) "
+            "is not one the app shows (convection, or a cold plate under a face or at an edge, "
+            "optionally with tab cooling); run this scenario with `python -m explorer run`")
+    return out
+
+
+def _grid_choice(grid, app_choice, cell, notes: list) -> str:
+    """The app's grid choice for a scenario's ``model.grid`` (nearest, with a note)."""
+    if grid is None:
+        return "standard" if app_choice in (None, "standard") else app_choice
+    for choice in GRID_CELLS:
+        if list(_grid(choice, cell)["grid"]) == list(grid):
+            return choice
+    n = grid[0] * grid[1]
+    nearest = min(GRID_CELLS, key=lambda c: abs(math.log(GRID_CELLS[c] / n)))
+    notes.append(f"`model.grid` = {list(grid)} is not one of the app's grids; shown on the "
+                 f"{nearest} grid instead")
+    return nearest
+
+
+def _legacy(path: Path) -> bool:
+    """A file in the app's earlier own format (a `format` key at the top)."""
+    try:
+        return tomllib.loads(path.read_text(encoding="utf-8")).get("format") == FILE_FORMAT
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError, OSError):
+        return False
+
+
+def _load_legacy(path: Path) -> dict:
+    """Read a file of the app's earlier format (JSON or TOML with a flat ``[inputs]``)."""
     raw = path.read_bytes()
     try:
         if path.suffix.lower() == ".json":
             doc = json.loads(raw.decode("utf-8"))
-        elif path.suffix.lower() == ".toml":
-            doc = tomllib.loads(raw.decode("utf-8"))
         else:
-            raise InputsFileError(f"{path}: expected a .json or .toml file, got {path.suffix!r}")
+            doc = tomllib.loads(raw.decode("utf-8"))
     except (json.JSONDecodeError, tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise InputsFileError(f"{path}: cannot parse the file ({exc})") from None
     if not isinstance(doc, dict) or doc.get("format") != FILE_FORMAT:
         got = doc.get("format") if isinstance(doc, dict) else type(doc).__name__
-        raise InputsFileError(f"{path}: field `format`: expected {FILE_FORMAT!r}, got {got!r}")
+        raise InputsFileError(f"{path}: field `format`: expected {FILE_FORMAT!r}, got {got!r}; "
+                              "save scenarios as .toml")
     if doc.get("version") != FILE_VERSION:
         raise InputsFileError(f"{path}: field `version`: expected {FILE_VERSION}, got "
                               f"{doc.get('version')!r}")
