@@ -13,6 +13,7 @@ Running
     :func:`open_results` -- load a saved run.
 Designing
     :class:`Limits`, :func:`size_cooling`, :func:`sweep`.
+    :func:`check_fidelity` -- the same design point on the fuller models: could the verdict flip?
 Exploring
     :func:`explore` -- the notebook app.
 
@@ -45,12 +46,15 @@ __all__ = [
     "size_cooling",
     "sweep",
     "explore",
+    "check_fidelity",
 ]
 
 # The notebook app (ipywidgets, plotly) loads on first use; Dask and CoolProp load inside the
 # functions that need them.
 _LAZY = {
     "explore": ("explorer.app", "explore"),
+    "check_fidelity": ("explorer.fidelity", "check_fidelity"),
+    "fidelity": ("explorer.fidelity", None),
 }
 
 
