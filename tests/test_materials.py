@@ -186,6 +186,31 @@ def test_entropic_magnitudes_of_published_measurements(key):
     assert np.max(np.abs(d)) > 1e-5
 
 
+@pytest.mark.parametrize("key, points", [("graphite", "GRAPHITE_POINTS"), ("nmc", "NMC_POINTS")])
+def test_demo_potentials_follow_their_invented_control_points(key, points):
+    # The graphite and NMC potentials are the project's own curves, invented for the demo:
+    # fits to invented control points (explorer/materials/ocp.py). Within 5 mV of each point.
+    import explorer.materials.ocp as ocp
+
+    pts = getattr(ocp, points)
+    assert np.max(np.abs(OCP[key].potential(pts[:, 0]) - pts[:, 1])) < 5e-3
+    assert "invented for the demo" in OCP[key].source
+
+
+def test_graphite_and_nmc_make_a_full_cell_of_the_usual_shape():
+    # common practice: an NMC/graphite cell's OCV rises monotonically from about 3.0-3.4 V
+    # near empty to about 4.1-4.2 V when full, with the graphite plateaus giving gentle
+    # steps; this uses the van demo cell's windows
+    c = load_cell("van_nmc_66ah")
+    soc = np.linspace(0, 1, 401)
+    from explorer.cell import ocv
+
+    v = ocv(c.negative, c.positive, soc)
+    assert np.all(np.diff(v) > 0)
+    assert 3.3 < float(np.interp(0.1, soc, v)) < 3.6
+    assert 4.1 < v[-1] < 4.2
+
+
 def test_ocp_callable_applies_entropic_correction():
     o = OCP["graphite"]
     assert float(o(0.5, 308.15)) == pytest.approx(

@@ -124,7 +124,9 @@ class Derived:
     positive_foils: int
     negative_sheet_resistance_ohm: float  # all negative foils in parallel, ohm per square
     positive_sheet_resistance_ohm: float
-    inplane_conductivity_W_mK: float  # used value (override if given)
+    # used value (override if given); effective over the whole stated cell thickness, so
+    # that times stack_thickness_m it is the in-plane conductance per square
+    inplane_conductivity_W_mK: float
     throughplane_conductivity_W_mK: float
     heat_capacity_J_K: float  # whole cell, used value
     computed_inplane_conductivity_W_mK: float  # from the layers, before overrides

@@ -39,7 +39,8 @@ fractions and counts are bare numbers (``porosity = 0.3``, ``unit_layers = 40``;
     ``conductivity_activation``, ``diffusivity_activation``, ``density``,
     ``specific_heat``.
 ``[thermal]`` (optional)
-    Measured stack values that replace the computed ones: ``inplane_conductivity``,
+    Measured stack values that replace the computed ones: ``inplane_conductivity``
+    (effective over the whole cell thickness ``geometry.thickness``),
     ``throughplane_conductivity``, ``heat_capacity`` (whole cell).
 """
 

@@ -8,6 +8,11 @@ iterations that step slightly outside the interval stay finite.
 
 The functions are cheap closed forms (exponentials and tanh only); they are
 called inside Newton loops.
+
+All three potentials are curves of the project's own, INVENTED FOR THE DEMO cells (the
+graphite and NMC ones fitted to invented control points, :data:`GRAPHITE_POINTS` and
+:data:`NMC_POINTS`); they describe no measured material. Real curves belong in a cell file
+as measured tables.
 """
 
 from __future__ import annotations
@@ -17,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["OpenCircuitPotential", "OCP", "STO_CLIP"]
+__all__ = ["OpenCircuitPotential", "OCP", "STO_CLIP", "GRAPHITE_POINTS", "NMC_POINTS"]
 
 STO_CLIP = 1e-6
 
@@ -65,17 +70,34 @@ class OpenCircuitPotential:
 
 
 # --- graphite -----------------------------------------------------------------------------
-# Potential: the fit for a graphite(-SiOx) negative electrode of Chen, Planella, O'Regan,
-# Gastol, Widanage & Kendrick, "Development of experimental techniques for parameterization
-# of multi-scale lithium-ion battery models", J. Electrochem. Soc. 167 (2020) 080534,
-# coefficients from memory of that paper.
+# Potential: INVENTED FOR THE DEMO. The project's own curve of the usual graphite shape (a
+# steep rise as the electrode empties, then the staging plateaus near 0.2, 0.12 and 0.09 V vs
+# Li/Li+), drawn as the control points below and fitted by a sum of monotone terms (falling
+# exponentials and falling tanh steps), every amplitude positive so the curve falls
+# everywhere. Coefficients: scipy.optimize.least_squares on GRAPHITE_POINTS, rounded to four
+# significant figures; within 5 mV of every point (tests/test_materials.py checks both).
+GRAPHITE_POINTS = np.array([
+    # stoichiometry, V vs Li/Li+ -- invented control points, describe no measured material
+    (0.002, 1.20), (0.01, 0.85), (0.02, 0.63), (0.03, 0.49), (0.045, 0.37), (0.07, 0.27),
+    (0.10, 0.222), (0.15, 0.195), (0.20, 0.178), (0.25, 0.145), (0.30, 0.127), (0.40, 0.119),
+    (0.48, 0.112), (0.55, 0.094), (0.62, 0.089), (0.70, 0.087), (0.80, 0.085), (0.90, 0.082),
+    (0.96, 0.075), (0.99, 0.060)])
+
+
+def _fall(x, centre, width):
+    """A smooth step from 1 to 0 across ``centre`` (falling in x)."""
+    return 0.5 * (1.0 - np.tanh((x - centre) / width))
+
+
 def _graphite_u(x):
     return (
-        1.9793 * np.exp(-39.3631 * x)
-        + 0.2482
-        - 0.0909 * np.tanh(29.8538 * (x - 0.1234))
-        - 0.04478 * np.tanh(14.9159 * (x - 0.2769))
-        - 0.0205 * np.tanh(30.4444 * (x - 0.6103))
+        0.1031
+        + 0.2884 * np.exp(-x / 0.006068)
+        + 0.8506 * np.exp(-x / 0.02799)
+        + 0.07242 * _fall(x, 0.2281, 0.05698)
+        + 0.02508 * _fall(x, 0.5095, 0.04417)
+        - 0.02288 * x
+        - 0.03057 * np.exp((x - 1.0) / 0.02494)
     )
 
 
@@ -92,16 +114,25 @@ def _graphite_dudt(x):
 
 
 # --- NMC (layered Li(Ni,Mn,Co)O2) ---------------------------------------------------------
-# Potential: the NMC811 fit of Chen et al., J. Electrochem. Soc. 167 (2020) 080534 (as above),
-# coefficients from memory of that paper. The two large tanh terms nearly cancel by design of
-# the fit; tanh saturates, so the sum stays well conditioned.
+# Potential: INVENTED FOR THE DEMO. The project's own curve of the usual layered-oxide shape
+# (sloping from about 4.4 V when delithiated to about 3.6 V, then falling steeply as the
+# lattice fills), drawn as the control points below and fitted by a falling line and two
+# exponentials (all terms falling). Coefficients: scipy.optimize.least_squares on NMC_POINTS,
+# rounded to four significant figures; within 5 mV of every point.
+NMC_POINTS = np.array([
+    # stoichiometry, V vs Li/Li+ -- invented control points, describe no measured material
+    (0.15, 4.52), (0.20, 4.40), (0.25, 4.29), (0.30, 4.20), (0.35, 4.12), (0.40, 4.05),
+    (0.45, 3.98), (0.50, 3.92), (0.55, 3.87), (0.60, 3.82), (0.65, 3.775), (0.70, 3.735),
+    (0.75, 3.695), (0.80, 3.655), (0.85, 3.61), (0.90, 3.54), (0.93, 3.47), (0.96, 3.33),
+    (0.98, 3.15)])
+
+
 def _nmc_u(x):
     return (
-        -0.8090 * x
-        + 4.4875
-        - 0.0428 * np.tanh(18.5138 * (x - 0.5542))
-        - 17.7326 * np.tanh(15.7890 * (x - 0.3117))
-        + 17.5842 * np.tanh(15.9308 * (x - 0.3120))
+        4.054
+        - 0.5576 * x
+        - 0.6645 * np.exp((x - 1.0) / 0.03591)
+        + 0.9655 * np.exp(-x / 0.2666)
     )
 
 
@@ -139,17 +170,17 @@ OCP: dict[str, OpenCircuitPotential] = {
     "graphite": OpenCircuitPotential(
         "graphite",
         "graphite negative electrode",
-        "potential: Chen et al., J. Electrochem. Soc. 167 (2020) 080534 (graphite-SiOx fit, "
-        "coefficients from memory); dU/dT: shape from memory of Reynier, Yazami & Fultz, "
+        "potential: invented for the demo (the project's own fit to invented control points "
+        "of the usual staging shape); dU/dT: shape from memory of Reynier, Yazami & Fultz, "
         "J. Electrochem. Soc. 151 (2004) A422, invented coefficients, for the demo",
         _graphite_u,
         _graphite_dudt,
     ),
     "nmc": OpenCircuitPotential(
         "nmc",
-        "layered nickel-manganese-cobalt oxide positive electrode (Ni-rich)",
-        "potential: Chen et al., J. Electrochem. Soc. 167 (2020) 080534 (NMC811 fit, "
-        "coefficients from memory); dU/dT: magnitude from memory of Viswanathan et al., "
+        "layered nickel-manganese-cobalt oxide positive electrode",
+        "potential: invented for the demo (the project's own fit to invented control points "
+        "of the usual sloping shape); dU/dT: magnitude from memory of Viswanathan et al., "
         "J. Power Sources 195 (2010) 3720, invented coefficients, for the demo",
         _nmc_u,
         _nmc_dudt,
