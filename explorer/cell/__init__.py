@@ -3,12 +3,14 @@
 * :func:`load_cell` — read and validate a cell TOML file (or a demo cell by name).
 * :func:`cell_from_text`, :func:`cell_from_dict` — the same from TOML text or a mapping.
 * :func:`list_demo_cells` — names of the bundled demo cells and their paths.
+* :func:`from_datasheet` — a complete cell from data-sheet values and a chemistry template.
 * :mod:`explorer.cell.model` — the :class:`Cell` dataclasses (SI units).
 * :mod:`explorer.cell.schema` — the file format's tables and keys.
 * :func:`summary`, :func:`summary_text` — key figures with units for reports.
 * :mod:`explorer.cell.derived` — capacities, foils, mass, stack properties.
 """
 
+from explorer.cell.datasheet import from_datasheet
 from explorer.cell.derived import ocv
 from explorer.cell.loader import (
     CellFileNotFoundError,
@@ -35,6 +37,7 @@ __all__ = [
     "list_demo_cells",
     "cell_from_text",
     "cell_from_dict",
+    "from_datasheet",
     "ocv",
     "summary",
     "summary_text",
