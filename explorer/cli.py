@@ -81,6 +81,10 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("results", nargs="+", help="results file(s) (netCDF) written by this tool; "
                    "several runs are compared side by side")
     r.add_argument("--out", default=None, help="report file (default: beside the results)")
+    r.add_argument("--plotlyjs", choices=("inline", "beside"), default="inline",
+                   help="inline: plotly.js inside the report (opens with no network); beside: "
+                   "load it from plotly-<version>.min.js written next to the report (many "
+                   "reports shared together carry it once)")
     v = sub.add_parser("validate", help="run the outside checks (published solutions, handbook "
                        "tables) and write the validation report (HTML and Markdown)")
     v.add_argument("--out", default="explorer-validation",
@@ -238,7 +242,7 @@ def _dispatch(args) -> int:
     if args.command == "report":
         from explorer.report import cmd_report
 
-        return cmd_report(args.results[0] if len(args.results) == 1 else args.results, args.out)
+        return cmd_report(args.results, args.out, plotlyjs=args.plotlyjs)
     if args.command == "validate":
         from explorer.validation import cmd_validate
 

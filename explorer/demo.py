@@ -109,7 +109,7 @@ def run_demo(cell_name: str, out: Path, c_rate: float = 2.0) -> int:
     from explorer.report import write_report
 
     try:
-        nc = save(ds, out / f"{stem}.nc")
+        nc = save(ds, out / f"{stem}.nc", limits=limits)
         html = write_report(ds, out / f"{stem}_report.html", limits=limits,
                             title=f"{cell.name}: {c_rate:g}C discharge on an edge cold plate")
     except (OSError, ValueError) as exc:  # ValueError: the report's own path checks

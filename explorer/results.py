@@ -148,12 +148,15 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "x": ("x", grid.x, {"units": "m", "long_name": "position across the electrode width"}),
         "y": ("y", grid.y, {"units": "m", "long_name": "position along the electrode height"}),
     }
+    if isinstance(attrs.get("inputs"), dict):  # the grid is chosen here, with the run
+        attrs = {**attrs, "inputs": {**attrs["inputs"], "model": {
+            **attrs["inputs"].get("model", {}), "grid": [grid.nx, grid.ny]}}}
     full_attrs = {
         "title": f"Pouch Thermal Explorer run: {cell.name}",
         "tool_version": __version__,
         "cell_name": cell.name,
         "cell_sha256": cell.sha256,
-        "cell_file": cell.source_path,
+        "cell_file": Path(str(cell.source_path or "")).name,
         "temperature_limit_C": cell.temperature_max_C,
         "grid_nx": grid.nx,
         "grid_ny": grid.ny,
@@ -167,6 +170,7 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "steps_rejected": record.steps_rejected,
         "caution": CAUTION,
         "Conventions": "CF-1.10",
+        "kind": "module" if "module_cells" in attrs else "run",
     }
     return xr.Dataset(data, coords=coords, attrs=full_attrs)
 
@@ -343,13 +347,44 @@ def _total(ds, running, rate, scale=1.0) -> float:
     return float(combine(np.sum(rates[:, 1:] * np.diff(t), axis=1))) * scale
 
 
-def save(ds: xr.Dataset, path) -> Path:
-    """Write ``ds`` to netCDF atomically (temporary file in the same folder, then rename)."""
+def save(ds: xr.Dataset, path, *, light: bool = True, limits=None,
+         field_interval_s: float | None = None) -> Path:
+    """Write ``ds`` to netCDF atomically (temporary file in the same folder, then rename).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        A run, a module run, a sizing curve or a sweep.
+    path : str or Path
+        The netCDF file; its folder is created when missing.
+    light : bool
+        Compress (zlib) and, for runs, modules and sweeps, store the 2-D fields in float32
+        and only every ``field_interval_s`` (on their own coordinate ``field_time``, with the
+        first and last times and the time of the peak); the scalar traces keep every step
+        in full precision, so the key figures and verdicts read back unchanged. ``False``
+        writes every value as it is (compressed only).
+    limits : explorer.Limits, optional
+        Recorded as ``attrs["limits"]`` so a report rebuilt from the file holds the run
+        against them (see :func:`limits_from`).
+    field_interval_s : float, optional
+        Time between stored fields; default about 1/60 of the run, on a 1-2-5 ladder.
+    """
     from explorer.fileio import atomic_write
 
     out = ds.copy()
-    out.attrs = {k: _attr(v) for k, v in ds.attrs.items()}
-    return atomic_write(path, lambda tmp: out.to_netcdf(tmp, engine="netcdf4"), parents=True)
+    out.attrs = {k: _attr(portable(v)) for k, v in ds.attrs.items()}
+    if limits is not None:
+        out.attrs["limits"] = json.dumps(limits.as_dict())
+    kind = results_file_kind(ds)
+    if "kind" not in out.attrs and kind in _KIND_ATTR:
+        out.attrs["kind"] = _KIND_ATTR[kind](ds)
+    lossy = light and kind in ("run", "sweep", "sizing curve")
+    if lossy:
+        out = _lighten(out, field_interval_s)
+    encoding = {name: {"zlib": True, "complevel": 4, "shuffle": True}
+                for name, v in out.variables.items() if v.dtype.kind in "fiu"}
+    return atomic_write(path, lambda tmp: out.to_netcdf(tmp, engine="netcdf4",
+                                                         encoding=encoding), parents=True)
 
 
 def _attr(v):
@@ -359,6 +394,290 @@ def _attr(v):
     if isinstance(v, str | int | float | np.number):
         return v
     return json.dumps(v, default=str)
+
+
+# results_file_kind -> the ``kind`` attribute a written file carries (contract G)
+_KIND_ATTR = {
+    "run": lambda ds: "module" if "cell" in ds.dims else "run",
+    "sweep": lambda ds: "sweep",
+    "sizing curve": lambda ds: "sizing_curve",
+}
+
+#: A run with at most this many steps keeps every field (unless an interval is asked for).
+FIELD_FRAMES = 60
+#: Variables stored as fields (every point of the face): decimated in time in a light file.
+FIELD_DIMS = ("time", "y", "x")
+
+
+def field_names(ds) -> list[str]:
+    """The variables that hold a field over the face at each time (dims include time, y, x)."""
+    return [n for n, v in ds.data_vars.items() if set(FIELD_DIMS) <= set(v.dims)]
+
+
+def _lighten(ds: xr.Dataset, field_interval_s: float | None) -> xr.Dataset:
+    """Fields in float32 on their own, coarser time base ``field_time``; traces untouched."""
+    names = field_names(ds)
+    if not names or ds.sizes.get("time", 0) == 0:
+        return ds
+    t = np.asarray(ds["time"].values, dtype=float)
+    interval = field_interval(t, field_interval_s)
+    keep = field_indices(t, interval, _peak_index(ds))
+    if field_interval_s is None and t.size <= FIELD_FRAMES:  # few steps: keep every one
+        keep = np.arange(t.size)
+    out = ds.drop_vars(names)
+    if keep.size == t.size:  # nothing dropped: the fields stay on `time`, in float32
+        for name in names:
+            out[name] = ds[name].astype(np.float32) if ds[name].dtype.kind == "f" else ds[name]
+        return out
+    for name in names:
+        v = ds[name].isel(time=keep).rename(time="field_time")
+        out[name] = v.astype(np.float32) if v.dtype.kind == "f" else v
+    out = out.assign_coords(field_time=("field_time", t[keep], {
+        "units": "s", "long_name": "times at which the fields are stored (every "
+        "field_interval_s, plus the first and last times and the time of the peak)"}))
+    out.attrs["field_interval_s"] = float(interval)
+    out.attrs["field_storage"] = (
+        f"fields ({', '.join(names)}) stored in float32 every {interval:g} s ({len(keep)} of "
+        f"{t.size} times, on the coordinate field_time); the scalar traces keep every step")
+    return out
+
+
+_LADDER = (1, 2, 5)
+
+
+def field_interval(t: np.ndarray, interval: float | None = None, frames: int = 60) -> float:
+    """The time between stored fields: ``interval`` when given (> 0), else the smallest value
+    of the 1-2-5 ladder (s) that gives at most about ``frames`` fields over the run."""
+    if interval is not None:
+        value = float(interval)
+        if not (math.isfinite(value) and value > 0):
+            raise InputError(f"save: `field_interval_s` must be a number > 0 s, got {interval!r}")
+        return value
+    duration = float(t[-1] - t[0]) if t.size > 1 else 0.0
+    target = duration / max(frames - 1, 1)
+    if target <= 0:
+        return 1.0
+    decade = 10.0 ** math.floor(math.log10(target))
+    for step in (*_LADDER, 10):
+        if step * decade >= target * (1 - 1e-9):
+            return step * decade
+    return 10 * decade  # pragma: no cover - the loop always returns
+
+
+def field_indices(t: np.ndarray, interval: float, extra=()) -> np.ndarray:
+    """Indices of ``t`` nearest to every multiple of ``interval``, plus the first, the last and
+    ``extra`` (e.g. the time of the peak)."""
+    if t.size == 0:
+        return np.zeros(0, int)
+    marks = np.arange(t[0], t[-1] + interval, interval)
+    idx = np.clip(np.searchsorted(t, marks), 0, t.size - 1)
+    before = np.clip(idx - 1, 0, t.size - 1)
+    nearest = np.where(np.abs(t[before] - marks) <= np.abs(t[idx] - marks), before, idx)
+    return np.unique(np.concatenate([[0, t.size - 1], nearest, np.asarray(extra, int)]))
+
+
+def _peak_index(ds) -> list[int]:
+    """The time index of the hottest point of the mean field (kept among the stored fields)."""
+    if "temperature_max" not in ds or "time" not in ds["temperature_max"].dims:
+        return []
+    v = ds["temperature_max"]
+    values = np.asarray(v.transpose(..., "time").values, dtype=float).reshape(-1, ds.sizes["time"])
+    if not np.isfinite(values).any():
+        return []
+    return [int(np.nanargmax(np.nanmax(values, axis=0)))]
+
+
+def field_view(ds: xr.Dataset) -> xr.Dataset:
+    """``ds`` with its fields on ``time`` again: as it is when the fields have every step,
+    else on the stored field times (every variable taken at those times), for the plots."""
+    if "field_time" not in ds.dims:
+        return ds
+    names = [n for n, v in ds.data_vars.items() if "field_time" in v.dims]
+    t = np.asarray(ds["time"].values, dtype=float)
+    idx = np.clip(np.searchsorted(t, np.asarray(ds["field_time"].values, dtype=float)),
+                  0, t.size - 1)
+    out = ds.drop_vars([*names, "field_time"]).isel(time=idx)
+    for name in names:
+        v = ds[name].drop_vars("field_time").rename(field_time="time")
+        out[name] = v.astype(float) if v.dtype.kind == "f" else v
+    return out
+
+
+def portable(value):
+    """``value`` with every local absolute path reduced to its file name (in JSON too)."""
+    if isinstance(value, str):
+        if value[:1] in "[{":
+            try:
+                parsed = json.loads(value)
+            except ValueError:
+                return value
+            cleaned = _portable(parsed)
+            return value if cleaned == parsed else json.dumps(cleaned)
+        return _portable(value)
+    if isinstance(value, dict | list | tuple):
+        return _portable(value)
+    return value
+
+
+def _portable(value):
+    if isinstance(value, str):
+        looks_absolute = (value.startswith("/") or value.startswith("~")
+                          or (len(value) > 2 and value[1] == ":" and value[2] in "\\/"))
+        if looks_absolute and "\n" not in value and len(value) < 4096:
+            return value.replace("\\", "/").rstrip("/").rsplit("/", 1)[-1]
+        return value
+    if isinstance(value, dict):
+        return {k: _portable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_portable(v) for v in value]
+    return value
+
+
+def limits_from(ds):
+    """The :class:`~explorer.Limits` a results file was held against, or None.
+
+    Read from ``attrs["limits"]`` (JSON, contract G; written by :func:`save` with
+    ``limits=``, by the scenario commands and by sweeps) or, for a sizing curve, from its
+    ``limit_<name>`` attributes.
+    """
+    from explorer.limits import Limits
+
+    raw = ds.attrs.get("limits")
+    values: dict = {}
+    if isinstance(raw, str) and raw.strip():
+        try:
+            values = json.loads(raw)
+        except ValueError:
+            values = {}
+    elif isinstance(raw, dict):
+        values = dict(raw)
+    if not values:
+        names = Limits.__dataclass_fields__
+        values = {k[len("limit_"):]: v for k, v in ds.attrs.items()
+                  if k.startswith("limit_") and k[len("limit_"):] in names}
+    values = {k: float(v) for k, v in (values or {}).items()
+              if isinstance(v, int | float | np.number) and not isinstance(v, bool)}
+    if not values:
+        return None
+    try:
+        return Limits(**values)
+    except (InputError, TypeError):
+        return None
+
+
+# Words that mark a data note as one a reviewer must see (invented, template or assumed data).
+NOTE_WORDS = ("invented", "template", "assumed", "fictional", "placeholder", "example")
+
+
+def data_attrs(cell, steps=()) -> dict:
+    """What a results file says about where its data come from (contract G).
+
+    ``data_note`` (the cell file's own), ``data_notes`` (JSON list: every invented, template
+    or assumed input: the cell, a load profile marked invented in its header),
+    ``cell_file`` (the file name only) and ``cell_file_sha256``; ``cell_warnings`` (JSON list)
+    when the cell carries warnings (e.g. an inconsistent geometry).
+    """
+    extra = getattr(cell, "extra", {}) or {}
+    note = str(extra.get("data_note", "") or "")
+    name = Path(str(getattr(cell, "source_path", "") or "")).name
+    notes = []
+    if _marked(note):
+        notes.append(f"cell {cell.name} ({name or 'built in Python'}): {note}")
+    notes += _provenance_notes(cell, extra)
+    for step in steps:
+        step = getattr(step, "step", step)
+        source = str(getattr(step, "source", "") or "")
+        header = _file_header(source) if source else ""
+        if _marked(header):
+            notes.append(f"load profile {Path(source).name}: {header}")
+    out = {"data_note": note, "data_notes": json.dumps(notes),
+           "cell_file": name, "cell_file_sha256": str(getattr(cell, "sha256", "") or "")}
+    warnings = extra.get("warnings")
+    if warnings:
+        out["cell_warnings"] = json.dumps([str(w) for w in warnings])
+    return out
+
+
+def _marked(text: str) -> bool:
+    low = text.lower()
+    return any(word in low for word in NOTE_WORDS)
+
+
+def _provenance_notes(cell, extra) -> list[str]:
+    """A note for a cell whose values come (in part) from a template (built cells carry a
+    per-value provenance mapping)."""
+    prov = extra.get("provenance")
+    if not isinstance(prov, dict):
+        return []
+    template = sorted(k for k, v in prov.items() if "template" in str(v).lower())
+    if not template:
+        return []
+    shown = ", ".join(template[:6]) + (", ..." if len(template) > 6 else "")
+    return [f"cell {cell.name}: {len(template)} value(s) from a chemistry template ({shown})"]
+
+
+def _file_header(path: str, lines: int = 5) -> str:
+    """The comment lines at the top of a text file (where demo data say they are invented)."""
+    try:
+        with open(path, encoding="utf-8", errors="replace") as fh:
+            head = [fh.readline() for _ in range(lines)]
+    except OSError:
+        return ""
+    text = " ".join(h.strip().lstrip("#").strip() for h in head if h.lstrip().startswith("#"))
+    return text[:300]
+
+
+def run_inputs(cell, steps, cooling_description: dict, *, electrochemistry, layout,
+               start_soc, start_temperature_C, output_interval_s=None, rod_grid=None,
+               mesh=None) -> dict:
+    """The inputs of a run as a JSON-able mapping (contract G): numbers keep their unit in the
+    key's suffix; files are named by their file name only."""
+    g = cell.geometry
+    cell_in = {
+        "name": cell.name,
+        "file": Path(str(cell.source_path or "")).name,
+        "sha256": cell.sha256,
+        "data_note": (getattr(cell, "extra", {}) or {}).get("data_note", ""),
+        "nominal_capacity_Ah": cell.nominal_capacity_Ah,
+        "voltage_min_V": cell.voltage_min_V,
+        "voltage_max_V": cell.voltage_max_V,
+        "temperature_max_C": cell.temperature_max_C,
+        "width_mm": g.width_m * 1e3,
+        "height_mm": g.height_m * 1e3,
+        "thickness_mm": g.stack_thickness_m * 1e3,
+    }
+    duty = [portable(getattr(s, "step", s).describe()) for s in steps]
+    model = {"electrochemistry": electrochemistry, "layout": layout,
+             "output_interval_s": output_interval_s or "auto"}
+    if rod_grid is not None:
+        model["rods"] = list(rod_grid)
+    if mesh:
+        model["rod_mesh"] = dict(mesh)
+    return {"cell": cell_in, "duty": duty, "cooling": portable(cooling_description),
+            "model": model, "start": {"soc": start_soc, "temperature_C": start_temperature_C}}
+
+
+def open_any(path) -> tuple[xr.Dataset, str]:
+    """Load any of the tool's netCDF files: ``(ds, kind)`` with kind from
+    :func:`results_file_kind` ("run", "sweep", "sizing curve", "sweep cache entry" or
+    "foreign"). Raises :class:`~explorer.validators.InputError` for a missing or unreadable
+    file."""
+    path = Path(path)
+    try:
+        found = path.is_file()
+    except (OSError, ValueError):  # a name the OS refuses (too long, NUL byte)
+        found = False
+    if not found:
+        raise InputError(f"{path}: no such results file")
+    try:
+        with xr.open_dataset(path, engine="netcdf4") as ds:
+            ds = ds.load()
+    except Exception as exc:  # a file netCDF cannot decode is not ours, whatever the decoder
+        # raised (OSError, ValueError, KeyError, ... depending on the damage)
+        text = " ".join(str(exc).split())[:200]
+        raise InputError(f"{path}: not a results file this tool can read "
+                         f"({type(exc).__name__}: {text})") from None
+    return ds, results_file_kind(ds)
 
 
 class ResultsKindError(InputError):
@@ -397,25 +716,14 @@ def results_file_kind(ds: xr.Dataset) -> str:
 def open_results(path) -> xr.Dataset:
     """Load a saved run (all variables into memory, all attributes kept).
 
+    A light file (see :func:`save`) keeps its fields on the coordinate ``field_time``;
+    :func:`field_view` puts them back on ``time`` for the plots.
+
     Raises :class:`~explorer.validators.InputError` for a missing or unreadable
     file, and :class:`ResultsKindError` (naming what the file is) for a sweep,
     a sizing curve, a sweep cache entry or a netCDF file the tool did not write.
     """
-    path = Path(path)
-    try:
-        found = path.is_file()
-    except (OSError, ValueError):  # a name the OS refuses (too long, NUL byte)
-        found = False
-    if not found:
-        raise InputError(f"{path}: no such results file")
-    try:
-        with xr.open_dataset(path, engine="netcdf4") as ds:
-            ds = ds.load()
-    except Exception as exc:  # a file netCDF cannot decode is not ours, whatever the decoder
-        # raised (OSError, ValueError, KeyError, ... depending on the damage)
-        raise InputError(f"{path}: not a results file this tool can read "
-                         f"({type(exc).__name__}: {str(exc)[:200]})") from None
-    kind = results_file_kind(ds)
+    ds, kind = open_any(path)
     if kind != "run":
         raise ResultsKindError(path, _OTHER_KINDS[kind])
     return ds

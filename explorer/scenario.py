@@ -526,14 +526,13 @@ def cmd_run(scenario, out=None) -> int:
     and pump power. Returns 0 (completed, limits met), 1 (a limit not met or
     the run failed) or 2 (bad input).
     """
-    from explorer.results import key_figures
+    from explorer.results import key_figures, save
     from explorer.simulate import simulate
     from explorer.sizing import run_hydraulics
-    from explorer.sweeping import write_netcdf
 
     sc = load_scenario(scenario)
     ds = simulate(sc.cell, sc.duty, sc.cooling, **sc.model)
-    path = write_netcdf(ds, _out_dir(sc, out) / f"{sc.path.stem}_run.nc")
+    path = save(ds, _out_dir(sc, out) / f"{sc.path.stem}_run.nc", limits=sc.limits)
     fig = key_figures(ds)
     hyd = run_hydraulics(ds) or {}
     lines = [f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}",
@@ -566,8 +565,8 @@ def cmd_size(scenario, out=None) -> int:
     a feasible value was found, 1 when none in the bounds meets the limits,
     2 for bad input.
     """
+    from explorer.results import data_attrs, save
     from explorer.sizing import size_cooling
-    from explorer.sweeping import write_netcdf
 
     sc = load_scenario(scenario)
     where = str(sc.path)
@@ -589,13 +588,16 @@ def cmd_size(scenario, out=None) -> int:
                        tuple(bounds), sc.limits, on_evaluation=progress, **options, **sc.model)
     folder = _out_dir(sc, out)
     run = res.dataset if res.module is None else res.module  # the module run, all its cells
-    run_path = write_netcdf(run, folder / f"{sc.path.stem}_size.nc")
+    run = run.copy()
+    run.attrs["kind"] = "sizing"  # the run at the design value (contract G)
+    run_path = save(run, folder / f"{sc.path.stem}_size.nc", limits=sc.limits)
     curve = res.curve.copy()
     curve.attrs.update({"design_value": res.value, "feasible": int(res.feasible),
                         "limited_by": res.limited_by, "unit": res.unit,
                         "message": res.message, "cell_name": sc.cell.name,
-                        "cooling": json.dumps(res.design.describe(), default=str)})
-    curve_path = write_netcdf(curve, folder / f"{sc.path.stem}_size_curve.nc")
+                        "cooling": json.dumps(res.design.describe(), default=str),
+                        **data_attrs(sc.cell, sc.duty)})
+    curve_path = save(curve, folder / f"{sc.path.stem}_size_curve.nc", limits=sc.limits)
     _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", res.table(),
             f"wrote {run_path}", f"wrote {curve_path}"])
     return 0 if res.feasible else 1
@@ -609,7 +611,8 @@ def cmd_sweep(scenario, out=None, scheduler=None) -> int:
     a running scheduler. Returns 0 when every case ran, 1 when a case failed,
     2 for bad input.
     """
-    from explorer.sweeping import sweep, write_netcdf
+    from explorer.results import data_attrs, save
+    from explorer.sweeping import sweep
 
     sc = load_scenario(scenario)
     if sc.sweep is None:
@@ -617,7 +620,9 @@ def cmd_sweep(scenario, out=None, scheduler=None) -> int:
     options = {k: v for k, v in sc.sweep.items() if k != "axes"}
     ds = sweep(sc.cell, sc.duty, sc.cooling, sc.sweep["axes"], scheduler=scheduler,
                limits=sc.limits, **options, **sc.model)
-    path = write_netcdf(ds, _out_dir(sc, out) / f"{sc.path.stem}_sweep.nc")
+    ds.attrs.update({k: v for k, v in data_attrs(sc.cell, sc.duty).items()
+                     if k not in ds.attrs or k == "cell_file"})
+    path = save(ds, _out_dir(sc, out) / f"{sc.path.stem}_sweep.nc", limits=sc.limits)
     _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", sweep_table(ds),
             f"wrote {path}"])
     return 0 if ds.attrs["cases_failed"] == 0 else 1

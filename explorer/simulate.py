@@ -152,8 +152,16 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
 
 def run_attrs(cell, cooling, steps, *, electrochemistry, layout, start_soc, start_temperature_C,
               thermal, r_collector, output_interval_s, into_coolant_W, mesh, rod_grid) -> dict:
-    """The model settings a results Dataset carries (shared by a single run and a module)."""
+    """The model settings a results Dataset carries (shared by a single run and a module),
+    with its inputs and data notes (contract G: :func:`explorer.results.data_attrs`)."""
+    from explorer.results import data_attrs, run_inputs
+
     return {
+        **data_attrs(cell, steps),
+        "inputs": run_inputs(cell, steps, _describe(cooling), electrochemistry=electrochemistry,
+                             layout=layout, start_soc=start_soc,
+                             start_temperature_C=start_temperature_C,
+                             output_interval_s=output_interval_s, rod_grid=rod_grid, mesh=mesh),
         "electrochemistry": electrochemistry,
         "layout": layout,
         "start_soc": start_soc,
