@@ -1,8 +1,11 @@
-"""Sanity of cell files: the in-plane conductance from the layers listed (hand calculation)."""
+"""Sanity of cell files: the in-plane conductance from the layers listed, the stated capacity
+and mass against what the layers give (hand calculations)."""
 
 import pytest
 
 from explorer.cell import cell_from_text, list_demo_cells, load_cell
+from explorer.cell.loader import STATED_TOLERANCE
+from explorer.validators import CellFileError
 
 VAN = list_demo_cells()["van_nmc_66ah"].read_text(encoding="utf-8")
 
@@ -40,3 +43,55 @@ def test_measured_inplane_conductivity_is_over_the_whole_thickness():
     assert c.derived.inplane_conductivity_W_mK == 20.0
     assert c.derived.computed_inplane_conductivity_W_mK == pytest.approx(
         load_cell("van_nmc_66ah").derived.inplane_conductivity_W_mK, rel=1e-12)
+
+
+# ---- stated figures against the layers ----------------------------------------------------
+
+def _van(**subs):
+    text = VAN
+    for old, new in subs.values():
+        assert old in text
+        text = text.replace(old, new)
+    return cell_from_text(text, "my_cell.toml")
+
+
+def test_faraday_capacity_of_the_van_loadings_by_hand():
+    # Faraday's law, Q = F c_max eps_act L A N |dx| / 3600, on the van file's positive
+    # coating (the smaller of the two windows): F = 96485.33 C/mol (CODATA), 48800 mol/m^3,
+    # active fraction 0.65, 73 um, 240 x 160 mm, 44 layers, window 0.9078..0.2642
+    by_hand = 96485.33 * 48800 * 0.65 * 73e-6 * 0.240 * 0.160 * 44 * (0.9078 - 0.2642) / 3600
+    c = load_cell("van_nmc_66ah")
+    assert c.derived.theoretical_capacity_Ah == pytest.approx(by_hand, rel=1e-3)
+    # the stated 66 Ah is within the tolerance
+    assert abs(c.nominal_capacity_Ah / by_hand - 1) < STATED_TOLERANCE
+
+
+@pytest.mark.parametrize("stated", ["90 Ah", "50 Ah", "660 Ah"])
+def test_stated_capacity_far_from_the_loadings_is_an_error(stated):
+    with pytest.raises(CellFileError) as err:
+        _van(q=('nominal_capacity = "66 Ah"', f'nominal_capacity = "{stated}"'))
+    msg = str(err.value)
+    assert err.value.fields() == ["cell.nominal_capacity"]
+    assert "my_cell.toml" in msg and stated in msg and "67.49 Ah" in msg and "20%" in msg
+
+
+@pytest.mark.parametrize("stated", ["60 Ah", "75 Ah"])
+def test_stated_capacity_within_the_tolerance_loads(stated):
+    assert _van(q=('nominal_capacity = "66 Ah"', f'nominal_capacity = "{stated}"'))
+
+
+def test_capacity_check_catches_a_wrong_layer_count():
+    # 22 layers instead of 44 halves the loadings' capacity: the stated 66 Ah is then 2x
+    with pytest.raises(CellFileError, match="nominal_capacity"):
+        _van(n=("unit_layers = 44", "unit_layers = 22"))
+
+
+def test_stated_mass_checked_against_the_parts():
+    c = _van(m=('nominal_capacity = "66 Ah"', 'nominal_capacity = "66 Ah"\nmass = "0.95 kg"'))
+    assert c.mass_kg == pytest.approx(0.95)
+    assert load_cell("van_nmc_66ah").mass_kg is None  # optional
+    with pytest.raises(CellFileError) as err:
+        _van(m=('nominal_capacity = "66 Ah"', 'nominal_capacity = "66 Ah"\nmass = "1.3 kg"'))
+    msg = str(err.value)
+    assert err.value.fields() == ["cell.mass"]
+    assert "1300 g" in msg and "880.3 g" in msg and "my_cell.toml" in msg

@@ -32,13 +32,15 @@ from explorer.units import UnitError, parse
 from explorer.validators import MISSING, CellFileError, Problem
 
 __all__ = ["load_cell", "cell_from_text", "cell_from_dict", "list_demo_cells", "DEMO_DIR", "CellFileNotFoundError",
-           "WINDOW_MISMATCH_TOLERANCE"]
+           "WINDOW_MISMATCH_TOLERANCE", "STATED_TOLERANCE"]
 
 log = logging.getLogger(__name__)
 
 DEMO_DIR = Path(__file__).resolve().parents[2] / "demo_cells"
 #: largest allowed relative difference between the two electrodes' window capacities
 WINDOW_MISMATCH_TOLERANCE = 0.05
+#: largest allowed relative difference of the stated capacity and mass from what the layers give
+STATED_TOLERANCE = 0.20
 
 
 class CellFileNotFoundError(CellFileError, FileNotFoundError):
@@ -339,6 +341,9 @@ def _build(data: dict, fname: str, source_path: str, sha: str) -> Cell:
 
     derived = compute_derived(geometry, neg_cc, pos_cc, negative, positive, separator,
                               electrolyte, thermal)
+    _stated_checks(r, cellv, derived)
+    if r.problems:
+        raise CellFileError(r.problems, fname)
     log.debug("loaded %s: %.2f Ah computed", fname, derived.theoretical_capacity_Ah)
     return Cell(
         name=cellv["name"],
@@ -359,6 +364,7 @@ def _build(data: dict, fname: str, source_path: str, sha: str) -> Cell:
         derived=derived,
         source_path=source_path,
         sha256=sha,
+        mass_kg=cellv.get("mass_kg"),
         extra={"data_note": cellv["data_note"],
                "layers_thickness_m": layers_thickness_m(geometry, neg_cc, pos_cc, negative,
                                                         positive, separator)},
@@ -457,3 +463,22 @@ def _physical_checks(r, geometry, neg_cc, pos_cc, negative, positive, separator)
               f"SOC windows holding the same charge in both electrodes (within "
               f"{WINDOW_MISMATCH_TOLERANCE:.0%}); the negative window holds {q_n:.2f} Ah, "
               f"the positive {q_p:.2f} Ah")
+
+
+def _stated_checks(r: _Reader, cellv: dict, derived) -> None:
+    """Data-sheet figures against what the listed layers give (a typo or a wrong layer count
+    shows up here before it shows up as a strange run)."""
+    tol = STATED_TOLERANCE
+    q, q_layers = cellv["nominal_capacity_Ah"], derived.theoretical_capacity_Ah
+    if abs(q - q_layers) > tol * q_layers:
+        r.add("cell.nominal_capacity", f"{q:g} Ah",
+              f"a capacity within {tol:.0%} of the {q_layers:.4g} Ah the electrode loadings "
+              "hold (Faraday's law: coating volume x active_fraction x max_concentration x "
+              "stoichiometry window x F, the smaller electrode); check the capacity, the "
+              "coating thicknesses, unit_layers, width x height and the stoichiometry windows")
+    m = cellv.get("mass_kg")
+    if m is not None and abs(m - derived.mass_kg) > tol * derived.mass_kg:
+        r.add("cell.mass", f"{m * 1e3:g} g",
+              f"a mass within {tol:.0%} of the {derived.mass_kg * 1e3:.4g} g the listed parts "
+              "weigh (coatings, separators, electrolyte in the pores, foils, pouch, tab free "
+              "lengths); check the mass, the dimensions, unit_layers and the densities")

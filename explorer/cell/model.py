@@ -154,6 +154,7 @@ class Cell:
     derived: Derived
     source_path: str = ""  # file it was read from
     sha256: str = ""  # of the file's bytes
+    mass_kg: float | None = None  # stated (data sheet), if the file gives it
     extra: dict = field(default_factory=dict, compare=False, repr=False)
 
     def tab(self, polarity: str) -> tuple[Tab, ...]:

@@ -9,7 +9,9 @@ fractions and counts are bare numbers (``porosity = 0.3``, ``unit_layers = 40``;
     ``name``, ``description``, ``data_note`` (where the numbers come from, e.g.
     "invented for the demo"), ``nominal_capacity``, ``voltage_min``,
     ``voltage_max``, ``temperature_min``, ``temperature_max`` (data-sheet
-    operating window).
+    operating window), optional ``mass`` (data sheet). The stated capacity and mass
+    must lie within 20 % of what the layers give (Faraday's law on the loadings; the
+    listed parts' mass), else the file is refused.
 ``[geometry]``
     ``width`` (x), ``height`` (y) of the coated electrode, ``unit_layers``,
     ``thickness`` (whole cell, pouch included), ``pouch_foil_thickness`` (one side).
@@ -95,6 +97,7 @@ CELL = (
        low=-100.0, high=200.0),
     _q("temperature_max", "temperature_max_C", "degC", "55 degC", check="range",
        low=-100.0, high=200.0),
+    _q("mass", "mass_kg", "kg", "900 g", required=False),
 )
 
 GEOMETRY = (
@@ -196,6 +199,7 @@ PLAUSIBLE = {
     "cell.nominal_capacity": (1e-3, 1e4),
     "cell.voltage_min": (0.1, 10.0),
     "cell.voltage_max": (0.1, 10.0),
+    "cell.mass": (1e-4, 1e3),
     "geometry.width": (1e-3, 5.0),
     "geometry.height": (1e-3, 5.0),
     "geometry.thickness": (1e-5, 0.2),

@@ -44,6 +44,8 @@ def summary(cell: Cell) -> list[dict]:
         row("unit_layers", "Unit layers", g.unit_layers),
         row("foils", "Negative / positive foils", f"{d.negative_foils} / {d.positive_foils}"),
         row("mass", "Mass", d.mass_kg * 1e3, "g"),
+        *([row("stated_mass", "Stated mass (data sheet)", cell.mass_kg * 1e3, "g")]
+          if getattr(cell, "mass_kg", None) is not None else []),
         row("specific_energy", "Specific energy", d.energy_Wh / d.mass_kg, "Wh/kg"),
         row("np_ratio", "N/P ratio", d.np_ratio),
         row("sheet_resistance", "Sheet resistance, negative / positive foils",
