@@ -104,10 +104,11 @@ def test_validate_exits_1_when_a_check_fails(monkeypatch, tmp_path, capsys):
 def _fake_rows():
     base = {"cell": "invented", "c_rate": 1.0, "temperature_C": 25.0, "voltage_rms_mV": 7.5,
             "voltage_max_mV": 20.0, "peak_as_run_C": 40.0, "peak_difference_K": -0.004,
-            "dfn_peak_difference_K": 0.6, "note": ""}
+            "dfn_peak_difference_K": 0.6, "grid_peak_difference_K": 0.1, "note": ""}
     failed = dict(base, c_rate=3.0, voltage_rms_mV=math.nan, voltage_max_mV=math.nan,
                   peak_as_run_C=math.nan, peak_difference_K=math.nan,
-                  dfn_peak_difference_K=math.nan, note="SPMe averaged failed at 39 s",
+                  dfn_peak_difference_K=math.nan, grid_peak_difference_K=math.nan,
+                  note="SPMe averaged failed",
                   messages={"SPMe averaged": "stopped at t = 39 s: <depleted> & more"})
     return [base, failed]
 
@@ -144,13 +145,13 @@ def test_report_renders_offline_with_the_map():
 def test_fuller_model_map_small():
     """One point of the map on the power cell: every figure finite, no failure, and the cheap
     models within the mild-case bounds at 1C and 25 degC (5 mV, 0.5 K; issue 10)."""
-    settings = MapSettings(c_rates=(1.0,), temperatures_C=(25.0,), cells_in_grid=24, rods=4)
+    settings = MapSettings(c_rates=(1.0,), temperatures_C=(25.0,), cells_in_grid=24)
     rows, seconds = fuller_model_map(settings, cells=["bus_power_12ah"])
     assert len(rows) == 1 and seconds > 0
     row = rows[0]
     assert row["note"] == ""
     for key in ("voltage_rms_mV", "voltage_max_mV", "peak_as_run_C", "peak_difference_K",
-                "dfn_peak_difference_K"):
+                "dfn_peak_difference_K", "grid_peak_difference_K"):
         assert math.isfinite(row[key]), key
     assert row["voltage_rms_mV"] < 5.0 and abs(row["peak_difference_K"]) < 0.5
 

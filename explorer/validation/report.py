@@ -168,10 +168,11 @@ def _table(head, rows, header: bool = True, escaped: bool = False, numeric=()) -
 _FIDELITY_INTRO = (
     "The tool's own models against each other (no outside source): for each demo cell, C-rate "
     "and start temperature, the same discharge and cooling run with the SPMe on the averaged "
-    "layout (as a user runs it by default), with the DFN through the cell, and with the "
-    "distributed layout over the face. Where the differences are small against the margins of "
-    "a design, the cheap models are enough; where they are not, run the fuller ones (or the "
-    "fidelity check on the design point).")
+    "layout (as a user runs it by default), then, through the fidelity check, with the DFN "
+    "through the cell, with the distributed layout over the face and on a grid twice as fine. "
+    "Where the differences are small against the margins of a design, the cheap models are "
+    "enough; where they are not, run the fuller ones (explorer.check_fidelity on the design "
+    "point says so for one design).")
 
 
 _MARKED = (f"In bold: an SPMe-DFN voltage RMS beyond {MARK_VOLTAGE_RMS_MV:g} mV or a peak-"
@@ -184,7 +185,7 @@ def _fidelity_html(fidelity) -> str:
     from explorer.validation.fuller import map_messages, map_table_rows
 
     head, rows = map_table_rows(fidelity["rows"], mark=lambda t: f"<strong>{t}</strong>")
-    rows = [[v if i in (3, 6, 7) else _esc(v) for i, v in enumerate(row)] for row in rows]
+    rows = [[v if i in (3, 6, 7, 8) else _esc(v) for i, v in enumerate(row)] for row in rows]
     notes = [f"<li>{_esc(m)}</li>" for m in map_messages(fidelity["rows"])]
     return "\n".join([
         f"<p>{_esc(_FIDELITY_INTRO)}</p>",
@@ -192,7 +193,7 @@ def _fidelity_html(fidelity) -> str:
         f"{fidelity['seconds']:.1f} s.</p>",
         fidelity["figure"].to_html(full_html=False, include_plotlyjs=False, div_id="fuller_map"),
         f"<p>{_esc(_MARKED)}</p>",
-        _table(head, rows, escaped=True, numeric=(1, 2, 3, 4, 5, 6, 7)),
+        _table(head, rows, escaped=True, numeric=(1, 2, 3, 4, 5, 6, 7, 8)),
         *(["<p>Runs that did not complete:</p><ul>", *notes, "</ul>"] if notes else [])])
 
 
