@@ -101,6 +101,17 @@ def test_validate_exits_1_when_a_check_fails(monkeypatch, tmp_path, capsys):
     assert "a check that fails" in capsys.readouterr().err
 
 
+def test_a_broken_map_is_reported_and_fails_the_run(monkeypatch, tmp_path):
+    def broken(progress=None):
+        raise RuntimeError("the map broke")
+
+    monkeypatch.setattr(validation, "CHECKS", (checks.glycol_properties,))
+    monkeypatch.setattr(validation, "run_fidelity_map", broken)
+    assert validation.cmd_validate(tmp_path, quick=False) == 1
+    md = (tmp_path / "validation.md").read_text()
+    assert "The map did not finish:** RuntimeError: the map broke" in md
+
+
 def _fake_rows():
     base = {"cell": "invented", "c_rate": 1.0, "temperature_C": 25.0, "voltage_rms_mV": 7.5,
             "voltage_max_mV": 20.0, "peak_as_run_C": 40.0, "peak_difference_K": -0.004,

@@ -64,10 +64,17 @@ def cmd_validate(out: Path, quick: bool = False) -> int:
 
     t0 = time.perf_counter()
     results = run_checks()
-    fidelity = None if quick else run_fidelity_map()
+    fidelity = None
+    if not quick:
+        try:
+            fidelity = run_fidelity_map()
+        except Exception as exc:  # a bug: the report says so and the exit code is 1
+            fidelity = {"error": f"{type(exc).__name__}: {exc}"}
     total = time.perf_counter() - t0
     html_path, md_path = write_report(Path(out), results, environment(), total, quick, fidelity)
     failed = [r.name for r in results if r.passed is False]
+    if fidelity is not None and "error" in fidelity:
+        failed.append(f"the fuller-model map ({fidelity['error']})")
     _say(f"validate: {len(results)} checks, {len(failed)} failed"
          + (f" ({'; '.join(failed)})" if failed else "") + f"; {total:.1f} s")
     print(html_path)

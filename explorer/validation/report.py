@@ -182,6 +182,8 @@ _MARKED = (f"In bold: an SPMe-DFN voltage RMS beyond {MARK_VOLTAGE_RMS_MV:g} mV 
 def _fidelity_html(fidelity) -> str:
     if fidelity is None:
         return "<p>Skipped in the quick mode (<code>--quick</code>).</p>"
+    if "error" in fidelity:
+        return f"<p class='FAIL'>The map did not finish: {_esc(fidelity['error'])}</p>"
     from explorer.validation.fuller import map_messages, map_table_rows
 
     head, rows = map_table_rows(fidelity["rows"], mark=lambda t: f"<strong>{t}</strong>")
@@ -222,6 +224,8 @@ def render_markdown(results, env: dict, total_s: float, quick: bool, fidelity=No
     lines += ["", "## Where the fuller models matter", ""]
     if fidelity is None:
         lines.append("Skipped in the quick mode (`--quick`).")
+    elif "error" in fidelity:
+        lines.append(f"**The map did not finish:** {fidelity['error']}")
     else:
         from explorer.validation.fuller import map_messages, map_table_rows
 
