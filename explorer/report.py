@@ -91,7 +91,8 @@ pre{margin:0;white-space:pre-wrap;font-size:.85em}
 .banner{border:2px solid #B2182B;background:#fdecea;padding:.7em 1em;margin:1em 0}
 .warnings li{color:#8a1c1c}
 .first-screen{border:1px solid #ccd;padding:.2em 1em 1em;background:#fafbfd}
-.verdict-met{color:#1a7f37;font-weight:bold}.verdict-not{color:#B2182B;font-weight:bold}
+.verdict-met{color:#1a7f37;font-weight:bold;white-space:nowrap}
+.verdict-not{color:#B2182B;font-weight:bold;white-space:nowrap}
 .status-stopped,.status-failed,.status-cut_short{color:#B2182B;font-weight:bold}
 .plot{margin:0 0 1.5em}
 footer{margin-top:3em;border-top:1px solid #ccc;padding-top:1em;font-size:.9em;color:#333}
@@ -351,11 +352,13 @@ def _fidelity_summary(ds) -> dict | None:
 
 
 def _fidelity_html(summary: Mapping) -> str:
+    """The check's table and message: :func:`explorer.fidelity.html_table`, else drawn here from
+    the summary's rows (contract F)."""
     try:
         from explorer import fidelity
 
         return fidelity.html_table(summary)
-    except (ImportError, AttributeError):
+    except (ImportError, AttributeError, KeyError, TypeError):
         pass
     rows = []
     for r in summary.get("rows", []) or []:
@@ -368,6 +371,8 @@ def _fidelity_html(summary: Mapping) -> str:
     for skipped in summary.get("skipped", []) or []:
         out.append(f"<p class='meta'>Not run: {_esc(skipped.get('variant', ''))} — "
                    f"{_esc(skipped.get('reason', ''))}</p>")
+    out.append(f"<p>Verdict could flip: {_esc(summary.get('verdict_could_flip', '?'))}. "
+               f"{_esc(summary.get('message', ''))}</p>")
     return "\n".join(out)
 
 
@@ -463,9 +468,6 @@ def _run_section(page: _Page, ds, k: int, name: str, inputs, limits) -> None:
     if summary:
         page.heading(3, "Fidelity check: the same design point on fuller models",
                      f"{prefix}-fidelity")
-        message = summary.get("message", "")
-        if message:
-            page.add(f"<p>{_esc(message)}</p>")
         page.add(_fidelity_html(summary))
     _appendix(page, ds, prefix)
     page.add("</section>")

@@ -179,3 +179,80 @@ def test_report_of_a_real_run(tmp_path):
     figures = results.key_figures(ds)
     assert f"{figures['charge_delivered_Ah']:.2f}" in body
     assert ds.attrs["status_message"] in body
+
+
+def _ids(text: str) -> list[str]:
+    class Ids(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.ids = []
+
+        def handle_starttag(self, tag, attrs):
+            self.ids += [v for k, v in attrs if k == "id"]
+
+    p = Ids()
+    p.feed(text)
+    return p.ids
+
+
+def test_ids_unique_with_several_runs_and_sizing(ds):
+    # headings and figure containers once shared ids ("sizing", "comparison"): issue 13
+    text = render_report({"a": ds, "b": synthetic_dataset(rise_K=10.0)}, sizing=SyntheticSizing())
+    ids = _ids(text)
+    assert len(ids) == len(set(ids))
+    for base in ("sizing", "comparison", "run0-traces", "run1-traces"):
+        assert f"{base}-plot" in ids and any(i.startswith(base) and i != f"{base}-plot"
+                                             for i in ids)
+
+
+def test_banner_for_invented_data_only(ds):
+    body = " ".join(_parse(render_report(ds)).text)
+    assert "Invented or template data." not in body  # the synthetic run names no data note
+    noted = ds.copy()
+    noted.attrs["data_notes"] = json.dumps(["cell X (x.toml): invented for the demo"])
+    body = " ".join(_parse(render_report(noted)).text)
+    assert "Invented or template data." in body and "invented for the demo" in body
+
+
+# the shape of explorer.fidelity.summary (contract F); the numbers are invented
+FIDELITY = {
+    "rows": [{"variant": "dfn", "figure": "peak_temperature", "label": "hottest point anywhere",
+              "unit": "degC", "as_run": 41.2, "fuller": 42.9, "difference": 1.7, "margin": 0.8,
+              "could_flip": True}],
+    "verdict_could_flip": "yes", "message": "the DFN run is 1.7 K hotter than the margin allows",
+    "variants": ["as run", "dfn"], "skipped": [],
+}
+
+
+def test_fidelity_check_has_its_own_section_and_warns(ds):
+    checked = ds.copy()
+    checked.attrs["fidelity_summary"] = json.dumps(FIDELITY)
+    page = _parse(render_report(checked))
+    body = " ".join(page.text)
+    assert "Fidelity check: the same design point on fuller models" in body
+    assert "COULD FLIP" in body or "could flip" in body
+    # the flag is among the first screen's warnings
+    warnings = body.split("Warnings", 1)[1].split("Key figures", 1)[0]
+    assert "verdict could flip" in warnings
+    assert "Fidelity check" not in " ".join(_parse(render_report(ds)).text)
+
+
+def test_first_screen_words_and_assumptions(tmp_path):
+    import explorer
+    from explorer.demo import demo_design
+
+    run = explorer.simulate("van_nmc_66ah", explorer.duty.discharge(c_rate=2.0, end_time_s=120),
+                            demo_design(), electrochemistry="spm", grid=(6, 4),
+                            output_interval_s=30.0)
+    body = " ".join(" ".join(_parse(render_report(run)).text).split())
+    first = body.split("What was run", 1)[1].split("Key figures", 1)[0]
+    for words in ("Van module NMC 66 Ah (file van_nmc_66ah.toml)", "66 Ah nominal",
+                  "2C discharge (constant current) until after 120 s",
+                  "edge cold plate under the bottom edge", "water at 2 L/min, inlet 25 °C",
+                  "SPM (single particle model", "in-plane grid 6 × 4", "SOC 100 %",
+                  "Held against the cell's data-sheet maximum"):
+        assert words in first, words
+    assumptions = body.split("Assumptions: what the model leaves out", 1)[1]
+    for words in ("through-thickness mean", "channels only", "fin contact coefficient 2000",
+                  "thermal runaway"):
+        assert words in assumptions, words
