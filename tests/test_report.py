@@ -256,3 +256,13 @@ def test_first_screen_words_and_assumptions(tmp_path):
     for words in ("through-thickness mean", "channels only", "fin contact coefficient 2000",
                   "thermal runaway"):
         assert words in assumptions, words
+
+
+def test_first_screen_warnings_name_an_early_end_and_the_cell():
+    stopped = synthetic_dataset(status="cut_short")
+    stopped.attrs["cell_warnings"] = json.dumps(["geometry inconsistent: the stated thickness "
+                                                 "differs from the layers' (invented)"])
+    body = " ".join(" ".join(_parse(render_report(stopped)).text).split())
+    warnings = body.split("Warnings", 1)[1].split("Key figures", 1)[0]
+    assert "was cut short" in warnings and "not the whole duty" in warnings
+    assert "cell: geometry inconsistent" in warnings
