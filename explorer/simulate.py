@@ -113,7 +113,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
 
     rod = make_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
     if layout == "single":
-        thermal = LumpedThermal(cell, sinks)
+        thermal = LumpedThermal(cell, sinks, fitted=True)
         coupling = Coupling()
         r_collector = 0.0
     else:
@@ -121,7 +121,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         from explorer.inplane.thermal import PlaneThermal
 
         network = CollectorNetwork(cell, the_grid)
-        thermal = PlaneThermal(cell, the_grid, sinks)
+        thermal = PlaneThermal(cell, the_grid, sinks, fitted=True)
         r_collector = network.resistance_ohm
         if layout == "averaged":
             coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
@@ -308,12 +308,12 @@ def cell_pieces(cell, electrochemistry, layout, the_grid, sinks, mesh=None, rods
 
     rod = make_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
     if layout == "single":
-        return rod, LumpedThermal(cell, sinks), Coupling(), 0.0, None
+        return rod, LumpedThermal(cell, sinks, fitted=True), Coupling(), 0.0, None
     from explorer.inplane.collector import CollectorNetwork
     from explorer.inplane.thermal import PlaneThermal
 
     network = CollectorNetwork(cell, the_grid)
-    thermal = PlaneThermal(cell, the_grid, sinks)
+    thermal = PlaneThermal(cell, the_grid, sinks, fitted=True)
     if layout == "averaged":
         coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
                             dict(network.tab_joule_W_per_A2))

@@ -12,6 +12,7 @@ carry the mean-to-face resistance of :mod:`explorer.inplane.throughplane`.
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 
 import numpy as np
@@ -33,9 +34,19 @@ def _mean(v) -> float:
 
 
 class LumpedThermal:
-    """Implicit (backward Euler) lumped-capacitance model of the whole cell."""
+    """Lumped-capacitance model of the whole cell: backward Euler, or (``fitted=True``) its
+    exact solution over each step.
 
-    def __init__(self, cell, sinks=None):
+    Fitted, ``C dT/dt = q - sum G_i (T - T_i)`` is solved exactly over a step with the heat
+    held constant (the exponential of the lumped-capacitance method, Incropera & DeWitt
+    §5.2; backward Euler fitted to the one eigenvalue, Liniger & Willoughby 1970), so a rest
+    cools with the body's own time constant ``C / sum G_i`` on any step size (backward
+    Euler's decay rate is off by about ``dt / 2 tau``). :meth:`step` returns the heat flows
+    at the new state; fitted, their mean over the step is generated less stored (exact).
+    :func:`explorer.simulate` and :func:`explorer.simulate_module` use the fitted step.
+    """
+
+    def __init__(self, cell, sinks=None, *, fitted: bool = False):
         g = cell.geometry
         self.grid = Grid.single(g.width_m, g.height_m)
         self.heat_capacity_J_per_K = cell.derived.heat_capacity_J_K
@@ -90,6 +101,8 @@ class LumpedThermal:
         self._names = [p[0] for p in self._paths]
         self._G = np.array([p[1] for p in self._paths], dtype=float)
         self._Ts = np.array([p[2] for p in self._paths], dtype=float)
+        self._G_sum = float(self._G.sum())
+        self.fitted = bool(fitted)
         self._outlet_rise_per_W = None
         if self._stream is not None:
             self._outlet_rise_per_W = (self._stream.upstream_cells + 1) / self._stream.capacity_rate_W_K
@@ -99,10 +112,20 @@ class LumpedThermal:
 
     def step(self, state, heat_W, dt, tab_heat_W=None):
         q = float(np.sum(heat_W)) + (sum(tab_heat_W.values()) if tab_heat_W else 0.0)
-        C = self._C
-        T_new = (C * state[0] / dt + q + np.dot(self._G, self._Ts)) / (C / dt + self._G.sum())
-        flows = self._G * (T_new - self._Ts)
-        return np.array([T_new]), dict(zip(self._names, flows.tolist(), strict=True))
+        T_new = self._advance(float(state[0]), q, dt, float(self._G @ self._Ts))
+        flows = (self._G * (T_new - self._Ts)).tolist()
+        return np.array([T_new]), dict(zip(self._names, flows, strict=True))
+
+    def _advance(self, T0, q, dt, GTs) -> float:
+        """The temperature after ``dt`` with heat ``q``, sinks at fixed temperatures (``GTs`` =
+        sum G_i T_i): backward Euler, or fitted, the exact solution."""
+        C, G = self._C, self._G_sum
+        if not self.fitted:
+            return (C * T0 / dt + q + GTs) / (C / dt + G)
+        if not G > 0.0:  # adiabatic: a straight line
+            return T0 + q * dt / C
+        T_eq = (q + GTs) / G
+        return T_eq + (T0 - T_eq) * math.exp(-dt * G / C)
 
     def temperature_C(self, state) -> np.ndarray:
         return state.reshape(1, 1)
@@ -162,6 +185,35 @@ class LumpedThermal:
             core_mean_factor(d_front, d_back, self._thickness, self._k_through))
         return np.full((1, 1), float(state[0]) + rise)
 
+    def recorded_figures(self, states, heat_W) -> dict:
+        """What the stepper records of many states at once (as the single-state methods).
+
+        ``states`` (m, 1), ``heat_W`` (m, 1, 1): ``temperature`` (m, 1, 1), and per state
+        ``core_difference`` (K), ``hottest``, ``coldest``, ``front_max``, ``front_min``,
+        ``back_max``, ``back_min`` (degC), ``through_difference`` (K), ``coolant_outlet``
+        (degC, NaN without a coolant stream) and ``stored_J``.
+        """
+        T = np.asarray(states, dtype=float).reshape(-1)
+        q = np.asarray(heat_W, dtype=float).reshape(T.size, -1).sum(axis=1)
+        flux = {face: np.zeros(T.size) for face in FACES}
+        for name, G, Ts in zip(self._names, self._G, self._Ts, strict=True):
+            for face, share in self._faces_of.get(name, []):
+                flux[face] += share * G * (T - Ts) / self._area
+        prof = slab_profile(T, flux["front"], flux["back"], self._thickness, self._k_through)
+        d_front, d_back = self._d
+        rise = q / (self.grid.area_m2 * self._thickness) * float(
+            core_mean_factor(d_front, d_back, self._thickness, self._k_through))
+        hottest = np.maximum(prof["max"], T + rise)
+        outlet = np.full(T.size, np.nan)
+        if self._stream is not None:
+            i = self._names.index(self._stream.name)
+            outlet = self._stream.inlet_C + self._outlet_rise_per_W * self._G[i] * (T - self._Ts[i])
+        return {"temperature": T.reshape(-1, 1, 1), "core_difference": rise,
+                "hottest": hottest, "coldest": prof["min"], "front_max": prof["front"],
+                "front_min": prof["front"], "back_max": prof["back"], "back_min": prof["back"],
+                "through_difference": hottest - prof["min"], "coolant_outlet": outlet,
+                "stored_J": self._C * T}
+
     # -- several cells along one coolant path (explorer.module) -----------------------------
     def _stream_index(self, what: str) -> int:
         if self._stream is None:
@@ -179,7 +231,8 @@ class LumpedThermal:
         self._stream = replace(self._stream, inlet_C=value)
 
     def step_series(self, states, heat_W, dt, tab_heat_W=None, inlet_C=None):
-        """One step of ``m`` cells like this one, one after another on its coolant.
+        """One step (the exact solution, as :meth:`step`) of ``m`` cells like this one, one
+        after another on its coolant.
 
         As :meth:`explorer.inplane.thermal.PlaneThermal.step_series`: cell
         ``k``'s inlet at the new time is cell ``k - 1``'s outlet at the new
@@ -191,7 +244,7 @@ class LumpedThermal:
         m = states.shape[0]
         heat = np.asarray(heat_W, dtype=float).reshape(m, -1).sum(axis=1)
         tabs = [None] * m if tab_heat_W is None else list(tab_heat_W)
-        C, G = self._C, self._G
+        G = self._G
         Ts = self._Ts.copy()
         i = None
         if self._stream is not None:
@@ -202,7 +255,7 @@ class LumpedThermal:
             if i is not None:
                 Ts[i] = t_in
             q = heat[k] + (sum(tabs[k].values()) if tabs[k] else 0.0)
-            T_new = (C * states[k, 0] / dt + q + np.dot(G, Ts)) / (C / dt + G.sum())
+            T_new = self._advance(float(states[k, 0]), q, dt, float(G @ Ts))
             flows = G * (T_new - Ts)
             new[k, 0] = T_new
             rejected.append(dict(zip(self._names, flows.tolist(), strict=True)))

@@ -79,6 +79,10 @@ def _field(name: str, value, shape, *, allow_inf: bool = False, nonnegative: boo
     return arr
 
 
+# what a sparse factorisation raises on a singular or broken matrix
+THERMAL_SOLVE_ERRORS = (RuntimeError, ArithmeticError, ValueError)
+
+
 def _factorise(A):
     """Sparse LU of a thermal matrix.
 
@@ -172,6 +176,16 @@ class PlaneThermal:
         series with every face exchange (see :mod:`explorer.inplane.throughplane`).
     cache_size : int, default 4
         How many factorisations (one per distinct ``dt``) to keep.
+    fitted : bool, default False
+        Step with exponentially fitted backward Euler (Liniger & Willoughby, SIAM J. Numer.
+        Anal. 7 (1970) 47, the idea of fitting the scheme to one eigenvalue): the step is
+        backward Euler over the stretched step ``tau (exp(dt / tau) - 1)``, ``tau`` the
+        slowest time constant of the field (the cell cooling as a whole), so that mode decays
+        exactly on any step (plain backward Euler's decay rate is off by about
+        ``dt / 2 tau``); faster modes stay strongly damped. :meth:`step` returns the heat
+        flows at the new state; their mean over the step is generated less stored (exact
+        for that mode). :func:`explorer.simulate` and :func:`explorer.simulate_module` use
+        it (:meth:`step_series` steps the same way).
 
     Examples
     --------
@@ -181,7 +195,7 @@ class PlaneThermal:
     """
 
     def __init__(self, cell, grid: Grid, sinks: Sinks | None = None, *,
-                 throughplane: bool = True, cache_size: int = 4):
+                 throughplane: bool = True, cache_size: int = 4, fitted: bool = False):
         sinks = Sinks() if sinks is None else sinks
         g, d = cell.geometry, cell.derived
         for name, a, b in (("width_m", grid.width_m, g.width_m),
@@ -202,6 +216,8 @@ class PlaneThermal:
         self._cache_size = check_integer("cache_size", cache_size, 1)
         self._lu = OrderedDict()
         self._steady_lu = None
+        self.fitted = bool(fitted)
+        self._tau_slow = None  # slowest time constant (s), found on the first fitted step
 
         self.throughplane = bool(throughplane)
         self._N = grid.nx * grid.ny
@@ -489,22 +505,63 @@ class PlaneThermal:
         return q
 
     def step(self, state, heat_W, dt, tab_heat_W=None):
-        """One backward-Euler step; see :mod:`explorer.inplane.base`.
+        """One backward-Euler step (fitted when built with ``fitted=True``); see
+        :mod:`explorer.inplane.base`.
 
         Returns
         -------
         new_state : ndarray
         rejected_W : dict
-            Heat flow into each sink over the step (W), from the new state.
+            Heat flow into each sink (W) at the new state: for backward Euler also the mean
+            over the step (stored + rejected = generated to round-off); for the fitted scheme
+            the step's mean is generated less stored (exact for its slowest mode).
         """
         dt = float(dt)
         if not (dt > 0 and math.isfinite(dt)):
             raise InputError(f"`dt`: expected a time step > 0 s, got {dt!r}")
-        lu, c_dt = self._factor(dt)
+        lu, c_dt = self._factor(self._stretched(dt))
         rhs = self._source(heat_W, tab_heat_W)
         rhs += c_dt * state
         new = lu.solve(rhs)
         return new, self.heat_flows_W(new)
+
+    # -- exponential fitting ------------------------------------------------------------
+    def slowest_time_constant_s(self) -> float:
+        """The field's slowest time constant ``tau`` (s): ``K v = (1 / tau) C v`` for the
+        smallest eigenvalue, by power iteration on ``K^-1 C`` (nonnegative, so its dominant
+        eigenvalue is real with a positive eigenvector, Perron-Frobenius); inf for a cell
+        with no heat path."""
+        if self._tau_slow is not None:
+            return self._tau_slow
+        tau = math.inf
+        try:
+            if self._has_sink and self._steady_lu is None:
+                self._steady_lu = _factorise(self._K)
+        except THERMAL_SOLVE_ERRORS:  # no steady state to iterate on: plain backward Euler
+            pass
+        if self._has_sink and self._steady_lu is not None:
+            v = (self._c > 0).astype(float)
+            for _ in range(100):  # the slowest mode dominates fast: a few iterations
+                w = self._steady_lu.solve(self._c * v)
+                new = float(w @ (self._c * v)) / float(v @ (self._c * v))
+                v = w / np.abs(w).max()
+                done = math.isfinite(tau) and abs(new - tau) <= 1e-7 * tau
+                tau = new
+                if done:
+                    break
+            if not (math.isfinite(tau) and tau > 0):
+                tau = math.inf  # no usable estimate: plain backward Euler
+        self._tau_slow = tau
+        return tau
+
+    def _stretched(self, dt: float) -> float:
+        """The backward-Euler step that makes the slowest mode decay exactly over ``dt``."""
+        if not self.fitted:
+            return dt
+        tau = self.slowest_time_constant_s()
+        if not math.isfinite(tau):
+            return dt
+        return tau * math.expm1(min(dt / tau, 700.0))
 
     def heat_flows_W(self, state) -> dict:
         """Heat flow into every sink (W) at ``state``."""
@@ -591,6 +648,42 @@ class PlaneThermal:
         core = self.core_temperature_C(state, heat_W)
         return {"front": prof["front"], "back": prof["back"],
                 "hottest": np.maximum(prof["max"], core), "coldest": prof["min"]}
+
+    def recorded_figures(self, states, heat_W) -> dict:
+        """What the stepper records of many states at once (as the single-state methods).
+
+        ``states`` (m, n), ``heat_W`` (m, ny, nx): ``temperature`` (m, ny, nx), and per state
+        ``core_difference`` (K, hottest core less hottest mean), ``hottest``, ``coldest``,
+        ``front_max``, ``front_min``, ``back_max``, ``back_min`` (degC),
+        ``through_difference`` (K), ``coolant_outlet`` (degC, NaN without a coolant stream)
+        and ``stored_J``.
+        """
+        x = np.asarray(states, dtype=float)
+        heat = np.asarray(heat_W, dtype=float)
+        m = x.shape[0]
+        T = x[:, : self._N]
+        flux = {}
+        for face in FACES:
+            link = self._face_links.get(face)
+            if link is None:
+                flux[face] = np.zeros_like(T)
+                continue
+            G, other, fixed = link
+            T_other = x[:, other] if other is not None else fixed
+            flux[face] = G * (T - T_other) / self.grid.cell_area_m2
+        prof = tp.slab_profile(T, flux["front"], flux["back"], self.thickness_m,
+                               self.k_through_W_mK)
+        core = T + heat.reshape(m, -1) * self._core_mean.ravel()
+        hottest = np.maximum(prof["max"], core)
+        outlet = (x[:, self._coolant["boundary_nodes"][-1]] if self._coolant is not None
+                  else np.full(m, np.nan))
+        return {"temperature": T.reshape(m, *self.grid.shape),
+                "core_difference": core.max(axis=1) - T.max(axis=1),
+                "hottest": hottest.max(axis=1), "coldest": prof["min"].min(axis=1),
+                "front_max": prof["front"].max(axis=1), "front_min": prof["front"].min(axis=1),
+                "back_max": prof["back"].max(axis=1), "back_min": prof["back"].min(axis=1),
+                "through_difference": (hottest - prof["min"]).max(axis=1),
+                "coolant_outlet": outlet, "stored_J": x @ self._c}
 
     # -- coolant outputs --
     @property
@@ -680,7 +773,8 @@ class PlaneThermal:
         tabs = [None] * m if tab_heat_W is None else list(tab_heat_W)
         if len(tabs) != m:
             raise InputError(f"`tab_heat_W`: expected one dict per cell ({m}), got {len(tabs)}")
-        lu, c_dt = self._factor(dt)
+        dt_lu = self._stretched(dt)
+        lu, c_dt = self._factor(dt_lu)
         rhs = np.empty((self._n, m), order="F")
         rhs[:] = self._s[:, None]
         rhs[: self._N] += heat.reshape(m, self._N).T
@@ -699,7 +793,7 @@ class PlaneThermal:
             t_in = float(self._s[b0]) if inlet_C is None else float(
                 _field("inlet_C", inlet_C, (), nonnegative=False))
             rhs[b0] = 0.0
-            zero, unit = lu.solve(rhs), self._unit_inlet_response(dt, lu, b0)
+            zero, unit = lu.solve(rhs), self._unit_inlet_response(dt_lu, lu, b0)
             inlets = np.empty(m)
             for k in range(m):
                 inlets[k] = t_in

@@ -92,7 +92,8 @@ class SPM(RodModel):
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
         self._ops: dict = {}
         self._ea = np.array(self._activation_energies())
-        self._blocks = None  # built on first use: subclasses finish their parts after this
+        self._blocks = None  # the stacked linear parts (_plan), built on first use: subclasses
+        # finish their parts after this
 
     # ---- hooks the SPMe extends ------------------------------------------------------------
     def _extra_size(self) -> int:
@@ -173,27 +174,43 @@ class SPM(RodModel):
         n, p = self._electrodes
         return {"rate": (n.rate_constant * f[2], p.rate_constant * f[3])}
 
+    def _plan(self):
+        """The linear parts stacked once: block-diagonal eigenbases, their eigenvalues and the
+        projected forcing, so a step's operator is a few vector operations whatever its
+        ``(dt, T)`` (the temperature changes on every step of a thermal run)."""
+        from scipy.linalg import block_diag
+
+        blocks = self._modal_blocks()
+        sizes = [m.lam.size for _, m, _ in blocks]
+        if sum(sizes) != self.size - 1 or any(sl.start != sum(sizes[:i]) for i, (sl, _, _)
+                                              in enumerate(blocks)):
+            raise RuntimeError(f"{self.name}: the linear parts must cover the state in order")
+        surf_c = np.array([e.particle_radius_m * self.shells.surface_distance
+                           / e.diffusivity_m2_s * self._flux_per_A[k]
+                           for k, e in enumerate(self._electrodes)])
+        return {"sizes": np.array(sizes), "lam": np.concatenate([m.lam for _, m, _ in blocks]),
+                "V": block_diag(*(m.V for _, m, _ in blocks)),
+                "VtW": block_diag(*(m._VtW for _, m, _ in blocks)),
+                "Vtb": np.concatenate([m.V.T @ b for _, m, b in blocks]),
+                "outer": np.array(self._outer), "surf_c": surf_c}
+
     def _operator(self, dt, T):
-        """The whole step's linear part: ``new = P @ old + q I``, cached per (dt, T)."""
+        """The whole step's linear part: ``new = V diag(d) V'W old + q I``, cached per (dt, T)."""
         key = (dt, T)
         op = self._ops.get(key)
         if op is not None:
             return op
         f = arrhenius(self._ea, T, REFERENCE_K)  # all properties' factors in one call
-        if self._blocks is None:  # (slice, basis, V' b): forcing projected once per part
-            self._blocks = [(sl, m, m.V.T @ b) for sl, m, b in self._modal_blocks()]
-        parts = []
-        q = np.empty(self.size - 1)
-        for (sl, modal, Vtb), s_k in zip(self._blocks, self._rates(f), strict=True):
-            d = 1.0 / (1.0 + dt * s_k * modal.lam)
-            q[sl] = modal.V @ (dt * d * Vtb)
-            parts.append((sl, modal.V * d, modal._VtW))
+        plan = self._blocks
+        if plan is None:
+            plan = self._blocks = self._plan()
+        # backward Euler in each part's eigenbasis: every mode decays by 1 / (1 + dt s lam)
+        scale = np.repeat(np.asarray(self._rates(f), dtype=float) * dt, plan["sizes"])
+        d = 1.0 / (1.0 + scale * plan["lam"])
+        q = plan["V"] @ (plan["Vtb"] * (dt * d))
         # surface = value of the outer shell minus the extrapolation to the surface
-        surf_q = np.empty(2)
-        for k, e in enumerate(self._electrodes):
-            extra = e.particle_radius_m * self.shells.surface_distance / (e.diffusivity_m2_s * f[k])
-            surf_q[k] = q[self._outer[k]] - extra * self._flux_per_A[k]
-        op = {"parts": parts, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
+        surf_q = q[plan["outer"]] - plan["surf_c"] / f[:2]
+        op = {"d": d, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
         if len(self._ops) >= CACHE_SIZE:
             self._ops.clear()
         self._ops[key] = op
@@ -201,10 +218,8 @@ class SPM(RodModel):
 
     def _linear_step(self, op, x, dt):
         """``(base, q)``: the step's new state (less the current entry) is ``base + I q``."""
-        base = np.empty(self.size - 1)
-        for sl, Vd, VtW in op["parts"]:
-            base[sl] = Vd @ (VtW @ x[sl])
-        return base, op["q"]
+        plan = self._blocks
+        return plan["V"] @ (op["d"] * (plan["VtW"] @ x[:-1])), op["q"]
 
     def _electrolyte_terms(self, op, lin, I, cs):
         """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal electrolyte."""

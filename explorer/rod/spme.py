@@ -82,6 +82,7 @@ class SPMe(SPM):
         self._ecells = np.concatenate([np.arange(nn), np.arange(xm.nx - np_, xm.nx)])
         self._pick_n = np.concatenate([np.ones(nn), np.zeros(np_)])
         self._pick_p = 1.0 - self._pick_n
+        self._faraday_n, self._faraday_p = FARADAY * self._pick_n, FARADAY * self._pick_p
         self._cmax_cells = (self._pick_n * n.max_concentration_mol_m3
                             + self._pick_p * p.max_concentration_mol_m3)
         self._half_j_cells = 0.5 * (self._pick_n * self._j_per_A[0] + self._pick_p * self._j_per_A[1])
@@ -111,9 +112,8 @@ class SPMe(SPM):
         xm = self.x_mesh
         const["kappa_factor"] = f[4] * xm.transport
         const["nu"] = self.params.electrolyte.diffusion_potential_V(T)
-        n, p = self._electrodes
-        const["jf_cells"] = FARADAY * np.concatenate([np.full(xm.nn, const["rate"][0]),
-                                                      np.full(xm.np_, const["rate"][1])])
+        rate_n, rate_p = const["rate"]
+        const["jf_cells"] = self._faraday_n * rate_n + self._faraday_p * rate_p
         const["two_over_f"] = 2.0 * GAS_CONSTANT * T / FARADAY
         return const
 

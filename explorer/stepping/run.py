@@ -70,6 +70,9 @@ class Settings:
     # steps accepted at the smallest size with the error over tolerance, within one duty step:
     # beyond this the step size has collapsed (the solution changes faster than it can follow)
     forced_steps_max: int = 200
+    # heat into the thermal step: the trapezoidal mean over the step (second order), or the
+    # value at the step's end (first order; kept for comparison in the stepper bench)
+    heat_trapezoid: bool = True
 
 
 @dataclass
@@ -226,6 +229,7 @@ def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temp
             rec.step_ends[index] = step_end(index, steps[index], "interrupted", time_s=stepper.t)
     else:
         rec.message = f"all {len(steps)} duty step(s) ran to their end conditions"
+    stepper.finish()
     if rec.notes:
         rec.message = "; ".join([rec.message, *rec.notes])
     rec.wall_time_s = _time.perf_counter() - wall
@@ -233,8 +237,16 @@ def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temp
 
 
 class _Trial:
+    """One attempted step: the rod's result and, once taken, the thermal step.
+
+    ``heat``, ``heat_map``, ``tab_heat``, ``collector`` and their total ``generated`` are the
+    heat fed to the thermal step (see :meth:`_Stepper._heat_of`); ``end`` the rod's heat at
+    the step's end, the start of the next step's trapezoid; ``rejected`` the sink flows at
+    the new state (recorded), ``rejected_J_per_s`` their total mean over the step (the
+    running integral)."""
+
     __slots__ = ("dt", "rod", "thermal", "rejected", "heat_map", "tab_heat", "heat", "t_max",
-                 "collector")
+                 "collector", "generated", "end", "rejected_J_per_s")
 
 
 class _Stepper:
@@ -248,12 +260,26 @@ class _Stepper:
                       else np.zeros(shape))
         self.R = coupling.series_resistance_ohm
         self.needs_field = False
-        self.integrals = np.zeros(4)  # heat generated, heat rejected (J), charge (C), work (J)
+        # running integrals: heat generated, heat rejected (J), charge (C), work (J)
+        self.integrals = [0.0, 0.0, 0.0, 0.0]
         self.joule_total = float(self.joule.sum())
+        self.tab_joule = dict(coupling.tab_joule_W_per_A2)
         self.field_rods = bool(getattr(rod, "field_temperature", False))
         self.t = 0.0
         self.prev = None  # the rod's result at the last accepted step (recorded or not)
         self.cap_end = End("temperature", settings.temperature_cap_C, "above", "cap")
+        self.fresh = True  # the current trial starts a new load: no trapezoid over the step
+        self.last_heat = None  # the rod's heat at the last accepted step (_Trial.end)
+        # a thermal model that reports many recorded states at once (looked up on its class,
+        # so a wrapper forwarding attributes keeps the per-state path): states are kept and
+        # their figures taken in one call when the run ends
+        self.batch = getattr(type(thermal), "recorded_figures", None) is not None
+        self.kept_states = []
+        # a fitted thermal model (exponential fitting: its slowest mode exact on any step), or
+        # one stepping a fitted model for several cells, reports the flows at the new state
+        # (recorded); the heat rejected over the step is then what the first law leaves
+        self.fitted = any(getattr(m, "fitted", None) is True
+                          for m in (thermal, getattr(thermal, "model", None)))
 
     # -- state ------------------------------------------------------------------------------
     def start(self, soc, temperature_C, first_step=None):
@@ -285,6 +311,7 @@ class _Stepper:
                              "electrochemical model can solve at this state")
         zero = np.zeros(self.thermal.grid.shape)
         self.prev = res
+        self.last_heat = None
         self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0, boundary=True)
 
     def _unphysical(self, voltage_V) -> str | None:
@@ -300,14 +327,12 @@ class _Stepper:
     def _record(self, index, res, heat_map, tab_heat, heat, rejected, collector,
                 boundary=False):
         r = self.rec
-        T = self.thermal.temperature_C(self.T_state)
         r.time.append(self.t)
         r.step.append(index)
         r.voltage.append(res.voltage_V)
         r.current.append(res.current_A)
         r.ocv.append(res.ocv_V)
         r.soc.append(res.soc)
-        r.temperature.append(np.array(T, dtype=float, copy=True))
         r.heat_map.append(heat_map)
         for k in HEAT_KEYS:
             r.heat[k].append(heat.get(k, 0.0))
@@ -316,11 +341,30 @@ class _Stepper:
         r.current_density.append(getattr(res, "current_density_map", None))
         r.heat["tab"].append(sum(tab_heat.values()) if tab_heat else 0.0)
         r.heat_rejected.append(float(sum(rejected.values())))
+        n = len(r.time)
         for name, w in rejected.items():
-            r.rejected_by_sink.setdefault(name, [0.0] * (len(r.time) - 1)).append(w)
-        for lst in r.rejected_by_sink.values():
-            if len(lst) < len(r.time):
-                lst.append(0.0)
+            r.rejected_by_sink.setdefault(name, [0.0] * (n - 1)).append(w)
+        if len(rejected) < len(r.rejected_by_sink):
+            for lst in r.rejected_by_sink.values():
+                if len(lst) < n:
+                    lst.append(0.0)
+        if self.batch:  # states are not changed in place: keep a reference, figures at the end
+            self.kept_states.append(self.T_state)
+        else:
+            self._record_thermal(heat_map)
+        gen, rej, charge, work = self.integrals
+        r.heat_generated_J.append(gen)
+        r.heat_rejected_J.append(rej)
+        r.charge_C.append(charge)
+        r.electrical_J.append(work)
+        # cyclable lithium is a conservation check, not a trace: taken where duty steps end
+        r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
+
+    def _record_thermal(self, heat_map):
+        """The thermal figures of the current state, one state at a time (any thermal model)."""
+        r = self.rec
+        T = self.thermal.temperature_C(self.T_state)
+        r.temperature.append(np.array(T, dtype=float, copy=True))
         core = self.thermal.core_temperature_C(self.T_state, heat_map)
         r.core_difference.append(float(np.max(core) - np.max(T)))
         through = getattr(self.thermal, "through_thickness_C", None)
@@ -338,12 +382,22 @@ class _Stepper:
         outlet = self.thermal.coolant_outlet_C(self.T_state)
         r.coolant_outlet.append(math.nan if outlet is None else outlet)
         r.stored_J.append(self.thermal.stored_J(self.T_state))
-        r.heat_generated_J.append(self.integrals[0])
-        r.heat_rejected_J.append(self.integrals[1])
-        r.charge_C.append(self.integrals[2])
-        r.electrical_J.append(self.integrals[3])
-        # cyclable lithium is a conservation check, not a trace: taken where duty steps end
-        r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
+
+    def finish(self, chunk=256):
+        """The thermal figures of the states kept for a batch, in chunks of ``chunk`` records
+        (bounded memory on long records)."""
+        states, self.kept_states = self.kept_states, []
+        if not self.batch or not states:
+            return
+        r = self.rec
+        scalars = ("core_difference", "hottest", "coldest", "front_max", "front_min",
+                   "back_max", "back_min", "through_difference", "coolant_outlet", "stored_J")
+        for i in range(0, len(states), chunk):
+            fig = self.thermal.recorded_figures(np.stack(states[i:i + chunk]),
+                                                np.stack(r.heat_map[i:i + chunk]))
+            r.temperature.extend(fig["temperature"])
+            for key in scalars:
+                getattr(r, key).extend(fig[key].tolist())
 
     # -- one duty step ------------------------------------------------------------------------
     def run_step(self, index, step: ResolvedStep) -> dict:
@@ -361,6 +415,7 @@ class _Stepper:
         hist = []  # (t, y) accepted since the last load change; y is what the control leaves free
         watch_current = step.kind == "voltage"
         forced = 0  # steps accepted at the smallest size with the error over tolerance
+        fixed = None if step.kind == "profile" else self._control(step, 0.0)
         while True:
             if self.t >= t_end - 1e-9:
                 return self._ran_its_time(index, step, t0)
@@ -374,9 +429,9 @@ class _Stepper:
             dt = min(_ladder(wanted), limit - self.t)
             if dt <= 1e-9:  # an output time within round-off: skip to the next one
                 dt = min(wanted, limit - self.t + (grid or interval))
-            control = self._control(step, t_in)
+            control = fixed or self._control(step, t_in)
             # a load change jumps the voltage by the Ohmic drop whatever dt is: not an error
-            fresh = control.value != last_load
+            fresh = self.fresh = control.value != last_load
             if fresh:
                 hist = []
             trial = self._try(control, dt, index)
@@ -512,25 +567,58 @@ class _Stepper:
             self._thermal_step(tr)
         return tr
 
-    def _thermal_step(self, tr: _Trial) -> None:
-        """The thermal step for a trial; deferred until a trial is accepted unless an end
-        condition on temperature has to be watched (saves factorisations for trial dts)."""
+    def _heat_of(self, tr: _Trial) -> None:
+        """The heat a trial feeds its thermal step, which is also what the record shows.
+
+        Heat enters the thermal step as the trapezoidal mean of its values at the step's
+        start and end (second order in dt), except on the first step after a load change,
+        whose start value belongs to the old load: that one takes the end value. The record
+        holds the same mean, so the heat traces are the mean over the step that ends at each
+        record time (as the rejected heat is), and summing them over the steps gives the
+        heat generated.
+        """
         res = tr.rod
-        if getattr(res, "heat_map_W", None) is not None:  # a grid of rods brings its own fields
-            tr.heat_map, tr.tab_heat, tr.collector = res.heat_map_W, res.tab_heat_W, res.collector_W
+        heat = res.heat_W
+        field = getattr(res, "heat_map_W", None) is not None  # a grid of rods brings its maps
+        tr.end = ((heat, res.heat_map_W, res.tab_heat_W, res.collector_W) if field
+                  else (heat, res.current_A ** 2))
+        last = None if self.fresh or not self.s.heat_trapezoid else self.last_heat
+        if last is not None:
+            heat = {k: 0.5 * (heat.get(k, 0.0) + last[0].get(k, 0.0)) for k in HEAT_KEYS}
+        tr.heat = heat
+        if field:
+            if last is None:
+                tr.heat_map, tr.tab_heat, tr.collector = tr.end[1:]
+            else:
+                tr.heat_map = 0.5 * (res.heat_map_W + last[1])
+                tr.tab_heat = {k: 0.5 * (v + last[2].get(k, 0.0))
+                               for k, v in res.tab_heat_W.items()}
+                tr.collector = 0.5 * (res.collector_W + last[3])
+            q_rod = sum(heat.get(k, 0.0) for k in HEAT_KEYS)
         else:
-            I2 = res.current_A ** 2
-            q_rod = sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS)
+            I2 = tr.end[1] if last is None else 0.5 * (tr.end[1] + last[1])
+            q_rod = sum(heat.get(k, 0.0) for k in HEAT_KEYS)
             tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells)
             if self.joule_total:
                 tr.heat_map += I2 * self.joule
-            tr.tab_heat = {k: I2 * v for k, v in self.c.tab_joule_W_per_A2.items()}
+            tr.tab_heat = {k: I2 * v for k, v in self.tab_joule.items()}
             tr.collector = I2 * self.joule_total
+        tr.generated = q_rod + tr.collector + sum(tr.tab_heat.values())
+
+    def _thermal_step(self, tr: _Trial) -> None:
+        """The thermal step for a trial; deferred until a trial is accepted unless an end
+        condition on temperature has to be watched (saves factorisations for trial dts)."""
+        self._heat_of(tr)
         try:
             tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
                                                         tr.tab_heat or None)
-            finite = (np.all(np.isfinite(self.thermal.temperature_C(tr.thermal)))
-                      and math.isfinite(sum(tr.rejected.values())))
+            if self.fitted:
+                stored = self.thermal.stored_J(tr.thermal) - self.thermal.stored_J(self.T_state)
+                tr.rejected_J_per_s = tr.generated - stored / tr.dt
+            else:
+                tr.rejected_J_per_s = sum(tr.rejected.values())
+            T = self.thermal.temperature_C(tr.thermal)
+            finite = np.isfinite(T).all() and math.isfinite(tr.rejected_J_per_s)
             problem = None if finite else "the temperatures are no longer finite numbers"
         except THERMAL_ERRORS as exc:
             problem = f"{type(exc).__name__}: {exc}"
@@ -540,8 +628,7 @@ class _Stepper:
                                f"{self.step.step.label!r}: the thermal model failed ({problem}); "
                                "a conductance or size of the cooling design is probably out "
                                "of range")
-        if self.needs_field:
-            tr.t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
+        tr.t_max = float(T.max())
 
     def _value(self, end: End, tr: _Trial, t0: float) -> float:
         q = end.quantity
@@ -568,7 +655,7 @@ class _Stepper:
             return []
         if tr.thermal is None:
             self._thermal_step(tr)
-        t_max = float(np.max(self.thermal.temperature_C(tr.thermal)))
+        t_max = tr.t_max
         if not self.cap_end.crossed(t_max):
             return []
         tr.t_max = t_max
@@ -648,16 +735,18 @@ class _Stepper:
         if tr.thermal is None:
             self._thermal_step(tr)
         res = tr.rod
-        generated = (sum(tr.heat.get(k, 0.0) for k in HEAT_KEYS) + tr.collector
-                     + sum(tr.tab_heat.values()))
         dt = tr.dt
-        self.integrals += (generated * dt, sum(tr.rejected.values()) * dt, res.current_A * dt,
-                           res.current_A * res.voltage_V * dt)
+        sums = self.integrals
+        sums[0] += tr.generated * dt
+        sums[1] += tr.rejected_J_per_s * dt
+        sums[2] += res.current_A * dt
+        sums[3] += res.current_A * res.voltage_V * dt
         self.t += tr.dt
         self.prev = tr.rod
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
         self.rec.steps_taken += 1
+        self.last_heat = tr.end
         if record:
             self._record(index, tr.rod, tr.heat_map, tr.tab_heat, tr.heat, tr.rejected,
                          tr.collector, boundary)
