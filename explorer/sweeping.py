@@ -7,9 +7,15 @@ Dataset with one dimension per axis.
 
 Execution
     By default a local Dask cluster on the loopback interface (two worker
-    processes, one thread each, no dashboard) is started and stopped; a
-    scheduler address (``"tcp://host:8786"``) or a ``distributed.Client``
-    uses a running cluster; ``scheduler="serial"`` runs in this process.
+    processes, one thread each, no dashboard) runs the cases. It starts in
+    the background while the first cases run in this process, so the first
+    results come at once; it is kept for the next sweep of this process and
+    closed at exit (or by :func:`close_local_cluster`; a sweep stopped by
+    Ctrl-C closes it too). A sweep of one case runs here. Workers import the
+    package and load the coolants' property tables (:func:`warm_worker`)
+    before the first case. A scheduler address (``"tcp://host:8786"``,
+    several machines: same code) or a ``distributed.Client`` uses a running
+    cluster; ``scheduler="serial"`` runs in this process.
     Worker processes start by running the main script again, so a plain
     script that calls :func:`sweep` outside ``if __name__ == "__main__":``
     cannot have them: the default then runs the cases in this process and
@@ -43,6 +49,7 @@ Traces
 from __future__ import annotations
 
 import ast
+import atexit
 import contextlib
 import dataclasses
 import hashlib
@@ -51,6 +58,7 @@ import json
 import logging
 import math
 import sys
+import threading
 import time
 from pathlib import Path
 
@@ -161,8 +169,10 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
         or a model setting in ``SETTING_AXES`` (``start_soc``,
         ``start_temperature_C``).
     scheduler : None, "serial", str or distributed.Client
-        None starts (and stops) a local cluster on loopback; "serial" runs in
-        this process; a string is the address of a running Dask scheduler.
+        None uses this process's local cluster on loopback (started on first
+        use, the first cases running here meanwhile; kept until exit);
+        "serial" runs in this process; a string is the address of a running
+        Dask scheduler.
     keep_fields : bool
         Also keep the fields over (y, x) on the common time base.
     cache_dir : path, optional
@@ -237,6 +247,8 @@ def sweep(cell, duty, cooling, axes: dict, scheduler=None, keep_fields: bool = F
             "%d cases run one after another in this process. Put the call under `if __name__ "
             "== \"__main__\":` to run them in parallel, or pass scheduler=\"serial\".", len(todo))
         scheduler = "serial"
+    if len(todo) == 1 and scheduler is None:
+        scheduler = "serial"  # no cluster to start for one case
     stopped = False
     try:
         if todo:
@@ -573,12 +585,19 @@ def _stored_checksum(path: Path) -> str | None:
 
 def _execute(cell, duty, todo, scheduler, keep_fields, done) -> None:
     if isinstance(scheduler, str) and scheduler.lower() in ("serial", "local-serial"):
-        for case in todo:
-            _finish(done, case, run_case(cell, duty, case.design, case.settings, keep_fields,
-                                         case.module))
+        _run_here(cell, duty, todo, keep_fields, done)
         return
     with _quiet_cluster_logs(scheduler is None):
-        _execute_dask(cell, duty, todo, scheduler, keep_fields, done)
+        if scheduler is None:
+            _execute_local(cell, duty, todo, keep_fields, done)
+        else:
+            _execute_dask(cell, duty, todo, scheduler, keep_fields, done)
+
+
+def _run_here(cell, duty, cases, keep_fields, done) -> None:
+    for case in cases:
+        _finish(done, case, run_case(cell, duty, case.design, case.settings, keep_fields,
+                                     case.module))
 
 
 @contextlib.contextmanager
@@ -602,12 +621,55 @@ def _quiet_cluster_logs(quiet: bool):
             logging.getLogger(n).setLevel(level)
 
 
+def _execute_local(cell, duty, todo, keep_fields, done) -> None:
+    """The default: this process's local cluster, kept for later sweeps.
+
+    While the cluster starts (a few seconds: worker processes import Dask and
+    the package), the cases run here, one after another; the ones left when
+    it is ready go to its workers. A cluster that cannot start leaves every
+    case to this process (with a warning).
+    """
+    local = _local_cluster()
+    queue = list(todo)
+    try:
+        while queue and not local.ready.is_set():
+            case = queue.pop(0)
+            _finish(done, case, run_case(cell, duty, case.design, case.settings, keep_fields,
+                                         case.module))
+        if not queue:
+            return
+        client = local.wait()
+    except BaseException:  # Ctrl-C or a stopped case: the cluster goes (once it has started)
+        _close_local()
+        raise
+    if client is None:
+        log.warning("sweep: the local Dask cluster did not start (%s); the %d remaining cases "
+                    "run in this process", local.error, len(queue))
+        _run_here(cell, duty, queue, keep_fields, done)
+        return
+    try:
+        _run_on_client(client, cell, duty, queue, keep_fields, done)
+    except BaseException:
+        # cancelled cases may still be running on the workers: a fresh cluster next time
+        _close_local()
+        raise
+
+
 def _execute_dask(cell, duty, todo, scheduler, keep_fields, done) -> None:
-    client, cluster, owned = _connect(scheduler)
+    client, owned = _connect(scheduler)
+    try:
+        _run_on_client(client, cell, duty, todo, keep_fields, done)
+    finally:
+        if owned:
+            client.close()
+
+
+def _run_on_client(client, cell, duty, todo, keep_fields, done) -> None:
+    from distributed import as_completed
+
+    _warm_workers(client, _coolants(todo))
     futures = {}
     try:
-        from distributed import as_completed
-
         cell_f = client.scatter(cell, broadcast=True)  # ship the cell once, not per case
         for case in todo:
             fut = client.submit(run_case, cell_f, duty, case.design, case.settings, keep_fields,
@@ -622,11 +684,8 @@ def _execute_dask(cell, duty, todo, scheduler, keep_fields, done) -> None:
             _finish(done, case, result)
     finally:
         for fut in futures:
-            fut.cancel()
-        if owned:
-            client.close()
-        if cluster is not None:
-            cluster.close()
+            if not fut.done():  # finished ones are released with their references
+                fut.cancel()
 
 
 def _finish(done, case, result) -> None:
@@ -708,27 +767,178 @@ def _is_main_test(test: ast.AST) -> bool:
 
 
 def _connect(scheduler):
-    """(client, cluster started here or None, whether the client is ours to close)."""
+    """(client, whether the client is ours to close) for a scheduler address or a Client."""
     try:
-        from distributed import Client, LocalCluster
+        from distributed import Client
     except ImportError:  # pragma: no cover - dask[distributed] is a dependency
         raise InputError("sweep: Dask distributed is needed for parallel sweeps "
                          "(pip install 'dask[distributed]'); or use scheduler='serial'") from None
-    if scheduler is None:
-        with _sigint_ignored():
-            cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.WARNING)
-        return Client(cluster), cluster, True
     if isinstance(scheduler, Client):
-        return scheduler, None, False
+        return scheduler, False
     if isinstance(scheduler, str):
         try:
-            return Client(scheduler, timeout="10s"), None, True
+            return Client(scheduler, timeout="10s"), True
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"sweep: cannot reach the Dask scheduler at {scheduler!r} ({exc}); "
                              "expected the address of a running scheduler such as "
                              "'tcp://127.0.0.1:8786', or 'serial'") from None
     raise InputError(f"sweep: `scheduler` must be None, 'serial', an address string or a "
                      f"distributed.Client, got {scheduler!r}")
+
+
+# --------------------------------------------------------------------------- workers
+
+
+def _coolants(cases) -> list[str]:
+    """The coolant names of the cases' designs (their property tables are loaded up front)."""
+    names = set()
+
+    def walk(d):
+        if isinstance(d, dict):
+            for k, v in d.items():
+                if k == "coolant" and isinstance(v, str):
+                    names.add(v)
+                else:
+                    walk(v)
+        elif isinstance(d, (list, tuple)):
+            for v in d:
+                walk(v)
+
+    for case in cases:
+        if case.design is not None:
+            walk(case.design.describe())
+    return sorted(names)
+
+
+def warm_worker(coolants=()) -> None:
+    """Import what a case runs and load the coolants' property tables (in a Dask worker).
+
+    Run on every worker before the first case, so that no case pays the
+    imports (about a second per process) or the first property lookup.
+    """
+    import numpy as np
+
+    import explorer.module  # noqa: F401
+    import explorer.simulate  # noqa: F401
+    from explorer.cooling.coolant import warm
+
+    xr.Variable(("x",), np.zeros(1))  # xarray looks up its optional array types once
+    for name in coolants:
+        try:
+            warm([name])
+        except InputError:  # the case reports it
+            pass
+
+
+def _warm_workers(client, coolants) -> None:
+    try:
+        client.run(warm_worker, list(coolants))
+    except Exception as exc:  # noqa: BLE001 - a worker that cannot warm up still runs cases
+        log.debug("sweep: warming the workers failed (%s); the cases import on first use", exc)
+
+
+class _LocalCluster:
+    """The loopback cluster of this process, started in a background thread.
+
+    The thread blocks SIGINT before it starts the cluster; the threads it
+    creates and the worker processes they spawn inherit that mask, so Ctrl-C
+    in a terminal (which reaches the whole process group) stops only this
+    process's main thread: the workers never see it, and the sweep can
+    cancel its cases and close the cluster. (Where threads cannot block
+    signals, the cluster starts in the main thread with SIGINT ignored.)
+    """
+
+    def __init__(self):
+        self.ready = threading.Event()
+        self.cluster = self.client = self.error = None
+        self._thread = None
+
+    def start(self) -> None:
+        import signal
+
+        if hasattr(signal, "pthread_sigmask"):
+            # the tracker's launch unblocks SIGINT in the thread that launches it: launch it
+            # from here, before the thread blocks the signal
+            from multiprocessing import resource_tracker
+
+            resource_tracker.ensure_running()
+            self._thread = threading.Thread(target=self._start, args=(True,), daemon=True,
+                                            name="explorer-sweep-cluster-start")
+            self._thread.start()
+        else:  # pragma: no cover - Windows
+            with _sigint_ignored():
+                self._start(False)
+
+    def _start(self, block_sigint: bool) -> None:
+        try:
+            if block_sigint:
+                import signal
+
+                signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+            from distributed import Client, LocalCluster
+
+            self.cluster = LocalCluster(**LOCAL_CLUSTER, silence_logs=logging.WARNING)
+            self.client = Client(self.cluster)
+            _warm_workers(self.client, ())
+        except Exception as exc:  # noqa: BLE001 - reported by the sweep, which goes on here
+            self.error = f"{type(exc).__name__}: {exc}"
+        finally:
+            self.ready.set()
+
+    def wait(self):
+        """The client once the cluster is up (None if it failed to start)."""
+        self.ready.wait()
+        return self.client if self.error is None else None
+
+    def alive(self) -> bool:
+        return not self.ready.is_set() or (self.error is None and self.client is not None
+                                           and self.client.status == "running")
+
+    def close(self) -> None:
+        if self._thread is not None:
+            self._thread.join()
+        with _quiet_cluster_logs(True):
+            for thing in (self.client, self.cluster):
+                if thing is not None:
+                    with contextlib.suppress(Exception):
+                        thing.close()
+
+
+_LOCAL: _LocalCluster | None = None
+_LOCAL_LOCK = threading.Lock()
+_AT_EXIT: list = []  # non-empty once close_local_cluster is registered with atexit
+
+
+def _local_cluster() -> _LocalCluster:
+    """This process's local cluster: the running (or starting) one, else a new one."""
+    global _LOCAL
+    with _LOCAL_LOCK:
+        if _LOCAL is not None and _LOCAL.alive():
+            return _LOCAL
+        old, _LOCAL = _LOCAL, None
+    if old is not None:
+        old.close()
+    local = _LocalCluster()
+    local.start()
+    with _LOCAL_LOCK:
+        _LOCAL = local
+    if not _AT_EXIT:
+        atexit.register(close_local_cluster)
+        _AT_EXIT.append(True)
+    return local
+
+
+def _close_local() -> None:
+    global _LOCAL
+    with _LOCAL_LOCK:
+        local, _LOCAL = _LOCAL, None
+    if local is not None:
+        local.close()
+
+
+def close_local_cluster() -> None:
+    """Close the local cluster kept by :func:`sweep` (also done at exit); a no-op without one."""
+    _close_local()
 
 
 # --------------------------------------------------------------------------- assembly

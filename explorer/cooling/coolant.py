@@ -349,7 +349,7 @@ def _write_table(path: Path, table: _Table) -> None:
 def warm(names=("water",)) -> None:
     """Load the property tables of the coolants ``names`` (e.g. in a sweep worker at start)."""
     for name in names:
-        get_coolant(name)
+        _table_of_fluid(get_coolant(name).fluid)
 
 
 def _parse(name) -> tuple[str, int]:
