@@ -16,6 +16,7 @@ import tomllib
 from pathlib import Path
 
 from explorer.cell import schema
+from explorer.cell.curves import resolve_curves, tables_sha256
 from explorer.cell.derived import compute_derived, electrode_capacity_Ah, layers_thickness_m
 from explorer.cell.model import (
     Cell,
@@ -258,7 +259,7 @@ def load_cell(path) -> Cell:
         raise CellFileError([Problem(str(file), "(file)", str(file),
                                      f"a readable file ({exc.strerror or exc})")],
                             str(file)) from None
-    return _from_bytes(raw_bytes, str(file), str(file.resolve()))
+    return _from_bytes(raw_bytes, str(file), str(file.resolve()), file.resolve().parent)
 
 
 def cell_from_text(text: str, source: str = "<text>") -> Cell:
@@ -298,7 +299,7 @@ def cell_from_dict(data: dict, source: str = "<dict>") -> Cell:
     return _build(data, source, source, sha)
 
 
-def _from_bytes(raw_bytes: bytes, fname: str, source_path: str) -> Cell:
+def _from_bytes(raw_bytes: bytes, fname: str, source_path: str, base_dir=None) -> Cell:
     sha = hashlib.sha256(raw_bytes).hexdigest()
     try:
         data = tomllib.loads(raw_bytes.decode("utf-8-sig"))  # a leading BOM is harmless
@@ -307,10 +308,10 @@ def _from_bytes(raw_bytes: bytes, fname: str, source_path: str) -> Cell:
                             fname) from None
     except tomllib.TOMLDecodeError as exc:
         raise CellFileError([Problem(fname, "(syntax)", str(exc), "valid TOML")], fname) from None
-    return _build(data, fname, source_path, sha)
+    return _build(data, fname, source_path, sha, base_dir)
 
 
-def _build(data: dict, fname: str, source_path: str, sha: str) -> Cell:
+def _build(data: dict, fname: str, source_path: str, sha: str, base_dir=None) -> Cell:
     r = _Reader(fname)
     known = list(schema.SECTIONS) + ["tabs"]
     r.unknown_keys(data, known, "")
@@ -321,8 +322,10 @@ def _build(data: dict, fname: str, source_path: str, sha: str) -> Cell:
     tabs = _read_tabs(r, data)
 
     _cross_checks(r, values, tabs)
+    curves = resolve_curves(r, values, base_dir)  # measured tables -> electrode curves
     if r.problems:
         raise CellFileError(r.problems, fname)
+    sha = tables_sha256(sha, curves)
 
     cellv, geo = values["cell"], values["geometry"]
     tab_objs = tuple(Tab(name=n, **v) for n, v in tabs.items())
@@ -365,7 +368,9 @@ def _build(data: dict, fname: str, source_path: str, sha: str) -> Cell:
         source_path=source_path,
         sha256=sha,
         mass_kg=cellv.get("mass_kg"),
-        extra={"data_note": cellv["data_note"],
+        extra={**({"tables": curves["tables"]} if curves["tables"] else {}),
+               **({"warnings": curves["warnings"]} if curves["warnings"] else {}),
+               "data_note": cellv["data_note"],
                "layers_thickness_m": layers_thickness_m(geometry, neg_cc, pos_cc, negative,
                                                         positive, separator)},
     )

@@ -63,7 +63,9 @@ class Electrode:
     max_concentration_mol_m3: float
     stoichiometry_0: float  # at 0 % SOC
     stoichiometry_100: float  # at 100 % SOC
-    ocp: str  # key of explorer.materials.OCP (open-circuit potential and dU/dT)
+    # key of explorer.materials.OCP (open-circuit potential and dU/dT), or the curve object
+    # built from measured tables (explorer.cell.curves); OCP[ocp] gives the curve either way
+    ocp: object
     diffusivity_m2_s: float  # solid diffusivity at the reference temperature
     diffusivity_activation_J_mol: float
     rate_constant: float  # Butler-Volmer rate constant, m^2.5 mol^-0.5 s^-1 at reference T
@@ -153,7 +155,7 @@ class Cell:
     thermal: ThermalOverrides
     derived: Derived
     source_path: str = ""  # file it was read from
-    sha256: str = ""  # of the file's bytes
+    sha256: str = ""  # of the file's bytes (and of the measured tables it names)
     mass_kg: float | None = None  # stated (data sheet), if the file gives it
     extra: dict = field(default_factory=dict, compare=False, repr=False)
 

@@ -11,7 +11,10 @@ fractions and counts are bare numbers (``porosity = 0.3``, ``unit_layers = 40``;
     ``voltage_max``, ``temperature_min``, ``temperature_max`` (data-sheet
     operating window), optional ``mass`` (data sheet). The stated capacity and mass
     must lie within 20 % of what the layers give (Faraday's law on the loadings; the
-    listed parts' mass), else the file is refused.
+    listed parts' mass), else the file is refused. Optional measured full-cell curves:
+    ``ocv_table`` (CSV: ``soc``, ``ocv_V``, optional ``dUdT_V_K``) and ``entropic_table``
+    (``soc``, ``dUdT_V_K``); they set the positive electrode's curve (see
+    :mod:`explorer.cell.curves`).
 ``[geometry]``
     ``width`` (x), ``height`` (y) of the coated electrode, ``unit_layers``,
     ``thickness`` (whole cell, pouch included), ``pouch_foil_thickness`` (one side).
@@ -26,7 +29,9 @@ fractions and counts are bare numbers (``porosity = 0.3``, ``unit_layers = 40``;
 ``[negative]``, ``[positive]``
     One coating layer: ``thickness``, ``porosity``, ``active_fraction``,
     ``particle_radius``, ``max_concentration``, ``stoichiometry_at_empty`` and
-    ``stoichiometry_at_full`` (at 0 % and 100 % SOC), ``ocp`` (material key),
+    ``stoichiometry_at_full`` (at 0 % and 100 % SOC), ``ocp`` (material key) or
+    ``ocp_table`` (measured CSV: ``stoichiometry``, ``ocp_V``, optional ``dUdT_V_K``),
+    optional ``entropic_table`` (CSV: ``stoichiometry``, ``dUdT_V_K``),
     ``diffusivity``, ``diffusivity_activation``, ``rate_constant`` (Butler-Volmer,
     m^2.5 mol^-0.5 s^-1), ``rate_activation``, ``solid_conductivity``,
     ``bruggeman``, ``density`` (dry porous coating: mass per coating volume),
@@ -98,6 +103,8 @@ CELL = (
     _q("temperature_max", "temperature_max_C", "degC", "55 degC", check="range",
        low=-100.0, high=200.0),
     _q("mass", "mass_kg", "kg", "900 g", required=False),
+    Field("ocv_table", "ocv_table", "text", required=False),
+    Field("entropic_table", "entropic_table", "text", required=False),
 )
 
 GEOMETRY = (
@@ -132,7 +139,9 @@ ELECTRODE = (
     _q("max_concentration", "max_concentration_mol_m3", "mol/m^3", "30000 mol/m^3"),
     _n("stoichiometry_at_empty", "stoichiometry_0"),
     _n("stoichiometry_at_full", "stoichiometry_100"),
-    Field("ocp", "ocp", "key", table="OCP"),
+    Field("ocp", "ocp", "key", table="OCP", required=False),  # or ocp_table
+    Field("ocp_table", "ocp_table", "text", required=False),
+    Field("entropic_table", "entropic_table", "text", required=False),
     _q("diffusivity", "diffusivity_m2_s", "m^2/s", "1e-14 m^2/s"),
     _q("diffusivity_activation", "diffusivity_activation_J_mol", "J/mol", "30 kJ/mol",
        check="nonnegative"),

@@ -166,7 +166,24 @@ def _lfp_dudt(x):
     return -3.0e-5 + 1.5e-4 * np.exp(-x / 0.05) - 1.5e-4 * np.exp(-(1.0 - x) / 0.05)
 
 
-OCP: dict[str, OpenCircuitPotential] = {
+class _MaterialCurves(dict):
+    """Material key -> curve. A curve object built from a cell file's measured tables (see
+    :mod:`explorer.cell.curves`) stands for itself, so ``OCP[electrode.ocp]`` works for both
+    kinds of electrode (a key or a measured curve) wherever the curve is looked up."""
+
+    def __contains__(self, key):
+        return isinstance(key, OpenCircuitPotential) or super().__contains__(key)
+
+    def __getitem__(self, key):
+        if isinstance(key, OpenCircuitPotential):
+            return key
+        return super().__getitem__(key)
+
+    def get(self, key, default=None):
+        return self[key] if key in self else default
+
+
+OCP: dict[str, OpenCircuitPotential] = _MaterialCurves({
     "graphite": OpenCircuitPotential(
         "graphite",
         "graphite negative electrode",
@@ -194,4 +211,4 @@ OCP: dict[str, OpenCircuitPotential] = {
         _lfp_u,
         _lfp_dudt,
     ),
-}
+})
