@@ -4,6 +4,8 @@ Public namespace, by task
 -------------------------
 Cells
     :func:`load_cell` -- read and validate a cell file (or a bundled demo cell by name).
+    :func:`cell.from_datasheet` -- a complete cell file from data-sheet values and a template.
+    :func:`calibrate` -- fit a few cell parameters to measured test curves.
 Duty and cooling
     :mod:`duty` -- discharge, charge, hold_voltage, rest, profile_csv, repeat, cc_cv_charge.
     :mod:`cooling` -- convection, cold_plate, face_plate, edge_plate, tab_cooling.
@@ -53,6 +55,7 @@ __all__ = [
 # functions that need them.
 _LAZY = {
     "explore": ("explorer.app", "explore"),
+    "calibrate": ("explorer.calibration", "calibrate"),
     "check_fidelity": ("explorer.fidelity", "check_fidelity"),
     "fidelity": ("explorer.fidelity", None),
 }
