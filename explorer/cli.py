@@ -77,6 +77,10 @@ def _parser() -> argparse.ArgumentParser:
         if name == "sweep":
             c.add_argument("--scheduler", default=None,
                            help="address of a running Dask scheduler (default: a local cluster)")
+        if name == "size":
+            c.add_argument("--no-fidelity", action="store_true", help="skip the fidelity check "
+                           "of the answer (the same design on the DFN, the fuller layout and a "
+                           "finer grid; on by default)")
     r = sub.add_parser("report", help="write the HTML report of saved results files")
     r.add_argument("results", nargs="+", help="results file(s) (netCDF) written by this tool; "
                    "several runs are compared side by side")
@@ -237,7 +241,7 @@ def _dispatch(args) -> int:
         if args.command == "run":
             return scenario.cmd_run(args.scenario, args.out)
         if args.command == "size":
-            return scenario.cmd_size(args.scenario, args.out)
+            return scenario.cmd_size(args.scenario, args.out, fidelity=not args.no_fidelity)
         return scenario.cmd_sweep(args.scenario, args.out, args.scheduler)
     if args.command == "report":
         from explorer.report import cmd_report

@@ -557,14 +557,18 @@ def cmd_run(scenario, out=None) -> int:
 
 
 @_guard
-def cmd_size(scenario, out=None) -> int:
+def cmd_size(scenario, out=None, fidelity: bool = True) -> int:
     """Size the scenario's ``[size]`` parameter against its ``[limits]``.
 
     Writes ``<name>_size.nc`` (the run at the design value) and
-    ``<name>_size_curve.nc`` (the figures against the value). Returns 0 when
-    a feasible value was found, 1 when none in the bounds meets the limits,
-    2 for bad input.
+    ``<name>_size_curve.nc`` (the figures against the value). With
+    ``fidelity`` (the default) the answer is also checked on the fuller models
+    (:func:`explorer.check_fidelity`); the run file carries the check's summary.
+    Prints one line per run on stderr. Returns 0 when a feasible value was
+    found, 1 when none in the bounds meets the limits, 2 for bad input.
     """
+    import time
+
     from explorer.results import data_attrs, save
     from explorer.sizing import size_cooling
 
@@ -580,12 +584,24 @@ def cmd_size(scenario, out=None) -> int:
     bounds = sc.size.get("bounds")
     vary = sc.size["vary"]
 
-    def progress(value, met, margin):  # one line per run, so a long sizing shows life
-        print(f"  run: {vary} = {value:.6g}: {'meets' if met else 'fails'} (worst margin "
-              f"{margin:+.3g})", file=sys.stderr, flush=True)
+    start, runs, checked = time.perf_counter(), [], set()
 
+    def progress(value, met, margin):  # one line per run, so a long sizing shows life
+        runs.append(value)
+        print(f"  run: {vary} = {value:.6g}: {'meets' if met else 'fails'} (worst margin "
+              f"{margin:+.3g}; run {len(runs)}, {time.perf_counter() - start:.1f} s)",
+              file=sys.stderr, flush=True)
+
+    def fidelity_progress(variant, fraction):  # one line per fuller run of the check
+        if variant not in checked:
+            checked.add(variant)
+            print(f"  fidelity check of the answer: {variant} run ("
+                  f"{time.perf_counter() - start:.1f} s)", file=sys.stderr, flush=True)
+
+    check = {"progress": fidelity_progress} if fidelity else False
     res = size_cooling(sc.cell, sc.duty, sc.cooling, vary, None if bounds is None else
-                       tuple(bounds), sc.limits, on_evaluation=progress, **options, **sc.model)
+                       tuple(bounds), sc.limits, on_evaluation=progress, check_fidelity=check,
+                       **options, **sc.model)
     folder = _out_dir(sc, out)
     run = res.dataset if res.module is None else res.module  # the module run, all its cells
     run = run.copy()
@@ -598,8 +614,13 @@ def cmd_size(scenario, out=None) -> int:
                         "cooling": json.dumps(res.design.describe(), default=str),
                         **data_attrs(sc.cell, sc.duty)})
     curve_path = save(curve, folder / f"{sc.path.stem}_size_curve.nc", limits=sc.limits)
-    _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", res.table(),
-            f"wrote {run_path}", f"wrote {curve_path}"])
+    lines = [f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", res.table()]
+    if res.fidelity is not None:
+        from explorer import fidelity as fid
+
+        lines += ["", "fidelity check of the answer (the same design on the fuller models):",
+                  fid.text_table(fid.summary(res.fidelity)), ""]
+    _print([*lines, f"wrote {run_path}", f"wrote {curve_path}"])
     return 0 if res.feasible else 1
 
 

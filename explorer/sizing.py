@@ -382,32 +382,74 @@ def _islands(order, met, anchor, lat) -> list[tuple[float, float]]:
 def _refine(f, fail: int, ok: int, reciprocal: bool = False) -> tuple[int, int]:
     """Shrink a bracket of lattice indices (``fail`` fails, ``ok`` meets) to neighbours.
 
-    Linear interpolation of the margin (against the reciprocal of the value
-    when ``reciprocal``, indices > 0) gives the next index, rounded to the
-    feasible side of the estimated root so the following probe, one step
-    cheaper, usually closes the bracket; a step that does not halve the
-    bracket is followed by a bisection (guaranteed progress).
+    The margin is smooth in the parameter, so the next index comes from the
+    points evaluated nearest the boundary (see :func:`_estimate_root`; against
+    the reciprocal of the value when ``reciprocal``, indices > 0), rounded to
+    the feasible side of the estimated root so the following probe, one step
+    cheaper, usually closes the bracket. After two steps in a row that do not
+    halve the bracket, a bisection follows (guaranteed progress).
     """
-    f_fail, f_ok = f(fail), f(ok)
-    u = (lambda k: 1.0 / k) if reciprocal else float  # the axis the margin is taken linear on
-    bisect = False
+    points = {fail: f(fail), ok: f(ok)}
+    weights = dict(points)  # the bracket ends' margins for false position (Illinois-scaled)
+    slow, kept = 0, None  # steps in a row that did not halve the bracket; the end kept last
     while abs(ok - fail) > 1:
         width = abs(ok - fail)
         lo, hi = sorted((fail, ok))
-        if bisect:
+        if slow >= 2:
             k = (fail + ok) // 2
         else:
-            root = u(fail) + (u(ok) - u(fail)) * (-f_fail) / (f_ok - f_fail)
-            root = 1.0 / root if reciprocal else root
+            root = _estimate_root(points, weights, fail, ok, reciprocal)
             k = math.ceil(root) if ok > fail else math.floor(root)
         k = min(max(k, lo + 1), hi - 1)
-        m = f(k)
+        m = points[k] = f(k)
         if m >= 0.0:
-            ok, f_ok = k, m
+            if kept == "fail":  # the same end kept twice: halve its weight (Illinois rule)
+                weights[fail] /= 2.0
+            ok, weights[k], kept = k, m, "fail"
         else:
-            fail, f_fail = k, m
-        bisect = abs(ok - fail) > width / 2
+            if kept == "ok":
+                weights[ok] /= 2.0
+            fail, weights[k], kept = k, m, "ok"
+        slow = slow + 1 if abs(ok - fail) > width / 2 else 0
     return fail, ok
+
+
+def _estimate_root(points: dict, weights: dict, fail: int, ok: int, reciprocal: bool) -> float:
+    """Where the margin crosses zero inside the bracket, as a (fractional) lattice index.
+
+    A quadratic through the three evaluated points nearest the boundary (the
+    smallest margins), else the secant of the two nearest, else false position
+    on the bracket ends; the first estimate that falls inside the bracket wins.
+    """
+    lo, hi = sorted((fail, ok))
+    u = (lambda k: 1.0 / k) if reciprocal else float  # the axis the margin is taken smooth on
+
+    def back(x):  # from the axis to an index (None when off the axis' range)
+        if not reciprocal:
+            return x
+        return 1.0 / x if x > 0.0 else None
+
+    def inside(candidates):
+        ks = [k for k in (back(x) for x in candidates) if k is not None and lo < k < hi]
+        return min(ks, key=lambda k: abs(k - near[0])) if ks else None
+
+    near = sorted(points, key=lambda k: abs(points[k]))
+    if len(near) >= 3:
+        xs, ys = [u(k) for k in near[:3]], [points[k] for k in near[:3]]
+        with np.errstate(all="ignore"):
+            coef = np.polyfit(xs, ys, 2)
+            roots = [r.real for r in np.roots(coef) if abs(r.imag) <= 1e-12 * (1 + abs(r))]
+        found = inside(roots) if np.all(np.isfinite(coef)) else None
+        if found is not None:
+            return found
+    a, b = near[0], near[1]
+    if points[a] != points[b]:
+        found = inside([u(a) - points[a] * (u(b) - u(a)) / (points[b] - points[a])])
+        if found is not None:
+            return found
+    w_fail, w_ok = weights[fail], weights[ok]
+    found = inside([u(fail) + (u(ok) - u(fail)) * (-w_fail) / (w_ok - w_fail)])
+    return (lo + hi) / 2.0 if found is None else found
 
 
 # --------------------------------------------------------------------------- sizing a design
@@ -462,6 +504,10 @@ class SizingResult:
         What a reviewer must see beside the answer (the run at ``value``).
     message : str
         What was found, in words.
+    fidelity : xarray.Dataset or None
+        The fidelity check of the answer (:func:`explorer.check_fidelity`)
+        when ``size_cooling(..., check_fidelity=True)``; its summary is also
+        in ``dataset.attrs["fidelity_summary"]``.
     """
 
     vary: str
@@ -488,6 +534,7 @@ class SizingResult:
     module: xr.Dataset | None = None
     cells: int | None = None
     warnings: list = field(default_factory=list)
+    fidelity: xr.Dataset | None = None
 
     @property
     def kind(self) -> str:
@@ -521,6 +568,9 @@ class SizingResult:
             where += "" if self.position is None else f"; worst cell position {self.position}"
         lines.append(where)
         lines.append(self.message)
+        if self.fidelity is not None:
+            lines.append(f"fidelity check of the answer: verdict could flip: "
+                         f"{self.fidelity.attrs.get('verdict_could_flip')} (see .fidelity)")
         return "\n".join(lines)
 
     def _decided(self) -> str:
@@ -540,10 +590,10 @@ class SizingResult:
 
 
 def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | None = None, *,
-                 positions=None, samples: int = 5, resolution: float | None = None,
+                 positions=None, samples: int | str = "auto", resolution: float | None = None,
                  cheaper: str | None = None, spacing: str = "auto", max_evaluations: int = 40,
                  strict: bool = False, module: bool | None = None, on_evaluation=None,
-                 rtol=None, **simulate_kwargs) -> SizingResult:
+                 check_fidelity=False, rtol=None, **simulate_kwargs) -> SizingResult:
     """Find the cheapest value of one design parameter that meets the limits.
 
     Parameters
@@ -572,7 +622,10 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
     samples, spacing, max_evaluations
         Search settings, see :func:`find_boundary` (``"auto"`` spacing is linear for a
         temperature in degC): ``3 <= samples <= 1000`` and ``max_evaluations >= 1`` whole
-        numbers, ``spacing`` one of "auto", "linear", "geometric".
+        numbers, ``spacing`` one of "auto", "linear", "geometric". ``samples="auto"``
+        (the default) is 3 when one evaluation is a module run or several cell
+        positions (the figures are smooth in the parameter, so the refinement
+        needs few points), 5 for one cell.
     resolution, cheaper : optional
         Override the parameter's entry in :data:`DESIGN_PARAMETERS` (needed
         for a parameter that has none).
@@ -585,6 +638,11 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
         False runs cell positions one at a time.
     on_evaluation : callable, optional
         Called after every run as ``on_evaluation(value, met, worst_margin)``.
+    check_fidelity : bool or dict
+        Check the answer on the fuller models (:func:`explorer.check_fidelity`:
+        DFN, the fuller layout, a finer grid, against the same limits) and set
+        ``SizingResult.fidelity``; a dict gives its options (``max_wall_s``,
+        ``progress``). Off by default (it costs a few fuller runs).
     rtol
         No longer used (the answer is refined to ``resolution``); accepted so
         older callers keep working.
@@ -624,6 +682,7 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
                          f"cooling design; expected one of {sorted(params)}")
     samples, max_evaluations, spacing = _check_search(samples, max_evaluations, spacing, strict,
                                                       module, on_evaluation)
+    fidelity_options = _check_fidelity_option(check_fidelity)
     module = None if module is None else bool(module)  # numpy's False is not `False`
     entry = _entry(vary, bounds, cheaper, resolution)
     lo, hi = _check_bounds(entry.bounds if bounds is None else bounds)
@@ -635,6 +694,8 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
     limits.check_reachable(_coldest_sink(cooling, vary, lo, hi), where="size_cooling")
     as_module = _use_module(cooling, module)
     positions, cells = _positions(cooling, positions, as_module)
+    if samples == "auto":  # a module run or several positions cost several cells each
+        samples = 3 if as_module or len(positions) > 1 else 5
 
     runner = _Runner(cell, duty, cooling, vary, limits, positions, simulate_kwargs,
                      as_module=as_module, cells=cells, on_evaluation=on_evaluation)
@@ -647,7 +708,38 @@ def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | N
         outcome = _recheck_all_positions(runner, outcome, lo, hi, search)
     if strict and outcome.kind != "limits":
         raise SizingError(_message(outcome, vary, lo, hi, runner, limits, entry))
-    return _result(runner, outcome, entry, (lo, hi))
+    res = _result(runner, outcome, entry, (lo, hi))
+    if fidelity_options is not None:
+        _check_the_answer(res, runner, fidelity_options)
+    return res
+
+
+def _check_fidelity_option(value) -> dict | None:
+    """``check_fidelity`` as the options of the check, or None for no check."""
+    if isinstance(value, bool | np.bool_):
+        return {} if value else None
+    if isinstance(value, dict):
+        unknown = set(value) - {"max_wall_s", "progress"}
+        if not unknown:
+            return dict(value)
+    raise InputError(f"size_cooling: `check_fidelity` must be True, False or a dict of "
+                     f"options (max_wall_s, progress), got {short_repr(value)}")
+
+
+def _check_the_answer(res: SizingResult, runner, options: dict) -> None:
+    """The fidelity check of the sized design, on the run already made at the answer."""
+    from explorer.fidelity import attach, check_fidelity
+
+    kwargs = dict(runner.kwargs)
+    if not runner.as_module and res.position is not None:
+        kwargs["position"] = res.position
+    base = res.module if runner.as_module else res.dataset
+    fid = check_fidelity(runner.cell, runner.duty, res.design, limits=runner.limits,
+                         module=runner.as_module, base=base, **options, **kwargs)
+    res.fidelity = fid
+    for ds in (res.dataset, res.module):
+        if ds is not None:
+            attach(ds, fid)
 
 
 def _result(runner, outcome, entry, bounds) -> SizingResult:
@@ -679,8 +771,9 @@ def _result(runner, outcome, entry, bounds) -> SizingResult:
 
 def _check_search(samples, max_evaluations, spacing, strict, module, on_evaluation):
     """size_cooling's search settings checked before any run: (samples, max_evaluations,
-    spacing)."""
-    samples = _check_count("samples", samples, 3, MAX_SAMPLES)
+    spacing); ``samples="auto"`` stays (chosen once the kind of run is known)."""
+    if not (isinstance(samples, str) and samples == "auto"):
+        samples = _check_count("samples", samples, 3, MAX_SAMPLES)
     max_evaluations = _check_count("max_evaluations", max_evaluations, 1)
     for name, value in (("strict", strict), ("module", module)):
         if not isinstance(value, bool | np.bool_) and not (name == "module" and value is None):
