@@ -67,6 +67,9 @@ def summary(cell: Cell) -> list[dict]:
         if used != computed:
             rows.append(row(f"computed_{label}", f"Computed {label} (overridden)", computed,
                             "J/K" if label == "heat capacity" else "W/(m K)"))
+    for name, e in (("negative", cell.negative), ("positive", cell.positive)):
+        curve = e.ocp if isinstance(e.ocp, str) else e.ocp.source
+        rows.append(row(f"{name}_curve", f"{name.capitalize()} potential curve", curve))
     for t in g.tabs:
         rows.append(row(f"tab_{t.name}", f"Tab {t.name!r} ({t.polarity})",
                         f"{t.edge} edge at {t.position_m * 1e3:g} mm, {t.width_m * 1e3:g} mm "

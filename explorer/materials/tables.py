@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import csv
 import hashlib
+from bisect import bisect_right
 from dataclasses import dataclass
 
 import numpy as np
@@ -96,19 +97,44 @@ class TabulatedCurve:
         if beyond not in ("linear", "hold"):
             raise InputError(f"`beyond`: expected 'linear' or 'hold', got {beyond!r}")
         self.beyond = beyond
-        self._pp = PchipInterpolator(self.x, self.y, extrapolate=False)
-        slope = self._pp.derivative()(self.x[[0, -1]])
+        pp = PchipInterpolator(self.x, self.y, extrapolate=False)
+        slope = pp.derivative()(self.x[[0, -1]])
         self._slopes = (float(slope[0]), float(slope[1])) if beyond == "linear" else (0.0, 0.0)
+        # the cubic pieces, evaluated here directly (Horner): a scipy call costs several times
+        # more for the scalar calls the rods make every step
+        self._c = [np.ascontiguousarray(row) for row in pp.c]
+        self._last = self.x.size - 2
+        self._lists = (self.x.tolist(), *(row.tolist() for row in self._c))
 
     def __call__(self, x):
+        if isinstance(x, float | int) or (isinstance(x, np.ndarray | np.generic)
+                                          and np.ndim(x) == 0):
+            return np.float64(self._scalar(float(x)))
         x = np.asarray(x, dtype=float)
         lo, hi = self.x[0], self.x[-1]
         xc = np.minimum(np.maximum(x, lo), hi)
-        y = self._pp(xc)
+        i = np.minimum(np.searchsorted(self.x, xc, side="right") - 1, self._last)
+        t = xc - self.x[i]
+        c3, c2, c1, c0 = self._c
+        y = ((c3[i] * t + c2[i]) * t + c1[i]) * t + c0[i]
         if self.beyond == "linear":
             d0, d1 = self._slopes
             y = y + np.minimum(x - lo, 0.0) * d0 + np.maximum(x - hi, 0.0) * d1
         return y[()] if y.ndim == 0 else y
+
+    def _scalar(self, v: float) -> float:
+        """The same as ``__call__`` for one Python float (no array overhead)."""
+        xs, c3, c2, c1, c0 = self._lists
+        lo, hi = xs[0], xs[-1]
+        xc = lo if v < lo else hi if v > hi else v
+        i = min(bisect_right(xs, xc) - 1, self._last)
+        t = xc - xs[i]
+        y = ((c3[i] * t + c2[i]) * t + c1[i]) * t + c0[i]
+        if v < lo:
+            y += (v - lo) * self._slopes[0]
+        elif v > hi:
+            y += (v - hi) * self._slopes[1]
+        return y
 
     def __eq__(self, other):
         return (isinstance(other, TabulatedCurve) and self.beyond == other.beyond
