@@ -88,7 +88,8 @@ def resolve_curves(r, values: dict, base_dir: Path | None) -> dict:
     electrodes' ``ocp`` entries: a material key stays a key; tables become an
     :class:`~explorer.materials.ocp.OpenCircuitPotential`. Problems go to ``r.add``.
 
-    Returns ``{"tables": {field: {"file", "sha256"}}, "warnings": [...]}``.
+    Returns ``{"tables": {field: {"file", "path" (absolute), "sha256"}}, "warnings": [...]}``
+    (a tool that writes the cell file elsewhere rewrites the table keys from "path").
     """
     base_dir = Path.cwd() if base_dir is None else Path(base_dir)
     info = {"tables": {}, "warnings": []}
@@ -110,7 +111,8 @@ def resolve_curves(r, values: dict, base_dir: Path | None) -> dict:
         except InputError as exc:
             r.add(field, text, str(exc))
             return None
-        info["tables"][field] = {"file": Path(text).name, "sha256": t.sha256}
+        info["tables"][field] = {"file": Path(text).name, "path": str(path.resolve()),
+                                 "sha256": t.sha256}
         return t
 
     def check(field, text, table, kind, window, falling=None):
