@@ -58,7 +58,7 @@ class Parameter:
 
     name: str
     description: str
-    unit: str  # of the reported value ("1" for a scale)
+    unit: str  # of the reported value ("x" for a scale: a factor on the cell file's values)
     display: float  # reported value = SI value / display (mohm: 1e-3)
     low: float  # default bounds, SI
     high: float
@@ -71,13 +71,13 @@ PARAMETERS = {
         "resistance", "series contact resistance at the tab welds (both polarities)", "mohm",
         1e-3, 1e-6, 0.05),
     "diffusivity": Parameter(
-        "diffusivity", "scale of both electrodes' solid diffusivity", "1", 1.0, 0.01, 100.0),
+        "diffusivity", "scale of both electrodes' solid diffusivity", "x", 1.0, 0.01, 100.0),
     "rate_constant": Parameter(
-        "rate_constant", "scale of both electrodes' reaction rate constant", "1", 1.0, 0.01,
+        "rate_constant", "scale of both electrodes' reaction rate constant", "x", 1.0, 0.01,
         100.0),
     "electrolyte": Parameter(
         "electrolyte", "scale of the electrolyte transport (effective conductivity and "
-        "diffusivity, through the Bruggeman exponents)", "1", 1.0, 0.1, 10.0),
+        "diffusivity, through the Bruggeman exponents)", "x", 1.0, 0.1, 10.0),
     "heat_capacity": Parameter(
         "heat_capacity", "whole-cell heat capacity", "J/K", 1.0, 1.0, 1e6,
         needs_temperature=True),
@@ -139,6 +139,14 @@ class LabTest:
             raise InputError(f"{where}: `time_s` must increase strictly")
         if not 0.0 <= float(self.start_soc) <= 1.0:
             raise InputError(f"{where}: `start_soc` must be within 0..1, got {self.start_soc!r}")
+        charge = float(np.sum(np.diff(self.time_s) * self.current_A[:-1]))
+        dv = float(self.voltage_V[-1] - self.voltage_V[0])
+        if charge * dv > 0 and abs(dv) > 0.05:  # discharging raises it, or charging lowers it
+            raise InputError(
+                f"{where}: the voltage {'rises' if dv > 0 else 'falls'} by {abs(dv):.2f} V "
+                f"while the net current is {'discharge' if charge > 0 else 'charge'} by this "
+                "tool's convention (current positive on discharge); flip the current's sign "
+                "(in a CSV file: `# current_sign = -1`)")
         if self.start_temperature_C is None:
             self.start_temperature_C = (float(self.temperature_C[0]) if self.temperature_C
                                         is not None else float(self.ambient_C))
@@ -148,7 +156,7 @@ class LabTest:
         return float(self.time_s[-1] - self.time_s[0])
 
 
-_SETTINGS = {"ambient_c": "ambient_C", "start_soc": "start_soc",
+_SETTINGS = {"ambient_c": "ambient_C", "start_soc": "start_soc", "current_sign": "current_sign",
              "start_temperature_c": "start_temperature_C", "h_w_m2k": "h_W_m2K", "name": "name"}
 
 
@@ -157,7 +165,8 @@ def load_test(path, **overrides) -> LabTest:
     ``voltage_V`` and optionally ``temperature_C`` (any unit suffix of
     :mod:`explorer.csvdata`). Rig conditions come from ``# key = value`` comment
     lines (``ambient_C``, ``start_soc``, ``start_temperature_C``, ``h_W_m2K``,
-    ``name``) or from the keyword ``overrides``.
+    ``name``; ``current_sign = -1`` for a cycler that counts discharge negative) or from
+    the keyword ``overrides``.
     """
     from explorer.csvdata import check_path, read_curves, read_settings
 
@@ -181,8 +190,11 @@ def load_test(path, **overrides) -> LabTest:
         if not math.isfinite(kw[attr]):
             raise InputError(f"{path}: setting `{attr}` must be finite, got {text!r}")
     kw.update(overrides)
+    sign = kw.pop("current_sign", 1.0)
+    if sign not in (1.0, -1.0):
+        raise InputError(f"{path}: setting `current_sign` must be 1 or -1, got {sign!r}")
     try:
-        return LabTest(time_s=data["time_s"], current_A=data["current_A"],
+        return LabTest(time_s=data["time_s"], current_A=sign * data["current_A"],
                        voltage_V=data["voltage_V"], temperature_C=data.get("temperature_C"),
                        **kw)
     except InputError as exc:
@@ -461,8 +473,11 @@ class Calibration:
         for r in self.rms:
             temp = (f", temperature {r['temperature_rms_K']:.2f} K"
                     if r["temperature_rms_K"] is not None else "")
+            run = ("" if r.get("run_status") in ("completed", None) else
+                   f"; the model run {r['run_status']} at {r['run_ended_s']:.0f} s of "
+                   f"{r['duration_s']:.0f} s, later points compare with its last values")
             lines.append(f"  {r['test']}: voltage {r['voltage_rms_mV']:.1f} mV{temp} "
-                         f"({r['points']} points)")
+                         f"({r['points']} points{run})")
         return "\n".join(lines)
 
     def __repr__(self) -> str:
@@ -715,7 +730,8 @@ def _rms_and_curves(runner: _Runner, settings) -> tuple[list, list]:
         dv = model["voltage_V"] - test.voltage_V[idx]
         row = {"test": test.name, "points": int(len(idx)),
                "voltage_rms_mV": float(1e3 * np.sqrt(np.mean(dv ** 2))),
-               "temperature_rms_K": None, "run_status": status}
+               "temperature_rms_K": None, "run_status": status,
+               "run_ended_s": model["ended_s"], "duration_s": test.duration_s}
         curve = {"test": test.name, "time_s": test.time_s[idx] - test.time_s[0],
                  "voltage_measured_V": test.voltage_V[idx], "voltage_model_V": model["voltage_V"],
                  "temperature_C": None, "temperature_model_C": None}

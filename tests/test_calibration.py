@@ -159,3 +159,24 @@ def test_bad_calibration_arguments(kwargs, match):
 def test_a_test_with_mismatched_columns_is_refused():
     with pytest.raises(InputError, match="`voltage_V` has 4 values"):
         LabTest("t", np.arange(5.0), np.ones(5), np.ones(4))
+
+
+def test_electrolyte_transport_scale_round_trip():
+    """One parameter: the electrolyte transport (eps**b through the Bruggeman exponents)."""
+    tests = synthetic_tests("van_nmc_66ah", c_rates=(2.0,), changes={"electrolyte": 0.7},
+                            end_soc=0.7, seed=2, temperature=False)
+    cal = calibrate("van_nmc_66ah", tests, fit="electrolyte", max_points=40)
+    assert abs(math.log(cal.values["electrolyte"] / 0.7)) <= 3 * cal.sigma_log["electrolyte"]
+    prov = read_provenance(cal.text)
+    assert prov["separator.bruggeman"].startswith("fitted")
+    assert prov["negative.solid_conductivity"].startswith("fitted")  # compensated, see module
+
+
+def test_a_discharge_counted_negative_is_caught_and_can_be_flipped(tmp_path):
+    p = tmp_path / "cycler.csv"
+    rows = "".join(f"{t},-10,{4.1 - 0.001 * t:.4f}\n" for t in range(0, 300, 10))
+    p.write_text("time_s,current_A,voltage_V\n" + rows)
+    with pytest.raises(InputError, match="current positive on discharge"):
+        load_test(p)
+    p.write_text("# current_sign = -1\ntime_s,current_A,voltage_V\n" + rows)
+    assert load_test(p).current_A[0] == 10.0

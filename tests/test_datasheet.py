@@ -175,3 +175,17 @@ def test_new_cell_asks_for_each_value_with_defaults(monkeypatch, tmp_path):
     assert cell.name == "Asked cell" and cell.nominal_capacity_Ah == 50
     assert cell.voltage_max_V == pytest.approx(3.65)  # the template's, as the default
     assert read_provenance(out.read_text())["cell.voltage_max"] == "data sheet"
+
+
+def test_a_tab_the_data_sheet_leaves_out_comes_from_the_template():
+    raw = _sheet("rack_lfp_26ah")
+    raw["tabs"].pop("positive")
+    raw["tabs"]["negative"]["centre"] = "60 mm"
+    cell = from_datasheet(raw)
+    neg, = cell.tab("negative")
+    pos, = cell.tab("positive")
+    assert neg.position_m == pytest.approx(0.055)  # 60 mm from the body corner, less the inset
+    assert pos.edge == "top" and pos.position_m == pytest.approx(0.08)
+    prov = cell.extra["provenance"]
+    assert prov["tabs.positive.centre"].startswith("derived: the template's")
+    assert prov["tabs.negative.edge"] == "data sheet"

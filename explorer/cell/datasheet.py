@@ -742,20 +742,24 @@ def _tabs(sheet, tabs, data, tcell, setv, prov) -> None:
     inset = {"top": (sheet["width"] - ew) / 2, "bottom": (sheet["width"] - ew) / 2,
              "left": (sheet["height"] - eh) / 2, "right": (sheet["height"] - eh) / 2}
     length = {"top": ew, "bottom": ew, "left": eh, "right": eh}
-    if not tabs:  # the template's, scaled along their edges
-        tw, th = tcell.geometry.width_m, tcell.geometry.height_m
-        for t in tcell.geometry.tabs:
-            ratio = (ew / tw) if t.edge in ("top", "bottom") else (eh / th)
-            note = "the template's tab scaled to the edge length"
-            setv(f"tabs.{t.name}.centre", _fmt(t.position_m * ratio, "m"), "derived", note)
-            setv(f"tabs.{t.name}.width", _fmt(t.width_m * ratio, "m"), "derived", note)
+    tw, th = tcell.geometry.width_m, tcell.geometry.height_m
+    given = {raw.get("polarity", n) for n, raw in tabs.items()}
+    template_raw = data.pop("tabs")
+    data["tabs"] = {}
+    for t in tcell.geometry.tabs:  # polarities the data sheet leaves out: the template's, scaled
+        if t.polarity in given:
+            continue
+        data["tabs"][t.name] = dict(template_raw[t.name])
+        ratio = (ew / tw) if t.edge in ("top", "bottom") else (eh / th)
+        note = "the template's tab scaled to the edge length"
+        setv(f"tabs.{t.name}.centre", _fmt(t.position_m * ratio, "m"), "derived", note)
+        setv(f"tabs.{t.name}.width", _fmt(t.width_m * ratio, "m"), "derived", note)
+    if not tabs:
         return
     template_tabs = {t.polarity: t for t in tcell.geometry.tabs}
-    data.pop("tabs")
     for k in list(prov):
-        if k.startswith("tabs."):
+        if k.startswith("tabs.") and k.split(".")[1] not in data["tabs"]:
             del prov[k]
-    data["tabs"] = {}
     problems = []
     for name, raw in tabs.items():
         pol = raw.get("polarity", name)
