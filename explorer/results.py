@@ -584,7 +584,7 @@ def data_attrs(cell, steps=()) -> dict:
     if _marked(note):
         notes.append(f"cell {cell.name} ({name or 'built in Python'}): {note}")
     notes += _provenance_notes(cell, extra)
-    for step in steps:
+    for step in steps if isinstance(steps, list | tuple) else [steps]:  # a duty: one or a list
         step = getattr(step, "step", step)
         source = str(getattr(step, "source", "") or "")
         header = _file_header(source) if source else ""

@@ -757,6 +757,9 @@ def _result(runner, outcome, entry, bounds) -> SizingResult:
         ds = ds.isel(cell=position)
     elif not runner.as_module:
         module_ds = None
+    for run in (ds, module_ds):  # the limits travel with the sized run (contract G)
+        if run is not None:
+            run.attrs["limits"] = json.dumps(limits.as_dict())
     return SizingResult(
         vary=vary, bounds=bounds, limits=limits, value=value, feasible=worst["met"],
         dataset=ds, curve=curve, margins=worst["margins"], figures=worst["figures"],

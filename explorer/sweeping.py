@@ -1022,7 +1022,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
         coords.update(x=("x", ref["x"].values, {"units": "m"}), y=("y", ref["y"].values,
                                                                    {"units": "m"}))
     from explorer import __version__
-    from explorer.results import CAUTION
+    from explorer.results import CAUTION, data_attrs
 
     n_failed = int(sum(s not in CACHEABLE for s in status.ravel()))
     n_stopped = int(sum(s == "stopped" for s in status.ravel()))
@@ -1053,6 +1053,7 @@ def _assemble(cell, duty, cooling, axes, cases, results, limits, keep_fields, tr
                      "case's end",
         "caution": CAUTION,
     }
+    attrs.update(data_attrs(cell, duty))  # data notes, cell file name and hash (contract G)
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
