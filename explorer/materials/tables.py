@@ -35,7 +35,6 @@ from bisect import bisect_right
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.interpolate import PchipInterpolator
 
 from explorer.csvdata import check_path, read_text
 from explorer.validators import InputError, short_repr
@@ -97,6 +96,9 @@ class TabulatedCurve:
         if beyond not in ("linear", "hold"):
             raise InputError(f"`beyond`: expected 'linear' or 'hold', got {beyond!r}")
         self.beyond = beyond
+        # imported here: scipy.interpolate loads scipy.optimize and .spatial (~0.2 s)
+        from scipy.interpolate import PchipInterpolator
+
         pp = PchipInterpolator(self.x, self.y, extrapolate=False)
         slope = pp.derivative()(self.x[[0, -1]])
         self._slopes = (float(slope[0]), float(slope[1])) if beyond == "linear" else (0.0, 0.0)
