@@ -306,6 +306,14 @@ class _Page:
 def _limits_for(ds, limits):
     """The limits to hold ``ds`` against: those given, else those the file recorded, else the
     data-sheet maximum (labelled as such)."""
+    if isinstance(limits, Mapping):  # a plain mapping of limit values
+        from explorer.limits import Limits
+        from explorer.validators import InputError
+
+        try:
+            limits = Limits(**limits)
+        except (InputError, TypeError):
+            pass
     if limits is not None and hasattr(limits, "check"):
         return limits, "given"
     recorded = _results().limits_from(ds)
@@ -598,8 +606,9 @@ def _comparison_section(page: _Page, named: dict, limits) -> None:
     page.add("<p class='meta'>Figures of each run; in brackets the difference to the first run."
              "</p>", _table(rows, header=[header[0]] + [names[0]] + [
                  f"{n} (Δ to first)" for n in names[1:]]))
+    held = _limits_for(next(iter(named.values())), limits)[0]
     page.figure("The runs overlaid", "comparison",
-                lambda: plots.comparison_figure(named, limits=limits))
+                lambda: plots.comparison_figure(named, limits=held))
     page.add("</section>")
 
 
