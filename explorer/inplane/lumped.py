@@ -111,7 +111,8 @@ class LumpedThermal:
         return np.array([float(temperature_C)])
 
     def step(self, state, heat_W, dt, tab_heat_W=None):
-        q = float(np.sum(heat_W)) + (sum(tab_heat_W.values()) if tab_heat_W else 0.0)
+        q = float(heat_W.sum() if isinstance(heat_W, np.ndarray) else np.sum(heat_W)) + (
+            sum(tab_heat_W.values()) if tab_heat_W else 0.0)
         T_new = self._advance(float(state[0]), q, dt, float(self._G @ self._Ts))
         flows = (self._G * (T_new - self._Ts)).tolist()
         return np.array([T_new]), dict(zip(self._names, flows, strict=True))

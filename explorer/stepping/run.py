@@ -246,7 +246,7 @@ class _Trial:
     running integral)."""
 
     __slots__ = ("dt", "rod", "thermal", "rejected", "heat_map", "tab_heat", "heat", "t_max",
-                 "collector", "generated", "end", "rejected_J_per_s")
+                 "collector", "generated", "end", "rejected_J_per_s", "stored_J")
 
 
 class _Stepper:
@@ -263,6 +263,7 @@ class _Stepper:
         # running integrals: heat generated, heat rejected (J), charge (C), work (J)
         self.integrals = [0.0, 0.0, 0.0, 0.0]
         self.joule_total = float(self.joule.sum())
+        self.uniform = np.ones(shape)  # the rod's heat spread uniformly, per unit
         self.tab_joule = dict(coupling.tab_joule_W_per_A2)
         self.field_rods = bool(getattr(rod, "field_temperature", False))
         self.t = 0.0
@@ -275,6 +276,7 @@ class _Stepper:
         # their figures taken in one call when the run ends
         self.batch = getattr(type(thermal), "recorded_figures", None) is not None
         self.kept_states = []
+        self.rows = []  # one tuple per record (see _record), into the Record at the end
         # a fitted thermal model (exponential fitting: its slowest mode exact on any step), or
         # one stepping a fitted model for several cells, reports the flows at the new state
         # (recorded); the heat rejected over the step is then what the first law leaves
@@ -312,6 +314,7 @@ class _Stepper:
         zero = np.zeros(self.thermal.grid.shape)
         self.prev = res
         self.last_heat = None
+        self.stored_now = self.thermal.stored_J(self.T_state) if self.fitted else 0.0
         self._record(0, res, zero, {}, {k: 0.0 for k in HEAT_KEYS}, {}, 0.0, boundary=True)
 
     def _unphysical(self, voltage_V) -> str | None:
@@ -326,39 +329,21 @@ class _Stepper:
 
     def _record(self, index, res, heat_map, tab_heat, heat, rejected, collector,
                 boundary=False):
-        r = self.rec
-        r.time.append(self.t)
-        r.step.append(index)
-        r.voltage.append(res.voltage_V)
-        r.current.append(res.current_A)
-        r.ocv.append(res.ocv_V)
-        r.soc.append(res.soc)
-        r.heat_map.append(heat_map)
-        for k in HEAT_KEYS:
-            r.heat[k].append(heat.get(k, 0.0))
-        r.heat["collector"].append(collector)
-        r.soc_map.append(getattr(res, "soc_map", None))
-        r.current_density.append(getattr(res, "current_density_map", None))
-        r.heat["tab"].append(sum(tab_heat.values()) if tab_heat else 0.0)
-        r.heat_rejected.append(float(sum(rejected.values())))
-        n = len(r.time)
-        for name, w in rejected.items():
-            r.rejected_by_sink.setdefault(name, [0.0] * (n - 1)).append(w)
-        if len(rejected) < len(r.rejected_by_sink):
-            for lst in r.rejected_by_sink.values():
-                if len(lst) < n:
-                    lst.append(0.0)
+        """Keep one record: a row of references now (nothing here is changed later), the
+        Record's lists filled from the rows by :meth:`finish`."""
+        field = self.field_rods
+        self.rows.append((
+            self.t, index, res.voltage_V, res.current_A, res.ocv_V, res.soc, heat_map, heat,
+            collector, sum(tab_heat.values()) if tab_heat else 0.0, rejected,
+            getattr(res, "soc_map", None) if field else None,
+            getattr(res, "current_density_map", None) if field else None,
+            *self.integrals,
+            # cyclable lithium is a conservation check, not a trace: taken where steps end
+            self.rod.lithium_mol(res.state) if boundary else math.nan))
         if self.batch:  # states are not changed in place: keep a reference, figures at the end
             self.kept_states.append(self.T_state)
         else:
             self._record_thermal(heat_map)
-        gen, rej, charge, work = self.integrals
-        r.heat_generated_J.append(gen)
-        r.heat_rejected_J.append(rej)
-        r.charge_C.append(charge)
-        r.electrical_J.append(work)
-        # cyclable lithium is a conservation check, not a trace: taken where duty steps end
-        r.lithium_mol.append(self.rod.lithium_mol(res.state) if boundary else math.nan)
 
     def _record_thermal(self, heat_map):
         """The thermal figures of the current state, one state at a time (any thermal model)."""
@@ -384,8 +369,9 @@ class _Stepper:
         r.stored_J.append(self.thermal.stored_J(self.T_state))
 
     def finish(self, chunk=256):
-        """The thermal figures of the states kept for a batch, in chunks of ``chunk`` records
-        (bounded memory on long records)."""
+        """Fill the Record from the rows kept, and the thermal figures of the states kept for
+        a batch, in chunks of ``chunk`` records (bounded memory on long records)."""
+        self._fill_rows()
         states, self.kept_states = self.kept_states, []
         if not self.batch or not states:
             return
@@ -398,6 +384,29 @@ class _Stepper:
             r.temperature.extend(fig["temperature"])
             for key in scalars:
                 getattr(r, key).extend(fig[key].tolist())
+
+    def _fill_rows(self):
+        rows, self.rows = self.rows, []
+        if not rows:
+            return
+        r = self.rec
+        (time, step, voltage, current, ocv, soc, heat_map, heat, collector, tab, rejected,
+         soc_map, current_density, generated, rejected_J, charge, work, lithium) = zip(*rows)
+        for lst, values in ((r.time, time), (r.step, step), (r.voltage, voltage),
+                            (r.current, current), (r.ocv, ocv), (r.soc, soc),
+                            (r.heat_map, heat_map), (r.heat["collector"], collector),
+                            (r.heat["tab"], tab), (r.soc_map, soc_map),
+                            (r.current_density, current_density),
+                            (r.heat_generated_J, generated), (r.heat_rejected_J, rejected_J),
+                            (r.charge_C, charge), (r.electrical_J, work),
+                            (r.lithium_mol, lithium)):
+            lst.extend(values)
+        for k in HEAT_KEYS:
+            r.heat[k].extend(h.get(k, 0.0) for h in heat)
+        r.heat_rejected.extend(float(sum(d.values())) for d in rejected)
+        names = list(dict.fromkeys(name for d in rejected for name in d))
+        for name in names:
+            r.rejected_by_sink[name] = [d.get(name, 0.0) for d in rejected]
 
     # -- one duty step ------------------------------------------------------------------------
     def run_step(self, index, step: ResolvedStep) -> dict:
@@ -579,13 +588,17 @@ class _Stepper:
         """
         res = tr.rod
         heat = res.heat_W
-        field = getattr(res, "heat_map_W", None) is not None  # a grid of rods brings its maps
+        # a grid of rods brings its own maps (the test is on the rod first: cheaper)
+        field = self.field_rods and getattr(res, "heat_map_W", None) is not None
         tr.end = ((heat, res.heat_map_W, res.tab_heat_W, res.collector_W) if field
                   else (heat, res.current_A ** 2))
         last = None if self.fresh or not self.s.heat_trapezoid else self.last_heat
         if last is not None:
-            heat = {k: 0.5 * (heat.get(k, 0.0) + last[0].get(k, 0.0)) for k in HEAT_KEYS}
+            old = last[0]
+            heat = {k: 0.5 * (heat.get(k, 0.0) + old.get(k, 0.0)) for k in HEAT_KEYS}
         tr.heat = heat
+        q_rod = (heat.get("irreversible", 0.0) + heat.get("reversible", 0.0)
+                 + heat.get("ohmic_electrolyte", 0.0) + heat.get("ohmic_solid", 0.0))
         if field:
             if last is None:
                 tr.heat_map, tr.tab_heat, tr.collector = tr.end[1:]
@@ -594,16 +607,16 @@ class _Stepper:
                 tr.tab_heat = {k: 0.5 * (v + last[2].get(k, 0.0))
                                for k, v in res.tab_heat_W.items()}
                 tr.collector = 0.5 * (res.collector_W + last[3])
-            q_rod = sum(heat.get(k, 0.0) for k in HEAT_KEYS)
         else:
             I2 = tr.end[1] if last is None else 0.5 * (tr.end[1] + last[1])
-            q_rod = sum(heat.get(k, 0.0) for k in HEAT_KEYS)
-            tr.heat_map = np.full(self.thermal.grid.shape, q_rod / self.n_cells)
+            tr.heat_map = self.uniform * (q_rod / self.n_cells)
             if self.joule_total:
                 tr.heat_map += I2 * self.joule
-            tr.tab_heat = {k: I2 * v for k, v in self.tab_joule.items()}
+                tr.tab_heat = {k: I2 * v for k, v in self.tab_joule.items()}
+            else:
+                tr.tab_heat = {k: I2 * v for k, v in self.tab_joule.items()} if self.tab_joule else {}
             tr.collector = I2 * self.joule_total
-        tr.generated = q_rod + tr.collector + sum(tr.tab_heat.values())
+        tr.generated = q_rod + tr.collector + (sum(tr.tab_heat.values()) if tr.tab_heat else 0.0)
 
     def _thermal_step(self, tr: _Trial) -> None:
         """The thermal step for a trial; deferred until a trial is accepted unless an end
@@ -613,12 +626,14 @@ class _Stepper:
             tr.thermal, tr.rejected = self.thermal.step(self.T_state, tr.heat_map, tr.dt,
                                                         tr.tab_heat or None)
             if self.fitted:
-                stored = self.thermal.stored_J(tr.thermal) - self.thermal.stored_J(self.T_state)
-                tr.rejected_J_per_s = tr.generated - stored / tr.dt
+                tr.stored_J = self.thermal.stored_J(tr.thermal)
+                tr.rejected_J_per_s = tr.generated - (tr.stored_J - self.stored_now) / tr.dt
             else:
                 tr.rejected_J_per_s = sum(tr.rejected.values())
             T = self.thermal.temperature_C(tr.thermal)
-            finite = np.isfinite(T).all() and math.isfinite(tr.rejected_J_per_s)
+            tr.t_max = float(T.max())  # NaN and +inf show here, -inf in the minimum
+            finite = (math.isfinite(tr.t_max) and math.isfinite(float(T.min()))
+                      and math.isfinite(tr.rejected_J_per_s))
             problem = None if finite else "the temperatures are no longer finite numbers"
         except THERMAL_ERRORS as exc:
             problem = f"{type(exc).__name__}: {exc}"
@@ -628,7 +643,6 @@ class _Stepper:
                                f"{self.step.step.label!r}: the thermal model failed ({problem}); "
                                "a conductance or size of the cooling design is probably out "
                                "of range")
-        tr.t_max = float(T.max())
 
     def _value(self, end: End, tr: _Trial, t0: float) -> float:
         q = end.quantity
@@ -745,6 +759,8 @@ class _Stepper:
         self.prev = tr.rod
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
+        if self.fitted:
+            self.stored_now = tr.stored_J
         self.rec.steps_taken += 1
         self.last_heat = tr.end
         if record:
