@@ -152,3 +152,22 @@ def test_report_frames_bounded_and_plotlyjs_beside(demo_run, light, tmp_path):
     html = path.read_text(encoding="utf-8")
     assert f"src='{scripts[0]}'" in html and "http" not in html.split("</head>")[0]
     assert path.stat().st_size < (tmp_path / scripts[0]).stat().st_size
+
+
+def test_a_template_cell_is_a_data_note():
+    from types import SimpleNamespace
+
+    # the shape of a cell built on a chemistry template (explorer.cell.datasheet): each value's
+    # provenance in cell.extra["provenance"]; the names and values are invented
+    cell = SimpleNamespace(name="built pouch", source_path="/somewhere/built.toml", sha256="ab",
+                           extra={"data_note": "from the maker's data sheet",
+                                  "provenance": {"cell.nominal_capacity": "data sheet",
+                                                 "negative.diffusivity": "template",
+                                                 "positive.diffusivity": "template"},
+                                  "warnings": ["geometry inconsistent (invented)"]})
+    attrs = results.data_attrs(cell)
+    notes = json.loads(attrs["data_notes"])
+    assert notes == ["cell built pouch: 2 value(s) from a chemistry template "
+                     "(negative.diffusivity, positive.diffusivity)"]
+    assert attrs["cell_file"] == "built.toml" and attrs["cell_file_sha256"] == "ab"
+    assert json.loads(attrs["cell_warnings"]) == ["geometry inconsistent (invented)"]
