@@ -160,6 +160,7 @@ def check_fidelity(cell, duty, cooling, electrochemistry: str = "spme", layout: 
     deadline = time.perf_counter() + max_wall_s
     expected = _duration(base)
     for name, changes in sorted(plan, key=lambda p: _COST_GUESS[p[0]]):
+        alone = module and "layout" in changes and "cell" in base.dims and base.sizes["cell"] > 1
         left = deadline - time.perf_counter()
         guess = _COST_GUESS[name] * float(base.attrs.get("wall_time_s", 0.0) or 0.0)
         if left <= 0.0:
@@ -167,11 +168,14 @@ def check_fidelity(cell, duty, cooling, electrochemistry: str = "spme", layout: 
                             f"{max_wall_s:g} s (a run like this takes about {guess:.1f} s)"})
             continue
         watch = _Watch(name, left, expected, max_wall_s, progress)
-        ds = _run(cell, duty, cooling, {**common, **changes}, module, progress=watch)
+        if alone:  # a grid of rods in every cell costs the cells times the rods: the worst cell
+            ds = _worst_cell_alone(cell, duty, cooling, common, changes, base, watch)
+        else:
+            ds = _run(cell, duty, cooling, {**common, **changes}, module, progress=watch)
         if watch.reason is not None:
             skipped.append({"variant": name, "reason": watch.reason})
             continue
-        if ds.attrs.get("status") == "stopped":  # a real Ctrl-C: keep what the check has
+        if ds.attrs.get("status") == "stopped" and not isinstance(ds, _Alone):  # a real Ctrl-C
             skipped.append({"variant": name, "reason": "interrupted by the user"})
             break
         runs[name] = ds
@@ -222,6 +226,29 @@ def _run(cell, duty, cooling, options, module, progress=None) -> xr.Dataset:
     from explorer.simulate import simulate
 
     return simulate(cell, duty, cooling, progress=progress, **options)
+
+
+class _Alone:
+    """A layout variant of a module run on its worst cell alone: the fuller layout's run of
+    that cell and the same cell on the layout as run (both with the cells upstream taken as
+    equal to it), whose difference is added to the module's figures."""
+
+    def __init__(self, fuller, pair, position):
+        self.fuller, self.pair, self.position = fuller, pair, position
+        self.attrs = fuller.attrs
+
+
+def _worst_cell_alone(cell, duty, cooling, common, changes, base, watch):
+    from explorer.results import key_figures
+
+    k = int(key_figures(base)["worst_cell"])
+    options = {**common, "position": k}
+    pair = _run(cell, duty, cooling, options, False, progress=watch)
+    if watch.reason is not None or pair.attrs.get("status") == "stopped":
+        return pair
+    watch.next_run()
+    fuller = _run(cell, duty, cooling, {**options, **changes}, False, progress=watch)
+    return fuller if watch.reason is not None else _Alone(fuller, pair, k)
 
 
 def _plan(base, common) -> tuple[list, list]:
@@ -289,6 +316,12 @@ class _Watch:
                            f"time), more than the {self.left:.0f} s left of max_wall_s = "
                            f"{self.max_wall_s:g} s; raise max_wall_s or use a coarser grid")
 
+    def next_run(self):
+        """Watch a second run of the same variant on the time that is left."""
+        self.left -= time.perf_counter() - self.start
+        self.start = time.perf_counter()
+        self.estimated = False
+
     def _stop(self, reason):
         self.reason = reason
         log.info("fidelity check: %s %s", self.name, reason)
@@ -355,28 +388,52 @@ def _setting(ds) -> str:
     return text
 
 
+def _row_of(ds, base) -> dict:
+    """The compared figures of one variant's run, against the run as made."""
+    if isinstance(ds, _Alone):
+        return _row_alone(ds, base)
+    row = _figures(ds)
+    row["voltage_rms_difference"], row["voltage_max_difference"] = (
+        (0.0, 0.0) if ds is base else _voltage_difference(base, ds))
+    row.update({"duration": _duration(ds), "status": str(ds.attrs.get("status", "")),
+                "wall_time": float(ds.attrs.get("wall_time_s", math.nan)),
+                "setting": _setting(ds)})
+    return row
+
+
+def _row_alone(alone: _Alone, base) -> dict:
+    """The module's figures plus the fuller layout's difference on its worst cell alone."""
+    module, fuller, pair = _figures(base), _figures(alone.fuller), _figures(alone.pair)
+    row = {name: module[name] + fuller[name] - pair[name]
+           for name in ("peak_temperature", "core_temperature", "in_cell_spread")}
+    row["cell_to_cell_spread"] = math.nan  # one cell run: not seen
+    row["end_soc_spread"] = fuller["end_soc_spread"]
+    row["voltage_rms_difference"], row["voltage_max_difference"] = _voltage_difference(
+        alone.pair, alone.fuller)
+    wall = sum(float(d.attrs.get("wall_time_s", 0.0)) for d in (alone.pair, alone.fuller))
+    row.update({"duration": _duration(alone.fuller), "wall_time": wall,
+                "status": str(alone.fuller.attrs.get("status", "")),
+                "setting": f"{_setting(alone.fuller)}, worst cell {alone.position} alone "
+                           f"against its {alone.pair.attrs.get('layout')} run (the "
+                           "difference added to the module's figures)"})
+    return row
+
+
 def _dataset(runs: dict, cell, module: bool) -> xr.Dataset:
     names = [AS_RUN] + [v for v in VARIANTS if v in runs]
     base = runs[AS_RUN]
-    rows = {}
-    for name in names:
-        ds = runs[name]
-        row = _figures(ds)
-        row["voltage_rms_difference"], row["voltage_max_difference"] = (
-            (0.0, 0.0) if name == AS_RUN else _voltage_difference(base, ds))
-        rows[name] = row
+    rows = {name: _row_of(runs[name], base) for name in names}
     data = {}
     for fig, (units, long_name, _) in FIGURES.items():
         data[fig] = ("variant", np.array([rows[n][fig] for n in names]),
                      {"units": units, "long_name": long_name})
-    data["duration"] = ("variant", np.array([_duration(runs[n]) for n in names]),
-                        {"units": "s", "long_name": "length of the run"})
-    data["wall_time"] = ("variant", np.array([float(runs[n].attrs.get("wall_time_s", math.nan))
-                                              for n in names]),
-                         {"units": "s", "long_name": "wall time of the run"})
-    data["status"] = ("variant", np.array([str(runs[n].attrs.get("status", "")) for n in names]),
+    for key, units, long_name in (("duration", "s", "length of the run"),
+                                  ("wall_time", "s", "wall time of the run(s)")):
+        data[key] = ("variant", np.array([rows[n][key] for n in names], dtype=float),
+                     {"units": units, "long_name": long_name})
+    data["status"] = ("variant", np.array([rows[n]["status"] for n in names]),
                       {"long_name": "how the run ended"})
-    data["setting"] = ("variant", np.array([_setting(runs[n]) for n in names]),
+    data["setting"] = ("variant", np.array([rows[n]["setting"] for n in names]),
                        {"long_name": "model, layout and grid of the run"})
     out = xr.Dataset(data, coords={"variant": ("variant", np.array(names),
                                                {"long_name": "model variant"})})
@@ -521,11 +578,17 @@ def from_attrs(ds) -> dict | None:
     return value if isinstance(value, dict) and "rows" in value else None
 
 
+# Below these a difference is round-off, not a model difference (V, K, SOC fraction).
+_NOISE = {"V": 1e-9, "K": 1e-9, "degC": 0.0, "1": 1e-9}
+
+
 def _cell(value, unit, digits=4) -> str:
     if value is None:
         return "-"
-    if unit == "V":  # below a nanovolt is round-off, not a difference
-        return "0 mV" if abs(value) < 1e-9 else f"{value * 1e3:.{digits}g} mV"
+    if abs(value) < _NOISE.get(unit, 0.0):
+        value = 0.0
+    if unit == "V":
+        return f"{value * 1e3:.{digits}g} mV"
     return f"{value:.{digits}g}"
 
 
@@ -540,12 +603,14 @@ def _table_rows(s: dict) -> list[list[str]]:
             continue  # a figure neither run sees
         unit = _unit(r["unit"])
         diff_unit = unit.replace("degC", "K")
+        seen = r["difference"] is not None
         out.append([r["variant"], r["label"], _cell(r["as_run"], r["unit"]),
                     _cell(r["fuller"], r["unit"]),
-                    f"{_cell(r['difference'], r['unit'], 3)} {diff_unit}".strip(),
+                    f"{_cell(r['difference'], r['unit'].replace('degC', 'K'), 3)} "
+                    f"{diff_unit}".strip() if seen else "-",
                     "-" if r["margin"] is None else f"{r['margin']:+.3g} {diff_unit}".strip(),
                     "COULD FLIP" if r["could_flip"] else ("no" if r["margin"] is not None
-                                                          else "")])
+                                                          and seen else "")])
     return out
 
 
