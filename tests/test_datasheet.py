@@ -19,6 +19,7 @@ import sys
 import tomllib
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 import explorer
@@ -189,3 +190,26 @@ def test_a_tab_the_data_sheet_leaves_out_comes_from_the_template():
     prov = cell.extra["provenance"]
     assert prov["tabs.positive.centre"].startswith("derived: the template's")
     assert prov["tabs.negative.edge"] == "data sheet"
+
+
+def test_a_cell_with_a_measured_table_keeps_finding_it_when_written_elsewhere(tmp_path):
+    """cell_data points table keys at absolute paths (contract I: a tool writing the cell file
+    to another folder rewrites relative table keys); the table is invented, sampled from the
+    demo graphite curve."""
+    from explorer.cell.datasheet import cell_data, render
+    from explorer.materials import OCP
+
+    here, there = tmp_path / "a", tmp_path / "b"
+    here.mkdir()
+    there.mkdir()
+    x = np.linspace(0.001, 0.999, 60)
+    rows = "".join(f"{s:.5f},{u:.6f}\n" for s, u in zip(x, OCP["graphite"].potential(x)))
+    (here / "graphite.csv").write_text("stoichiometry,ocp_V\n" + rows)
+    text = (explorer.cell.loader.DEMO_DIR / "van_nmc_66ah.toml").read_text()
+    text = text.replace('ocp = "graphite"', 'ocp_table = "graphite.csv"')
+    (here / "cell.toml").write_text(text)
+    cell = explorer.load_cell(here / "cell.toml")
+    data, _ = cell_data(cell)
+    (there / "copy.toml").write_text(render(data))
+    assert explorer.load_cell(there / "copy.toml").negative.stoichiometry_0 == \
+        cell.negative.stoichiometry_0

@@ -47,7 +47,7 @@ from explorer.validators import InputError, OutputError, Problem, clip, short_re
 
 __all__ = ["from_datasheet", "cmd_new_cell", "TEMPLATES", "FIELDS", "PROVENANCE",
            "DataSheetError", "render", "read_provenance", "cell_data", "set_series_resistance",
-           "series_resistance_ohm", "EDGE_INSET_M"]
+           "series_resistance_ohm", "EDGE_INSET_M", "absolute_tables"]
 
 log = logging.getLogger(__name__)
 
@@ -256,19 +256,35 @@ def cell_data(cell) -> tuple[dict, dict]:
     """
     text = cell.extra.get("cell_file_text")
     if text is None and cell.source_path:
-        p = Path(cell.source_path)
-        try:
-            raw = p.read_bytes()
-        except (OSError, ValueError):
-            raw = None
-        if raw is not None:
-            import hashlib
-
-            if hashlib.sha256(raw).hexdigest() == cell.sha256:
-                text = raw.decode("utf-8-sig")
+        text = _unchanged_file_text(cell)
     if text is not None:
-        return tomllib.loads(text), read_provenance(text)
+        data = tomllib.loads(text)
+        absolute_tables(data, cell)
+        return data, read_provenance(text)
     return _rebuild(cell), {}
+
+
+def _unchanged_file_text(cell) -> str | None:
+    """The text of the file ``cell`` was read from, if it (and its tables) still give the
+    same cell (same hash); else None."""
+    from explorer.cell.loader import load_cell
+
+    p = Path(cell.source_path)
+    try:
+        text = p.read_bytes().decode("utf-8-sig")
+        same = load_cell(p).sha256 == cell.sha256
+    except (OSError, ValueError, UnicodeDecodeError):  # InputError is a ValueError
+        return None
+    return text if same else None
+
+
+def absolute_tables(data: dict, cell) -> None:
+    """Point the measured-curve keys (``ocp_table = "file.csv"``...) at their absolute paths,
+    so that a cell file written to another folder still finds its tables."""
+    for field, info in (cell.extra.get("tables") or {}).items():
+        table, _, key = field.partition(".")
+        if isinstance(data.get(table), dict) and key in data[table]:
+            data[table][key] = str(info["path"])
 
 
 def _rebuild(cell) -> dict:
@@ -284,6 +300,10 @@ def _rebuild(cell) -> dict:
                 v = cell.extra.get("data_note", "")
             else:
                 v = getattr(obj, f.attr, None)
+            if f.kind == "key" and v is not None and not isinstance(v, str):
+                raise InputError(f"cannot write the cell {cell.name!r} to a file: its "
+                                 f"`{name}.{f.key}` is a measured curve, not a key; build it "
+                                 "from its cell file")
             v = _field_value(f, v)
             if v is not None:
                 table[f.key] = v
@@ -565,7 +585,9 @@ def _template(chemistry: str) -> tuple[str, dict, object]:
     name = TEMPLATES[chemistry][0]
     path = list_demo_cells()[name]
     data = tomllib.loads(path.read_text(encoding="utf-8"))
-    return name, data, load_cell(path)
+    cell = load_cell(path)
+    absolute_tables(data, cell)
+    return name, data, cell
 
 
 def build_text(sheet: dict, tabs: dict, source: str = "<values>") -> tuple[str, dict]:
@@ -614,18 +636,27 @@ def build_text(sheet: dict, tabs: dict, source: str = "<values>") -> tuple[str, 
     # mass: the heat capacity of the layers scaled to the stated mass
     draft = cell_from_dict(data, source)
     if "mass" in sheet:
-        if any(f.key == "mass" for f in schema.CELL):
-            setv("cell.mass", _fmt(sheet["mass"], "kg"), "data sheet")
+        from explorer.cell import loader
+
         m = draft.derived.mass_kg
         ratio = sheet["mass"] / m
+        tolerance = getattr(loader, "STATED_TOLERANCE", 0.2)
+        if any(f.key == "mass" for f in schema.CELL):
+            if abs(ratio - 1) <= tolerance:
+                setv("cell.mass", _fmt(sheet["mass"], "kg"), "data sheet")
+            else:
+                notes.append(f"The stated mass ({sheet['mass'] * 1e3:.4g} g) is {ratio:.2f} "
+                             f"times what the layers account for ({m * 1e3:.4g} g), beyond the "
+                             f"{tolerance:.0%} a cell file may state; it is left out of [cell] "
+                             "and only scales the heat capacity.")
         c = draft.derived.computed_heat_capacity_J_K * ratio
         setv("thermal.heat_capacity", f"{c:.5g} J/K", "derived",
              f"the layers' {draft.derived.computed_heat_capacity_J_K:.4g} J/K scaled to the "
              f"stated mass ({sheet['mass'] * 1e3:.4g} g against {m * 1e3:.4g} g of layers, "
              "foils, electrolyte and pouch)")
-        if not 0.8 <= ratio <= 1.5:
-            notes.append(f"The stated mass is {ratio:.2f} times the mass the layers account "
-                         "for; check the mass, the dimensions and the chemistry.")
+        if not 0.7 <= ratio <= 1.5:
+            notes.append("Check the mass, the dimensions and the chemistry: a mass this far "
+                         "from the layers' suggests another construction than the template's.")
     if "dc_resistance" in sheet:
         notes += _match_dc_resistance(sheet, data, setv, source)
 
@@ -634,26 +665,26 @@ def build_text(sheet: dict, tabs: dict, source: str = "<values>") -> tuple[str, 
 
 
 def _header(tname: str, chemistry: str, notes: list[str]) -> str:
-    kind = TEMPLATES[chemistry][1]
-    lines = [
+    import textwrap
+
+    paragraphs = [
         "Cell file built by explorer.cell.from_datasheet (`python -m explorer new-cell`).",
-        "",
-        "A TEMPLATE CELL IS A STARTING POINT. Values not on the data sheet come from the",
-        f"template {tname!r} ({kind}; invented demo data) or are derived from both.",
-        "Calibrate the cell to measured curves (`python -m explorer calibrate`) before relying",
-        "on its voltage or heat.",
-        "",
-        'Each value says where it came from: "data sheet", "template", "derived" (computed',
-        'from the data sheet and the template) or "fitted" (to measured curves or to a stated',
+        f"A TEMPLATE CELL IS A STARTING POINT. Values not on the data sheet come from the "
+        f"template {tname!r} ({TEMPLATES[chemistry][1]}; invented demo data) or are derived "
+        "from both. Calibrate the cell to measured curves (`python -m explorer calibrate`) "
+        "before relying on its voltage or heat.",
+        'Each value says where it came from: "data sheet", "template", "derived" (computed '
+        'from the data sheet and the template) or "fitted" (to measured curves or to a stated '
         'resistance). Units: every dimensional value is a string "<number> <unit>".',
     ]
+    lines = []
+    for text in paragraphs:
+        lines += textwrap.wrap(text, 95) + [""]
     if notes:
-        import textwrap
-
-        lines += ["", "Notes:"]
+        lines += ["Notes:"]
         for n in notes:
             lines += textwrap.wrap(n, 95, initial_indent="- ", subsequent_indent="  ")
-    return "\n".join(lines)
+    return "\n".join(lines).rstrip()
 
 
 def _geometry(sheet, data, tcell, setv) -> list[str]:
