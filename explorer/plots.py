@@ -32,8 +32,11 @@ logger = logging.getLogger(__name__)
 __all__ = [
     "FIELDS",
     "PALETTE",
+    "color_range",
     "comparison_figure",
+    "face_outline",
     "field_figure",
+    "field_is_uniform",
     "field_frame",
     "frame_indices",
     "heat_split_figure",
@@ -168,8 +171,10 @@ def _scale(variable: str) -> tuple[str, str, float, str]:
     return FIELDS[variable]
 
 
-def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None) -> dict:
-    """The data of one field picture: ``z`` (ny, nx) in display units, the extreme point, a title.
+def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None,
+                color_range="frame") -> dict:
+    """The data of one field picture: ``z`` (ny, nx) in display units, the extreme point, a title
+    and the colour range (``zmin``, ``zmax``; see :func:`field_figure`).
 
     Used by :func:`field_figure` and by the app, which updates a live figure in place from it.
     ``values`` may pass the whole field already in display units (time, y, x) to skip the lookup.
@@ -187,8 +192,16 @@ def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None)
     # (core included) that the limits hold, so the title says which it is; a module's cell is named
     extreme = f"through-thickness mean, {word}" if variable == "temperature" else word
     where = f", cell {ds['cell'].item()}" if "cell" in ds.coords and ds["cell"].ndim == 0 else ""
+    if isinstance(color_range, str) and color_range == "run":
+        zmin, zmax = _color_range(ds, variable)
+    elif isinstance(color_range, str):  # "frame": this picture's own spread uses every colour
+        zmin, zmax = _padded(float(np.nanmin(z)), float(np.nanmax(z)))
+    else:
+        zmin, zmax = (float(v) for v in color_range)
     return {
         "z": z,
+        "zmin": zmin,
+        "zmax": zmax,
         "spot_x_mm": float(ds["x"].values[i]) * 1e3,
         "spot_y_mm": float(ds["y"].values[j]) * 1e3,
         "spot_value": float(z[j, i]),
@@ -197,9 +210,27 @@ def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None)
     }
 
 
-def spot_annotation(frame: dict, unit: str) -> dict:
+def field_is_uniform(ds, variable: str) -> bool:
+    """Whether ``variable`` has one value over the face at every time (the SOC of the averaged
+    layout: one averaged rod), so a map would be one flat colour."""
+    values = np.asarray(ds[variable].values, dtype=float)
+    if values.ndim < 2 or values.size == 0:
+        return True
+    spread = np.nanmax(values, axis=(-2, -1)) - np.nanmin(values, axis=(-2, -1))
+    scale = max(float(np.nanmax(np.abs(values))), 1e-12)
+    return bool(np.all(spread <= 1e-9 * scale))
+
+
+def _padded(lo: float, hi: float) -> tuple[float, float]:
+    if hi - lo < 1e-9:  # a uniform field still needs a visible colour bar
+        pad = max(abs(hi) * 1e-3, 0.05)
+        return lo - pad, hi + pad
+    return lo, hi
+
+
+def spot_annotation(frame: dict, unit: str, visible: bool = True) -> dict:
     """The marker of a field's extreme point: an arrow and its value (a layout annotation)."""
-    return dict(x=frame["spot_x_mm"], y=frame["spot_y_mm"], xref="x", yref="y",
+    return dict(x=frame["spot_x_mm"], y=frame["spot_y_mm"], xref="x", yref="y", visible=visible,
                 text=f"{frame['spot_word']} {frame['spot_value']:.3g} {unit}", showarrow=True,
                 arrowhead=2, arrowwidth=1.5, arrowcolor="#000000", ax=30, ay=-30,
                 font=dict(color="#000000", size=12), bgcolor="rgba(255,255,255,0.85)",
@@ -207,13 +238,18 @@ def spot_annotation(frame: dict, unit: str) -> dict:
 
 
 def _color_range(ds, variable: str) -> tuple[float, float]:
+    """The colour range that fits ``variable`` over the whole run (every time and place)."""
     _, _, factor, _ = _scale(variable)
     values = np.asarray(ds[variable].values, dtype=float) * factor
-    lo, hi = float(np.nanmin(values)), float(np.nanmax(values))
-    if hi - lo < 1e-9:  # a uniform field still needs a visible colour bar
-        pad = max(abs(hi) * 1e-3, 0.05)
-        lo, hi = lo - pad, hi + pad
-    return lo, hi
+    return _padded(float(np.nanmin(values)), float(np.nanmax(values)))
+
+
+def color_range(runs, variable: str) -> tuple[float, float]:
+    """One colour range fitting ``variable`` over several runs (a mapping or sequence of
+    Datasets): pass it as ``color_range`` to compare pinned runs on the same colours."""
+    named = _named(runs, "color_range")
+    lows, highs = zip(*(_color_range(worst_cell_view(ds), variable) for ds in named.values()))
+    return min(lows), max(highs)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -221,8 +257,10 @@ def _color_range(ds, variable: str) -> tuple[float, float]:
 
 
 def field_figure(ds, variable: str = "temperature", index: int | None = None, animate: bool = True,
-                 max_frames: int = MAX_FRAMES) -> go.Figure:
-    """Heat map of a field over the face (x, y in mm, equal aspect) with the extreme point marked.
+                 max_frames: int = MAX_FRAMES, *, color_range="frame", cell=None,
+                 width_px: int = 760) -> go.Figure:
+    """Heat map of a field over the face, drawn to the cell's true aspect, with the tabs, the
+    cooled edge or plate footprint outlined and the extreme point marked.
 
     Parameters
     ----------
@@ -237,13 +275,23 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
         passes ``False`` and drives the time itself.
     max_frames : int
         At most this many frames (evenly spaced, always including the last time).
+    color_range : "frame", "run" or (low, high)
+        "frame" fits the colours to each picture (the spread at any time uses every colour);
+        "run" fits them to the whole run; a pair fixes them (e.g. :func:`color_range` of several
+        pinned runs, to compare them on the same colours).
+    cell : explorer.Cell, optional
+        The cell run, for its tabs; without it the tabs of a bundled demo cell are found from the
+        run's cell file (its checksum must match), else only the outline is drawn.
+    width_px : int
+        The width the figure is sized for (its height follows the cell's aspect).
 
     Returns
     -------
     plotly.graph_objects.Figure
         One trace (the heat map); the extreme point is ``layout.annotations[0]`` (an annotation,
         not a trace, because plotly.js animates frames that mix a heat map and a scatter trace
-        badly) and ``layout.meta`` holds the variable and the time index shown.
+        badly), the outline is in ``layout.shapes`` and ``layout.meta`` holds the variable, the
+        time index shown and the colour-range choice.
     """
     label, unit, _, colorscale = _scale(variable)
     ds = worst_cell_view(ds)
@@ -251,6 +299,11 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
     n_time = ds.sizes["time"]
     if n_time == 0:
         raise ValueError("field_figure: the results Dataset has no time samples")
+    if not (color_range in ("frame", "run") or (
+            isinstance(color_range, Sequence) and not isinstance(color_range, str)
+            and len(color_range) == 2)):
+        raise ValueError(f"field_figure: `color_range` must be 'frame', 'run' or a (low, high) "
+                         f"pair, got {color_range!r}")
     if index is None:
         if variable == "temperature" and "temperature_max" in ds:
             index = int(np.nanargmax(ds["temperature_max"].values))
@@ -261,42 +314,61 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
     index = index % n_time
     x_mm = np.asarray(ds["x"].values, dtype=float) * 1e3
     y_mm = np.asarray(ds["y"].values, dtype=float) * 1e3
-    zmin, zmax = _color_range(ds, variable)
-    first = field_frame(ds, variable, index)
+    first = field_frame(ds, variable, index, color_range=color_range)
+    uniform = variable == "soc" and field_is_uniform(ds, variable)
 
     fig = go.Figure(
         data=[
             go.Heatmap(
-                x=x_mm, y=y_mm, z=first["z"], zmin=zmin, zmax=zmax, colorscale=colorscale,
-                colorbar=dict(title=dict(text=f"{label}<br>({unit})")),
+                x=x_mm, y=y_mm, z=first["z"], zmin=first["zmin"], zmax=first["zmax"],
+                colorscale=colorscale,
+                colorbar=dict(title=dict(text=f"{label}<br>({unit})"), len=0.9),
                 hovertemplate="x %{x:.1f} mm<br>y %{y:.1f} mm<br>%{z:.4g} " + unit + "<extra></extra>",
                 name=label,
             ),
         ]
     )
-    width_mm = float(x_mm[-1] - x_mm[0]) if x_mm.size > 1 else 1.0
+    outline = face_outline(ds, cell)
+    width_mm, height_mm = outline["width_mm"], outline["height_mm"]
     fig.update_layout(**_LAYOUT)
-    fig.update_layout(title=dict(text=first["title"]), hovermode="closest",
-                      annotations=[spot_annotation(first, unit)])
-    fig.update_xaxes(title_text="x across the width (mm)", constrain="domain", showgrid=False)
-    fig.update_yaxes(title_text="y along the height (mm)", scaleanchor="x", scaleratio=1,
-                     constrain="domain", showgrid=False)
-    fig.layout.meta = {"variable": variable, "index": index, "width_mm": width_mm}
+    title = first["title"]
+    if uniform:
+        title = (f"{label}: one value over the face ({ds.attrs.get('layout', 'this')} layout: one "
+                 f"averaged rod) — {first['spot_value']:.3g} {unit} at t = "
+                 f"{float(ds['time'].values[index]):.0f} s")
+    fig.update_layout(title=dict(text=title), hovermode="closest",
+                      annotations=[spot_annotation(first, unit, visible=not uniform)],
+                      shapes=outline["shapes"], margin=dict(l=70, r=30, t=70, b=60))
+    pad = outline["pad_mm"]
+    cooling = f" · {'; '.join(outline['notes'])}" if outline["notes"] else ""
+    fig.update_xaxes(title_text=f"x across the width (mm){cooling}", range=[-pad, width_mm + pad],
+                     constrain="domain", showgrid=False, zeroline=False)
+    fig.update_yaxes(title_text="y along the height (mm)", range=[-pad, height_mm + pad],
+                     scaleanchor="x", scaleratio=1, constrain="domain", showgrid=False,
+                     zeroline=False)
+    plot_w = max(240.0, width_px - 70 - 30 - 130)  # margins and the colour bar
+    plot_h = float(np.clip(plot_w * (height_mm + 2 * pad) / (width_mm + 2 * pad), 200.0, 720.0))
+    fig.update_layout(height=int(plot_h + 70 + 60 + (120 if animate and n_time > 1 else 0)))
+    fig.layout.meta = {"variable": variable, "index": index, "width_mm": width_mm,
+                       "height_mm": height_mm, "uniform": uniform,
+                       "color_range": color_range if isinstance(color_range, str)
+                       else [float(v) for v in color_range]}
 
     if animate and n_time > 1:
         idx = frame_indices(n_time, max_frames)
         values = np.asarray(ds[variable].values, dtype=float) * FIELDS[variable][2]
         frames, steps = [], []
         for k in idx:
-            fr = field_frame(ds, variable, int(k), values=values)
+            fr = field_frame(ds, variable, int(k), values=values, color_range=color_range)
             name = str(int(k))
             # plain dicts (validated once on assignment below); only z changes per frame: extra
             # x/y or a second trace in the frames leaves plotly.js's animated heat map blank
             frames.append(dict(
                 name=name,
-                data=[dict(type="heatmap", z=fr["z"])],
+                data=[dict(type="heatmap", z=fr["z"], zmin=fr["zmin"], zmax=fr["zmax"])],
                 traces=[0],
-                layout=dict(title=dict(text=fr["title"]), annotations=[spot_annotation(fr, unit)]),
+                layout=dict(title=dict(text=title if uniform else fr["title"]),
+                            annotations=[spot_annotation(fr, unit, visible=not uniform)]),
             ))
             steps.append(dict(
                 method="animate", label=f"{float(ds['time'].values[k]):.0f}",
@@ -321,6 +393,117 @@ def field_figure(ds, variable: str = "temperature", index: int | None = None, an
             )],
         )
     return fig
+
+
+# ---------------------------------------------------------------------------------------------
+# the face outline: the cell's edges, its tabs, and where heat leaves (cooled edge, plate, tabs)
+
+_COOLED = "#0072B2"
+_TAB_FILL = "rgba(120,120,120,0.55)"
+
+
+def _demo_geometry(ds):
+    """The geometry of the bundled demo cell a run used (matched by file name and checksum)."""
+    name = str(ds.attrs.get("cell_file", ""))
+    digest = ds.attrs.get("cell_file_sha256") or ds.attrs.get("cell_sha256")
+    key = (name, digest)
+    if key not in _GEOMETRY_CACHE:
+        _GEOMETRY_CACHE[key] = None
+        try:
+            from explorer.cell import list_demo_cells, load_cell
+
+            stem = name.rsplit(".", 1)[0]
+            if stem in list_demo_cells():
+                cell = load_cell(stem)
+                if digest is None or getattr(cell, "sha256", digest) == digest:
+                    _GEOMETRY_CACHE[key] = cell.geometry
+        except (OSError, ValueError, ImportError):  # no geometry: the outline alone is drawn
+            logger.debug("no demo geometry for %s", name, exc_info=True)
+    return _GEOMETRY_CACHE[key]
+
+
+_GEOMETRY_CACHE: dict = {}
+
+
+def _cooling_parts(ds) -> list[dict]:
+    import json
+
+    raw = ds.attrs.get("cooling")
+    try:
+        design = json.loads(raw) if isinstance(raw, str) else dict(raw or {})
+    except (TypeError, ValueError):
+        return []
+    if not isinstance(design, dict):
+        return []
+    return list(design.get("parts", [design])) if design.get("kind") == "combined" else [design]
+
+
+def face_outline(ds, cell=None) -> dict:
+    """The shapes that outline the face: the cell's edges, its tabs (cooled tabs in blue) and
+    where the cooling acts (a thick line along a cooled edge, a dashed footprint for a plate
+    under a face). Returns ``{"shapes", "width_mm", "height_mm", "pad_mm", "notes"}``."""
+    x = np.asarray(ds["x"].values, dtype=float) * 1e3
+    y = np.asarray(ds["y"].values, dtype=float) * 1e3
+    geometry = getattr(cell, "geometry", None) or _demo_geometry(ds)
+    if geometry is not None:
+        width, height = geometry.width_m * 1e3, geometry.height_m * 1e3
+    else:  # from the grid: cell centres half a control volume in from each edge
+        dx = float(x[1] - x[0]) if x.size > 1 else 2.0 * float(x[0]) if x.size else 1.0
+        dy = float(y[1] - y[0]) if y.size > 1 else 2.0 * float(y[0]) if y.size else 1.0
+        width, height = float(x[-1] + dx / 2), float(y[-1] + dy / 2)
+    parts = _cooling_parts(ds)
+    kinds = {p.get("kind") for p in parts}
+    tab_len = 0.0
+    shapes = [dict(type="rect", x0=0, y0=0, x1=width, y1=height, layer="above",
+                   line=dict(color="#222222", width=1.5), name="cell outline")]
+    notes = []
+    for tab in getattr(geometry, "tabs", ()) or ():
+        length = max(8.0, float(getattr(tab, "free_length_m", 0.012) or 0.012) * 1e3)
+        tab_len = max(tab_len, length)
+        half = float(tab.width_m) * 1e3 / 2
+        pos = float(tab.position_m) * 1e3
+        cooled = "tab_cooling" in kinds
+        box = {"top": (pos - half, height, pos + half, height + length),
+               "bottom": (pos - half, -length, pos + half, 0.0),
+               "left": (-length, pos - half, 0.0, pos + half),
+               "right": (width, pos - half, width + length, pos + half)}.get(tab.edge)
+        if box is None:
+            continue
+        sign = "+" if tab.polarity == "positive" else "−"
+        shapes.append(dict(type="rect", x0=box[0], y0=box[1], x1=box[2], y1=box[3],
+                           fillcolor=_COOLED if cooled else _TAB_FILL, layer="above", opacity=1,
+                           line=dict(color="#222222", width=1), name=f"tab {tab.name}",
+                           label=dict(text=f"{sign} tab" + (" (cooled)" if cooled else ""),
+                                      font=dict(size=11, color="#000000"))))
+    pad = max(tab_len + 4.0, 0.06 * max(width, height))
+    for part in parts:
+        kind = part.get("kind")
+        if kind == "edge_plate":
+            edge = part.get("edge", "bottom")
+            off = 0.35 * pad
+            line = {"bottom": (0, -off, width, -off), "top": (0, height + off, width, height + off),
+                    "left": (-off, 0, -off, height), "right": (width + off, 0, width + off, height)}
+            x0, y0, x1, y1 = line.get(edge, line["bottom"])
+            fin = part.get("fin_mm")
+            text = f"cold plate, {edge} edge" + (f" ({fin:g} mm fin)" if fin else "")
+            shapes.append(dict(type="line", x0=x0, y0=y0, x1=x1, y1=y1, layer="above", opacity=1,
+                               line=dict(color=_COOLED, width=6), name="cooled edge",
+                               label=dict(text=text, font=dict(size=11, color=_COOLED),
+                                          textposition="middle")))
+            notes.append(text)
+        elif kind == "face_plate":
+            face = part.get("face", "back")
+            text = f"cold plate under the {face} face" if face != "both" else \
+                "cold plates under both faces"
+            inset = 0.012 * max(width, height)
+            shapes.append(dict(type="rect", x0=inset, y0=inset, x1=width - inset,
+                               y1=height - inset, layer="above", name="plate footprint",
+                               opacity=1, line=dict(color=_COOLED, width=2.5, dash="dash")))
+            notes.append(f"{text} (dashed)")
+        elif kind == "convection":
+            notes.append("convection on both faces")
+    return {"shapes": shapes, "width_mm": width, "height_mm": height, "pad_mm": pad,
+            "notes": notes}
 
 
 def _temperature_limit_lines(fig, lim: dict, row: int) -> None:

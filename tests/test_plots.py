@@ -45,9 +45,17 @@ def test_field_matches_dataset_in_mm_with_equal_aspect(ds):
     assert spot.x == pytest.approx(ds["x"].values[i] * 1e3)
     assert spot.y == pytest.approx(ds["y"].values[j] * 1e3)
     assert spot.text.startswith("hottest") and "°C" in spot.text
-    # one colour range for every frame, so colours compare across time
-    assert heat.zmin == pytest.approx(float(ds["temperature"].min()))
-    assert heat.zmax == pytest.approx(float(ds["temperature"].max()))
+    # by default the colours fit the picture shown, so the spread at that time uses all of them
+    assert heat.zmin == pytest.approx(float(field.min()))
+    assert heat.zmax == pytest.approx(float(field.max()))
+    # "run": one colour range for every frame, so colours compare across time
+    run = plots.field_figure(ds, "temperature", index=7, color_range="run").data[0]
+    assert run.zmin == pytest.approx(float(ds["temperature"].min()))
+    assert run.zmax == pytest.approx(float(ds["temperature"].max()))
+    fixed = plots.field_figure(ds, "temperature", index=7, color_range=(20.0, 50.0)).data[0]
+    assert (fixed.zmin, fixed.zmax) == (20.0, 50.0)
+    with pytest.raises(ValueError, match="color_range"):
+        plots.field_figure(ds, "temperature", color_range="all")
 
 
 def test_field_scale_is_perceptually_uniform_cividis(ds):

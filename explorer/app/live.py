@@ -9,6 +9,7 @@ the app behaves the same, only the redraw is heavier.
 from __future__ import annotations
 
 import logging
+from pathlib import Path
 
 import ipywidgets as widgets
 import numpy as np
@@ -16,7 +17,83 @@ import plotly.graph_objects as go
 
 logger = logging.getLogger(__name__)
 
-__all__ = ["LiveFigure", "figure_widgets_available"]
+__all__ = ["LiveFigure", "figure_widgets_available", "shared_figure_widget"]
+
+# plotly's FigureWidget (an anywidget) ships its browser code, plotly.js included (~5 MB), with
+# every widget; each copy is a separate module in the page. The app's figures use a small module
+# instead that asks the kernel once per page for that code and shares one copy between them.
+_BUNDLE_REQUEST = "pte-plotly-bundle?"
+_BUNDLE_REPLY = "pte-plotly-bundle"
+_SHIM = """
+const KEY = "__pteExplorerPlotlyWidget";
+function load(model) {
+  if (!globalThis[KEY]) {
+    globalThis[KEY] = new Promise((resolve, reject) => {
+      const fail = (error) => { globalThis[KEY] = undefined; reject(error); };
+      const timer = setTimeout(() => fail(new Error("explorer: the figure code did not arrive "
+                                                    + "from the kernel")), 120000);
+      const on = (msg, buffers) => {
+        if (!msg || msg.type !== "__REPLY__") return;
+        clearTimeout(timer);
+        model.off("msg:custom", on);
+        const url = URL.createObjectURL(new Blob([buffers[0]], {type: "text/javascript"}));
+        import(url).then(resolve, fail);
+      };
+      model.on("msg:custom", on);
+      model.send({type: "__REQUEST__"});
+    });
+  }
+  return globalThis[KEY];
+}
+export default () => {
+  let ready = null;
+  return {
+    initialize(ctx) {
+      ready = load(ctx.model).then((mod) => { const inner = mod.default(); inner.initialize(ctx);
+                                               return inner; });
+    },
+    async render(ctx) { const inner = await ready; return inner.render(ctx); },
+  };
+};
+""".replace("__REPLY__", _BUNDLE_REPLY).replace("__REQUEST__", _BUNDLE_REQUEST)
+
+_SHARED_CLASS = None
+
+
+def shared_figure_widget():
+    """The ``go.FigureWidget`` subclass whose browser code is loaded once per page (see _SHIM)."""
+    global _SHARED_CLASS
+    if _SHARED_CLASS is None:
+        from plotly import basewidget
+
+        esm = basewidget.BaseFigureWidget.__dict__.get("_esm")
+        path = Path(str(getattr(esm, "_path", esm)))
+        if not path.is_file():  # another plotly packaging: keep its own widget
+            _SHARED_CLASS = go.FigureWidget
+            return _SHARED_CLASS
+
+        class ExplorerFigureWidget(go.FigureWidget):
+            _esm = _SHIM
+
+            def __init__(self, *args, **kwargs):
+                super().__init__(*args, **kwargs)
+                self.on_msg(_send_bundle)
+
+        ExplorerFigureWidget._bundle_path = path
+        _SHARED_CLASS = ExplorerFigureWidget
+    return _SHARED_CLASS
+
+
+_BUNDLE: bytes | None = None
+
+
+def _send_bundle(widget, content, buffers) -> None:
+    global _BUNDLE
+    if not isinstance(content, dict) or content.get("type") != _BUNDLE_REQUEST:
+        return
+    if _BUNDLE is None:
+        _BUNDLE = Path(type(widget)._bundle_path).read_bytes()
+    widget.send({"type": _BUNDLE_REPLY}, buffers=[_BUNDLE])
 
 
 def figure_widgets_available() -> bool:
@@ -71,7 +148,7 @@ class LiveFigure:
             xaxis=dict(visible=False), yaxis=dict(visible=False)))
         self.native = _has_figure_widget()
         if self.native:
-            self.figure = go.FigureWidget(base)
+            self.figure = shared_figure_widget()(base)
             self.widget = self.figure
         else:
             self.figure = base

@@ -25,7 +25,7 @@ import numpy as np
 from explorer import plots
 from explorer.app import inputs as app_inputs
 from explorer.app.inputs import FIELDS, SIZE_CHOICES, applies, inputs_to_call, validate
-from explorer.app.live import LiveFigure
+from explorer.app.live import LiveFigure, _in_kernel
 
 logger = logging.getLogger(__name__)
 
@@ -33,8 +33,11 @@ __all__ = ["ExplorerApp", "cell_view", "limits_html", "module_html", "sizing_bou
            "sizing_html"]
 
 _GROUPS = ("Cell and duty", "Cooling", "Model", "Limits")
+_PANELS = ("Summary", "Temperature", "SOC and heat", "Traces", "Heat split", "Module", "Compare",
+           "Sizing")
 _ERROR_STYLE = "color:#B2182B;font-size:0.9em;white-space:pre-wrap"
 _TIME_MARKER = "time marker"
+_FIELD_WIDTH_PX = 900  # the width the field maps are sized for (their height follows the cell)
 
 
 def _results():
@@ -80,6 +83,7 @@ class _Row:
         self.error = widgets.HTML("", layout=widgets.Layout(width="auto"))
         self.box = widgets.HBox([self.label, self.control, self.error],
                                 layout=widgets.Layout(align_items="center"))
+        self.box.add_class(f"pte-row-{name}")
 
     def get(self):
         value = self.control.value
@@ -142,6 +146,8 @@ class ExplorerApp(widgets.VBox):
         self.pinned: OrderedDict = OrderedDict()
         self.sizing = None
         self._limits = None
+        self._cell = None  # the Cell object of the last run (its tabs outline the field maps)
+        self._field_drawn: dict[str, bool] = {}
         self._thread: threading.Thread | None = None
         self._suspend = False
         self._input_errors_shown = False
@@ -159,27 +165,38 @@ class ExplorerApp(widgets.VBox):
         self.progress = widgets.FloatProgress(value=0.0, min=0.0, max=1.0,
                                               layout=widgets.Layout(width="260px"))
         self.status = widgets.HTML("")
+        self.status.add_class("pte-status")
+        self.run_button.add_class("pte-run")
         self.run_button.on_click(lambda _: self.start())
 
-        # time controls shared by the field figures
-        self.time_slider = widgets.IntSlider(value=0, min=0, max=0, description="time step",
-                                             continuous_update=True,
-                                             layout=widgets.Layout(width="480px"))
-        self.play = widgets.Play(value=0, min=0, max=0, interval=150, step=1)
-        widgets.jslink((self.play, "value"), (self.time_slider, "value"))
+        # time controls shared by the field figures; the slider is made anew for each run's
+        # number of samples (a slider created with another maximum sends End to a stale end)
+        self.time_slider = self._new_slider(0)
+        self.play = widgets.ToggleButton(value=False, description="play", icon="play",
+                                         tooltip="play the run in time; press again to pause",
+                                         layout=widgets.Layout(width="90px"))
+        self.play.add_class("pte-play")
+        self.play.observe(lambda ch: self._play_toggled(ch["new"]), names="value")
+        self.play_interval_s = 0.1
+        self._play_thread: threading.Thread | None = None
         self.time_label = widgets.HTML("")
-        self.time_slider.observe(lambda ch: self.set_time(ch["new"]), names="value")
+        self.time_label.add_class("pte-time-label")
+        self.color_mode = widgets.Dropdown(
+            options=[("fit each time", "frame"), ("fit the run", "run"),
+                     ("same for pinned runs", "pinned")], value="frame",
+            description="colours", layout=widgets.Layout(width="250px"),
+            style={"description_width": "55px"},
+            tooltip="colour range of the field maps: each picture's own spread, the whole run, or "
+                    "one range over the pinned runs and this one (to compare them)")
+        self.color_mode.observe(lambda ch: self._colors_changed(), names="value")
 
-        # figures
-        self.fig_temperature = LiveFigure("Run to see the temperature field", height=460)
-        self.fig_soc = LiveFigure("Run to see the SOC field", height=380)
-        self.fig_heat_flux = LiveFigure("Run to see the heat generation field", height=380)
-        self.fig_traces = LiveFigure("Run to see voltage, current and temperatures", height=760)
-        self.fig_heat = LiveFigure("Run to see the heat split", height=440)
-        self.fig_compare = LiveFigure("Pin two or more runs to compare them", height=640)
-        self.fig_sizing = LiveFigure("Size the cooling to see the curve", height=520)
-        self.fig_module = LiveFigure("Run with more than one cell sharing the coolant (Cooling tab) "
-                                     "to see the module", height=820)
+        # figures: built after the app is on screen (``_prepare``); the tabs say so meanwhile
+        self._ready = threading.Event()
+        self._prepare_lock = threading.Lock()
+        self._checked_files = False  # the first full validation loads the cell and the coolant
+        self.prepare_s: float | None = None
+        self.fig_temperature = self.fig_soc = self.fig_heat_flux = self.fig_traces = None
+        self.fig_heat = self.fig_compare = self.fig_sizing = self.fig_module = None
         self.summary = widgets.HTML("")
         self.compare_table = widgets.HTML("")
         self.sizing_text = widgets.HTML("")
@@ -211,12 +228,16 @@ class ExplorerApp(widgets.VBox):
         for text, action in buttons.items():
             b = widgets.Button(description=text, layout=widgets.Layout(width="170px"))
             b.on_click(lambda _, a=action: self._guard(a))
+            b.add_class("pte-" + text.split(" (")[0].lower().replace(" ", "-"))
             self.file_buttons[text] = b
         self.file_status = widgets.HTML("")
+        self.file_status.add_class("pte-file-status")
+        self.file_path.add_class("pte-file-path")
 
         # sizing controls (their inputs live in the Sizing tab)
         self.size_button = widgets.Button(description="Size", icon="sliders",
                                           tooltip="find the design value that meets the limits")
+        self.size_button.add_class("pte-size")
         self.size_button.on_click(lambda _: self.start_sizing())
 
         for row in self.rows.values():
@@ -224,12 +245,20 @@ class ExplorerApp(widgets.VBox):
         self.rows["size_vary"].control.observe(lambda ch: self._vary_changed(), names="value")
 
         super().__init__(children=self._layout(), layout=widgets.Layout(width="100%"))
+        self.add_class("pte-app")
         if "size_low" not in initial and "size_high" not in initial:
             self._apply_size_defaults(initial.get("size_vary", FIELDS["size_vary"].default))
         if initial:
             self.set_inputs(**initial)
         else:
             self._on_change()
+        if _in_kernel():  # show the app now; the figures and the model load behind it
+            self._preparing(0.05, "preparing the figures and the model (first use in this "
+                                  "kernel) …")
+            threading.Thread(target=self._prepare, name="explorer-app-prepare",
+                             daemon=True).start()
+        else:  # a script or a test: ready when explore() returns
+            self._prepare()
 
     # -----------------------------------------------------------------------------------------
     # layout
@@ -248,35 +277,95 @@ class ExplorerApp(widgets.VBox):
             self.input_tabs.set_title(k, group)
         run_row = widgets.HBox([self.run_button, self.progress, self.status],
                                layout=widgets.Layout(align_items="center"))
-        time_row = widgets.HBox([self.play, self.time_slider, self.time_label],
+        time_row = widgets.HBox([self.play, self.time_slider, self.time_label, self.color_mode],
                                 layout=widgets.Layout(align_items="center"))
-        sizing_rows = [r.box for r in self.rows.values() if r.field.group == "Sizing"]
-        panels = {
-            "Summary": self.summary,
-            "Temperature": widgets.VBox([self.fig_temperature.widget]),
-            "SOC and heat": widgets.VBox([self.fig_soc.widget, self.fig_heat_flux.widget]),
-            "Traces": self.fig_traces.widget,
-            "Heat split": self.fig_heat.widget,
-            "Module": widgets.VBox([self.module_text, self.cell_select, self.fig_module.widget]),
-            "Compare": widgets.VBox([self.compare_table, self.fig_compare.widget]),
-            "Sizing": widgets.VBox([*sizing_rows, self.size_button, self.sizing_text,
-                                    self.fig_sizing.widget]),
-        }
-        self.output_tabs = widgets.Tab(children=list(panels.values()))
-        for k, name in enumerate(panels):
+        self._time_row = time_row
+        time_row.add_class("pte-time")
+        self._panels = {name: widgets.VBox([widgets.HTML(
+            "<p style='color:#777;margin:1em'>preparing the figures …</p>")])
+            for name in _PANELS}
+        self.output_tabs = widgets.Tab(children=list(self._panels.values()))
+        for k, name in enumerate(self._panels):
             self.output_tabs.set_title(k, name)
-        self._tab_figures = [[], [self.fig_temperature], [self.fig_soc, self.fig_heat_flux],
-                             [self.fig_traces], [self.fig_heat], [self.fig_module],
-                             [self.fig_compare], [self.fig_sizing]]
+        self._tab_figures: list[list] = [[] for _ in _PANELS]
         self.output_tabs.observe(lambda ch: self._tab_changed(ch["new"]), names="selected_index")
         self.output_tabs.selected_index = 1
-        self._tab_changed(1)
         scenario_row = widgets.HBox([self.scenario_name, self.pin_button, self.clear_button])
         file_row = widgets.HBox([self.file_path, *self.file_buttons.values()])
         footer = widgets.HTML(f"<div style='border-top:1px solid #ccc;margin-top:0.8em;padding-top:"
                               f"0.4em;color:#333;font-size:0.9em'><b>Caution.</b> {caution}</div>")
         return [header, self.input_tabs, run_row, time_row, self.output_tabs, scenario_row,
                 file_row, self.file_status, footer]
+
+    def _build_figures(self) -> None:
+        """Create the live figures and put them in their tabs (the heavy part of opening)."""
+        self.fig_temperature = LiveFigure("Run to see the temperature field", height=460)
+        self.fig_soc = LiveFigure("Run to see the SOC field", height=380)
+        self.fig_heat_flux = LiveFigure("Run to see the heat generation field", height=380)
+        self.fig_traces = LiveFigure("Run to see voltage, current and temperatures", height=760)
+        self.fig_heat = LiveFigure("Run to see the heat split", height=440)
+        self.fig_compare = LiveFigure("Pin two or more runs to compare them", height=640)
+        self.fig_sizing = LiveFigure("Size the cooling to see the curve", height=520)
+        self.fig_module = LiveFigure("Run with more than one cell sharing the coolant (Cooling tab) "
+                                     "to see the module", height=820)
+        sizing_rows = [r.box for r in self.rows.values() if r.field.group == "Sizing"]
+        contents = {
+            "Summary": ([self.summary], []),
+            "Temperature": ([self.fig_temperature.widget], [self.fig_temperature]),
+            "SOC and heat": ([self.fig_soc.widget, self.fig_heat_flux.widget],
+                             [self.fig_soc, self.fig_heat_flux]),
+            "Traces": ([self.fig_traces.widget], [self.fig_traces]),
+            "Heat split": ([self.fig_heat.widget], [self.fig_heat]),
+            "Module": ([self.module_text, self.cell_select, self.fig_module.widget],
+                       [self.fig_module]),
+            "Compare": ([self.compare_table, self.fig_compare.widget], [self.fig_compare]),
+            "Sizing": ([*sizing_rows, self.size_button, self.sizing_text, self.fig_sizing.widget],
+                       [self.fig_sizing]),
+        }
+        for k, name in enumerate(_PANELS):
+            children, figures = contents[name]
+            self._panels[name].children = children
+            self._tab_figures[k] = figures
+        self._tab_changed(self.output_tabs.selected_index)
+
+    def _preparing(self, fraction: float, text: str) -> None:
+        self.progress.bar_style = "info"
+        self.progress.value = fraction
+        self.status.value = f"<span style='color:#555'>{_esc(text)}</span>"
+
+    def _prepare(self) -> None:
+        """Build the figures, check the inputs in full (loading the cell and the coolant) and
+        load the simulation code; run once, in the background in a notebook."""
+        with self._prepare_lock:
+            if self._ready.is_set():
+                return
+            t0 = time.perf_counter()
+            try:
+                self._build_figures()
+                self._preparing(0.5, "loading the cell and the coolant …")
+                self._checked_files = True
+                self._on_change()
+                if not self.errors:  # warm: cell, coolant properties, solver, figure code
+                    call = inputs_to_call(self.inputs())
+                    if _in_kernel():  # a user waits for the first Run click, a script does not
+                        self._preparing(0.7, "loading the simulation code …")
+                        _warm_up(call)
+            except Exception as exc:  # the app's boundary: say why, keep the app usable
+                logger.debug("preparing the app failed", exc_info=True)
+                self.status.value = (f"<span style='{_ERROR_STYLE}'>preparing the app failed: "
+                                     f"{_esc(exc)}</span>")
+            else:
+                if not self._busy and not self.errors:
+                    self.status.value = "ready: press Run"
+                self.progress.value = 0.0
+            finally:
+                self.prepare_s = time.perf_counter() - t0
+                self._ready.set()
+                self.add_class("pte-ready")
+
+    def _ensure_ready(self) -> None:
+        if not self._ready.is_set():
+            self._prepare()
 
     def _tab_changed(self, selected) -> None:
         for k, figures in enumerate(self._tab_figures):
@@ -316,7 +405,9 @@ class ExplorerApp(widgets.VBox):
             row.visible(applies(name, values))
         self._update_size_menu(values)
         self._size_units(self.rows["size_vary"].get())
-        self.errors = validate(self.inputs())
+        # until the app is prepared, the quick checks only (the cell file and the coolant load then)
+        self.errors = validate(self.inputs(), check_files=self._checked_files,
+                               check_design=self._checked_files)
         for name, row in self.rows.items():
             row.show_error(self.errors.get(name))
         busy = self._busy
@@ -397,6 +488,7 @@ class ExplorerApp(widgets.VBox):
         Invalid inputs do not run (their errors are shown next to the fields). A run that raises
         or ends with status "failed" shows its reason and keeps the previous results.
         """
+        self._ensure_ready()
         values = self._valid_inputs()
         if values is None:
             return None
@@ -437,6 +529,7 @@ class ExplorerApp(widgets.VBox):
             return None
         self.last_error = None
         self._limits = call.limits
+        self._cell = call.cell
         self.inputs_used = values
         self.show(ds)
         self.progress.value = 1.0
@@ -473,6 +566,7 @@ class ExplorerApp(widgets.VBox):
         A module result (dimension ``cell``) fills the Module tab; the other tabs show its hottest
         cell (another can be picked in the Module tab).
         """
+        self._ensure_ready()
         self.dataset = ds
         view, cell = cell_view(ds)
         self._show_module(ds, cell)
@@ -511,16 +605,7 @@ class ExplorerApp(widgets.VBox):
         n = int(ds.sizes["time"])
         hottest = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
         index = int(np.nanargmax(ds[hottest].values)) if n else 0  # open at the peak
-        for live, variable in self._field_figures():
-            if _has_field(ds, variable):
-                _replace(live, plots.field_figure(ds, variable, index=index, animate=False))
-            elif variable in ds:  # layout 'single': one value, not a 1 mm square of colour
-                _replace(live, _placeholder(f"{plots.FIELDS[variable][0]}: one value over the "
-                                            "face (layout 'single'); no field to show",
-                                            live.figure.layout.height))
-            else:  # a module run keeps only each cell's mean SOC
-                _replace(live, _placeholder(f"{plots.FIELDS[variable][0]}: no field recorded for "
-                                          "this run", live.figure.layout.height))
+        self._show_fields(ds, index)
         traces = plots.traces_figure(ds, limits=self._limits)
         _, _, divisor = plots.time_axis(ds)
         t0 = float(ds["time"].values[index]) / divisor
@@ -534,14 +619,97 @@ class ExplorerApp(widgets.VBox):
                                           f"({self.dataset.sizes['cell']} cells)")
         _replace(self.fig_heat, heat)
         self.summary.value = self._summary_html(ds, self.dataset)
-        self.play.max = max(0, n - 1)
-        self.time_slider.max = max(0, n - 1)
-        self.play.value = index  # jslink makes the front end copy the play value onto the slider
+        self.play.value = False
+        if self.time_slider.max != max(0, n - 1):
+            self._replace_slider(n, index)
         self._time_index = -1
         if self.time_slider.value == index:
             self.set_time(index)
         else:
             self.time_slider.value = index  # triggers set_time
+
+    # -----------------------------------------------------------------------------------------
+    # time and colours
+
+    def _new_slider(self, n: int, index: int = 0):
+        slider = widgets.IntSlider(value=index, min=0, max=max(0, n - 1), description="time step",
+                                   continuous_update=True, layout=widgets.Layout(width="420px"))
+        slider.observe(lambda ch: self.set_time(ch["new"]), names="value")
+        return slider
+
+    def _replace_slider(self, n: int, index: int) -> None:
+        old = self.time_slider
+        self.time_slider = self._new_slider(n, index)
+        children = list(self._time_row.children)
+        children[children.index(old)] = self.time_slider
+        self._time_row.children = children
+        old.close()
+
+    def _play_toggled(self, on: bool) -> None:
+        self.play.icon = "pause" if on else "play"
+        self.play.description = "pause" if on else "play"
+        if on and (self._play_thread is None or not self._play_thread.is_alive()):
+            self._play_thread = threading.Thread(target=self._play_loop, name="explorer-app-play",
+                                                 daemon=True)
+            self._play_thread.start()
+
+    def _play_loop(self) -> None:
+        """Step the time slider while play is on: about 60 pictures per run, from the start when
+        at the end; pausing keeps the time shown."""
+        try:
+            last = self.time_slider.max
+            step = max(1, round(last / 60))
+            if self.time_slider.value >= last:
+                self.time_slider.value = 0
+            while self.play.value and self._view is not None:
+                t0 = time.perf_counter()
+                nxt = min(last, self.time_slider.value + step)
+                self.time_slider.value = nxt
+                if nxt >= last:
+                    break
+                time.sleep(max(0.0, self.play_interval_s - (time.perf_counter() - t0)))
+        finally:
+            self.play.value = False
+
+    def _color_range(self, variable: str):
+        mode = self.color_mode.value
+        if mode == "pinned" and self._view is not None:
+            runs = [cell_view(ds)[0] for ds, _ in self.pinned.values()] + [self._view]
+            return plots.color_range(runs, variable)
+        return mode if mode in ("frame", "run") else "frame"
+
+    def _colors_changed(self) -> None:
+        if self._view is not None:
+            self._show_fields(self._view, max(self._time_index, 0))
+            self._time_index = -1
+            self.set_time(self.time_slider.value)
+
+    def _show_fields(self, ds, index: int) -> None:
+        """Draw the three field maps of ``ds`` at time ``index`` (a uniform SOC is explained,
+        not drawn as one flat colour)."""
+        self._field_drawn = {}
+        for live, variable in self._field_figures():
+            label = plots.FIELDS[variable][0]
+            drawn = False
+            if _has_field(ds, variable) and variable == "soc" and plots.field_is_uniform(ds, "soc"):
+                source = _placeholder(
+                    f"{label}: one value over the face in the {ds.attrs.get('layout', '')} layout "
+                    "(one averaged rod), so no map;<br>its value is on the Traces tab. Choose "
+                    "the layout 'grid of rods' (Model tab) to see it vary over the face.",
+                    live.figure.layout.height)
+            elif _has_field(ds, variable):
+                source = plots.field_figure(ds, variable, index=index, animate=False,
+                                            color_range=self._color_range(variable),
+                                            cell=self._cell, width_px=_FIELD_WIDTH_PX)
+                drawn = True
+            elif variable in ds:  # layout 'single': one value, not a 1 mm square of colour
+                source = _placeholder(f"{label}: one value over the face (layout 'single'); no "
+                                      "field to show", live.figure.layout.height)
+            else:  # a module run keeps only each cell's mean SOC
+                source = _placeholder(f"{label}: no field recorded for this run",
+                                      live.figure.layout.height)
+            _replace(live, source)
+            self._field_drawn[variable] = drawn
 
     def _field_figures(self):
         return ((self.fig_temperature, "temperature"), (self.fig_soc, "soc"),
@@ -557,13 +725,14 @@ class ExplorerApp(widgets.VBox):
             return
         self._time_index = index
         for live, variable in self._field_figures():
-            if not _has_field(ds, variable):
+            if not self._field_drawn.get(variable):
                 continue
-            frame = plots.field_frame(ds, variable, index)
+            frame = plots.field_frame(ds, variable, index, color_range=self._color_range(variable))
             fig = live.figure
             spot = plots.spot_annotation(frame, plots.FIELDS[variable][1])
             with fig.batch_update():
                 fig.data[0].z = frame["z"]
+                fig.data[0].zmin, fig.data[0].zmax = frame["zmin"], frame["zmax"]
                 fig.layout.annotations[0].update(x=spot["x"], y=spot["y"], text=spot["text"])
                 fig.layout.title.text = frame["title"]
             live.refresh()
@@ -576,7 +745,7 @@ class ExplorerApp(widgets.VBox):
                     fig.layout.shapes[k].x0 = t / divisor
                     fig.layout.shapes[k].x1 = t / divisor
             self.fig_traces.refresh()
-        self.time_label.value = f"t = {t:.0f} s"
+        self.time_label.value = f"t = {t:.0f} s ({index + 1} of {ds.sizes['time']})"
 
     def _summary_html(self, ds, whole) -> str:
         """Key figures and verdicts of the whole result ``whole`` (a module: its worst cell);
@@ -653,6 +822,7 @@ class ExplorerApp(widgets.VBox):
 
     def size(self):
         """Size the current design for the chosen parameter (blocking); return the result or None."""
+        self._ensure_ready()
         values = self._valid_inputs()
         if values is None:
             return None
@@ -690,6 +860,7 @@ class ExplorerApp(widgets.VBox):
         self.last_error = None
         self.sizing = result
         self._limits = call.limits
+        self._cell = call.cell
         _replace(self.fig_sizing, plots.sizing_figure(result, limits=call.limits))
         self.sizing_text.value = sizing_html(result, call.limits)
         self.status.value = f"sized in {time.perf_counter() - t0:.1f} s"
@@ -739,6 +910,22 @@ class ExplorerApp(widgets.VBox):
         state = "no result" if self.dataset is None else \
             f"last run {self.dataset.attrs.get('cell_name', '')} ({self.dataset.attrs.get('status')})"
         return f"<ExplorerApp: {state}, {len(self.pinned)} pinned>"
+
+
+def _warm_up(call) -> None:
+    """A 30 s rest with the current inputs, drawn into throw-away figures: loads the code and
+    caches a first run needs (solver set-up, array modules, plotly's validators) so that the
+    first Run click is quick."""
+    import explorer
+    from explorer import duty
+
+    ds = explorer.simulate(call.cell, duty.rest(30.0), call.cooling, **call.simulate_kwargs)
+    for variable in ("temperature", "soc", "heat_flux"):
+        if _has_field(ds, variable):
+            plots.field_figure(ds, variable, animate=False)
+    plots.traces_figure(ds, limits=call.limits)
+    plots.heat_split_figure(ds)
+    _results().key_figures(ds)
 
 
 def _has_field(ds, variable: str) -> bool:
