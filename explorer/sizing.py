@@ -586,7 +586,12 @@ class SizingResult:
     def _repr_html_(self) -> str:
         import html
 
-        return f"<pre>{html.escape(self.table())}</pre>"
+        text = f"<pre>{html.escape(self.table())}</pre>"
+        if self.fidelity is not None:
+            from explorer.fidelity import html_table, summary
+
+            text += html_table(summary(self.fidelity))
+        return text
 
 
 def size_cooling(cell, duty, cooling, vary: str, bounds=None, limits: Limits | None = None, *,

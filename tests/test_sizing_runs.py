@@ -137,6 +137,7 @@ def test_sizing_checks_its_answer_on_the_fuller_models():
     assert fidelity.from_attrs(res.dataset) == fidelity.summary(fid)
     assert fid.attrs["verdict_could_flip"] in ("yes", "no")
     assert "fidelity check of the answer" in res.table()
+    assert "Fidelity check" in res._repr_html_()
     off = size_cooling(cell, duty.discharge(c_rate=2.0, end_time_s=120.0), design, "fin_mm",
                        (0.2, 2.0), Limits(temperature_max_C=28.0), layout="single")
     assert off.fidelity is None and fidelity.from_attrs(off.dataset) is None
