@@ -213,3 +213,19 @@ def test_a_cell_with_a_measured_table_keeps_finding_it_when_written_elsewhere(tm
     (there / "copy.toml").write_text(render(data))
     assert explorer.load_cell(there / "copy.toml").negative.stoichiometry_0 == \
         cell.negative.stoichiometry_0
+
+
+def test_a_narrower_voltage_window_moves_the_electrode_windows():
+    """Upper limit 0.1 V below the template's: the full state sits where the template's OCV
+    (explorer.cell.ocv) is 0.1 V below its own full state; the capacity is still the stated."""
+    raw = _sheet("van_nmc_66ah")
+    raw.pop("mass")
+    raw["voltage_max"] = "4.1 V"
+    cell = from_datasheet(raw)
+    base = explorer.load_cell("van_nmc_66ah")
+    full = float(explorer.cell.ocv(cell.negative, cell.positive, 1.0))
+    assert full == pytest.approx(float(explorer.cell.ocv(base.negative, base.positive, 1.0))
+                                 - 0.1, abs=2e-3)
+    ratio = base.derived.theoretical_capacity_Ah / base.nominal_capacity_Ah
+    assert cell.derived.theoretical_capacity_Ah == pytest.approx(66 * ratio, rel=0.01)
+    assert cell.extra["provenance"]["positive.stoichiometry_at_full"].startswith("derived")

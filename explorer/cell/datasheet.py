@@ -39,6 +39,8 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
+
 from explorer.cell import schema
 from explorer.cell.derived import foil_counts
 from explorer.cell.loader import cell_from_dict, cell_from_text, list_demo_cells
@@ -629,9 +631,9 @@ def build_text(sheet: dict, tabs: dict, source: str = "<values>") -> tuple[str, 
         if k in sheet:
             setv(f"cell.{k}", _fmt(sheet[k], "degC"), "data sheet")
 
-    notes = _geometry(sheet, data, tcell, setv)
+    span, notes = _window(sheet, tcell, setv)
+    notes += _geometry(sheet, data, tcell, setv, span)
     _tabs(sheet, tabs, data, tcell, setv, prov)
-    notes += _window_note(sheet, tcell)
 
     # mass: the heat capacity of the layers scaled to the stated mass
     draft = cell_from_dict(data, source)
@@ -687,7 +689,7 @@ def _header(tname: str, chemistry: str, notes: list[str]) -> str:
     return "\n".join(lines).rstrip()
 
 
-def _geometry(sheet, data, tcell, setv) -> list[str]:
+def _geometry(sheet, data, tcell, setv, span: float = 1.0) -> list[str]:
     """Coated area, layer count and coating thicknesses; returns notes for the header."""
     notes = []
     ew = sheet.get("electrode_width", sheet["width"] - 2 * EDGE_INSET_M)
@@ -710,7 +712,7 @@ def _geometry(sheet, data, tcell, setv) -> list[str]:
     pouch = g.pouch_foil_thickness_m
     # capacity per unit layer and m^2 at the template's loadings, and the window the
     # template's nominal capacity is of its theoretical one
-    q_area = d.theoretical_capacity_Ah / d.active_area_m2
+    q_area = d.theoretical_capacity_Ah / d.active_area_m2 * span
     q_target = sheet["nominal_capacity"] * d.theoretical_capacity_Ah / tcell.nominal_capacity_Ah
     fill = tcell.extra["layers_thickness_m"] / g.stack_thickness_m
     area = ew * eh
@@ -735,12 +737,14 @@ def _geometry(sheet, data, tcell, setv) -> list[str]:
              f"own ({fill:.0%})")
     s = scale(n)
     if not SCALE_BAND[0] <= s <= SCALE_BAND[1]:
+        n1 = max(1, round(q_target / (q_area * area)))
         raise InputError(
             f"data sheet: {sheet['nominal_capacity']:g} Ah over {n} unit layers of "
             f"{ew * 1e3:.0f} x {eh * 1e3:.0f} mm needs coatings {s:.2f} times as thick as the "
-            f"template {tcell.name!r}'s (accepted {SCALE_BAND[0]:g} to {SCALE_BAND[1]:g}); "
-            "check the capacity, the dimensions and the thickness, state unit_layers, or pick "
-            "another chemistry")
+            f"template {tcell.name!r}'s (accepted {SCALE_BAND[0]:g} to {SCALE_BAND[1]:g}); at "
+            f"the template's coatings it takes about {n1} layers, "
+            f"{layers_m(n1, 1.0) / fill * 1e3:.1f} mm thick. Check the capacity, the "
+            "dimensions and the thickness, state unit_layers, or pick another chemistry")
     stack = layers_m(n, s)
     if stack > sheet["thickness"] * 1.02:
         raise InputError(
@@ -757,13 +761,52 @@ def _geometry(sheet, data, tcell, setv) -> list[str]:
     return notes
 
 
-def _window_note(sheet, tcell) -> list[str]:
-    lo, hi = tcell.voltage_min_V, tcell.voltage_max_V
-    if abs(sheet["voltage_min"] - lo) > 0.05 or abs(sheet["voltage_max"] - hi) > 0.05:
-        return [f"The data-sheet voltage window {sheet['voltage_min']:g}-"
-                f"{sheet['voltage_max']:g} V differs from the template's {lo:g}-{hi:g} V; the "
-                "electrode windows (stoichiometries) are the template's."]
-    return []
+def _window(sheet, tcell, setv) -> tuple[float, list[str]]:
+    """Move the template's electrode windows to the data-sheet voltage window.
+
+    The ends move by the template's own open-circuit voltage: the new full (empty) state is
+    where the OCV differs from the template's at SOC 1 (0) by as much as the data sheet's
+    upper (lower) limit differs from the template's. A window equal to the template's leaves
+    the stoichiometries as they are. Returns the window's share of the template's (the
+    capacity per layer scales with it) and notes for the header.
+    """
+    from explorer.cell.derived import ocv
+
+    d_hi = sheet["voltage_max"] - tcell.voltage_max_V
+    d_lo = sheet["voltage_min"] - tcell.voltage_min_V
+    if abs(d_hi) < 1e-9 and abs(d_lo) < 1e-9:
+        return 1.0, []
+    neg, pos = tcell.negative, tcell.positive
+
+    def sto(e, soc):
+        return e.stoichiometry_0 + soc * (e.stoichiometry_100 - e.stoichiometry_0)
+
+    grid = np.linspace(-0.5, 1.5, 4001)
+    ok = np.ones_like(grid, dtype=bool)
+    for e in (neg, pos):  # stay inside both electrodes' stoichiometry range
+        x = sto(e, grid)
+        ok &= (x > 0.002) & (x < 0.998)
+    soc = grid[ok]
+    with np.errstate(all="ignore"):
+        u = np.maximum.accumulate(np.nan_to_num(ocv(neg, pos, soc), nan=-np.inf))
+    u0, u1 = float(np.interp(0.0, soc, u)), float(np.interp(1.0, soc, u))
+    s0 = float(np.interp(u0 + d_lo, u, soc))
+    s1 = float(np.interp(u1 + d_hi, u, soc))
+    notes = []
+    if s1 - s0 < 0.2:
+        raise InputError(f"data sheet: the voltage window {sheet['voltage_min']:g}-"
+                         f"{sheet['voltage_max']:g} V leaves only {s1 - s0:.0%} of the "
+                         f"template's window; check the limits or pick another chemistry")
+    for end, s_end, target in (("upper", s1, u1 + d_hi), ("lower", s0, u0 + d_lo)):
+        if not u[0] < target < u[-1]:
+            notes.append(f"The {end} voltage limit lies beyond the template's electrode "
+                         f"curves; the window stops at SOC {s_end:+.2f} of the template's.")
+    note = (f"the template's window moved to the data-sheet voltage window (SOC "
+            f"{s0:+.3f}..{s1:.3f} of the template's)")
+    for name, e in (("negative", neg), ("positive", pos)):
+        setv(f"{name}.stoichiometry_at_empty", round(float(sto(e, s0)), 6), "derived", note)
+        setv(f"{name}.stoichiometry_at_full", round(float(sto(e, s1)), 6), "derived", note)
+    return s1 - s0, notes
 
 
 def _tabs(sheet, tabs, data, tcell, setv, prov) -> None:
