@@ -19,6 +19,7 @@ starting guess of the next voltage-controlled step.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -32,7 +33,20 @@ from explorer.rod.params import FARADAY, REFERENCE_K, RodParameters
 from explorer.rod.particle import CACHE_SIZE, SphereShells
 from explorer.validators import InputError
 
-__all__ = ["SPM", "check_step_inputs"]
+__all__ = ["SPM", "RodBatch", "check_step_inputs"]
+
+
+@dataclass
+class RodBatch:
+    """What :meth:`SPM.solve_current_batch` gives: per rod (first axis) the new state, the
+    terminal voltage, the open-circuit voltage, the SOC and the heat rates (arrays under
+    the keys of :data:`explorer.rod.heat.HEAT_KEYS`)."""
+
+    states: np.ndarray
+    voltage_V: np.ndarray
+    ocv_V: np.ndarray
+    soc: np.ndarray
+    heat_W: dict
 
 
 def check_step_inputs(dt, temperature_K, series_resistance_ohm):
@@ -92,6 +106,7 @@ class SPM(RodModel):
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
         self._ops: dict = {}
         self._ea = np.array(self._activation_energies())
+        self._cmax = np.array([e.max_concentration_mol_m3 for e in self._electrodes])
         self._blocks = None  # the stacked linear parts (_plan), built on first use: subclasses
         # finish their parts after this
 
@@ -266,6 +281,58 @@ class SPM(RodModel):
             return v_term
         return {"sto": (sto_n, sto_p), "ocv": ocv, "v_term": v_term, "eta": (eta_n, eta_p),
                 "dudt": (ds_n, ds_p), "terms": terms}
+
+    def solve_current_batch(self, states, dt, temperatures_K, currents_A) -> RodBatch:
+        """Current-controlled steps of several rods of this model at once (a grid of rods):
+        each row of ``states`` advanced by ``dt`` at its own temperature and current, no
+        series resistance. The same arithmetic as :meth:`solve_step` on arrays; raises
+        :class:`RodStepError` when any rod's step fails (the caller retries the group)."""
+        X = np.asarray(states, dtype=float)
+        T = np.asarray(temperatures_K, dtype=float)
+        I = np.asarray(currents_A, dtype=float)
+        plan = self._blocks
+        if plan is None:
+            plan = self._blocks = self._plan()
+        f = arrhenius(self._ea[None, :], T[:, None], REFERENCE_K)  # (rods, properties)
+        rates = np.array(self._rates(f.T), dtype=float)  # (parts, rods)
+        d = 1.0 / (1.0 + np.repeat(rates.T * dt, plan["sizes"], axis=1) * plan["lam"])
+        q = (plan["Vtb"] * (dt * d)) @ plan["V"].T
+        base = ((X[:, :-1] @ plan["VtW"].T) * d) @ plan["V"].T
+        cmax = self._cmax
+        cs = base[:, plan["outer"]] + I[:, None] * (q[:, plan["outer"]] - plan["surf_c"] / f[:, :2])
+        if not np.all((cs > 0.0) & (cs < cmax)):
+            raise RodStepError(f"{self.name}: a particle surface would leave stoichiometry (0, 1) "
+                               "within this step in a rod of the group; reduce the step")
+        terms = self._electrolyte_batch(T, f, base, q, I, cs)
+        if terms is None:
+            raise RodStepError(f"{self.name}: the electrolyte salt would be depleted within this "
+                               "step in a rod of the group")
+        eta_n, eta_p, dphi_e, solid_drop, ohmic_e, ohmic_s = terms
+        n, p = self._electrodes
+        sto = cs / cmax
+        ds_n, ds_p = n.entropic(sto[:, 0]), p.entropic(sto[:, 1])
+        ocv = p.ocp.potential(sto[:, 1]) - n.ocp.potential(sto[:, 0]) + (ds_p - ds_n) * (
+            T - REFERENCE_K)
+        new = np.empty_like(X)
+        new[:, :-1] = base + I[:, None] * q
+        new[:, -1] = I
+        soc = self.params.soc_from_negative(
+            (new[:, :self.nr] @ self.shells.weights) / n.max_concentration_mol_m3)
+        heat = {"irreversible": I * (eta_n - eta_p), "reversible": I * T * (ds_n - ds_p),
+                "ohmic_electrolyte": ohmic_e, "ohmic_solid": ohmic_s}
+        return RodBatch(states=new, voltage_V=ocv + eta_p - eta_n + dphi_e - solid_drop,
+                        ocv_V=ocv, soc=soc, heat_W=heat)
+
+    def _electrolyte_batch(self, T, f, base, q, I, cs):
+        """:meth:`_electrolyte_terms` for a group of rods (arrays over the rods)."""
+        c0 = self.params.electrolyte.initial_concentration_mol_m3
+        etas = []
+        for k, e in enumerate(self._electrodes):
+            j0 = exchange_current(e.rate_constant * f[:, 2 + k], c0, cs[:, k],
+                                  e.max_concentration_mol_m3, e.charge_transfer_coefficient)
+            etas.append(overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T))
+        zero = np.zeros_like(I)
+        return etas[0], etas[1], zero, zero, zero, zero
 
     def solve_step(self, state, dt, temperature_K, control, series_resistance_ohm=0.0) -> StepResult:
         kind, value = check_control(control)

@@ -151,6 +151,41 @@ class SPMe(SPM):
         # Joule heat A sum_f i_f (phi_L - phi_R) = -I dphi_e by the same summation by parts
         return eta_n, eta_p, dphi_e, solid_drop, -I * dphi_e, I * solid_drop
 
+    def _electrolyte_batch(self, T, f, base, q, I, cs):
+        """:meth:`_electrolyte_terms` for a group of rods (arrays over the rods)."""
+        sl = self._ce_slice
+        ce = base[:, sl] + I[:, None] * q[:, sl]
+        if ce.min() <= 0.0:
+            return None
+        n, p = self._electrodes
+        rate_n, rate_p = n.rate_constant * f[:, 2], p.rate_constant * f[:, 3]
+        two_over_f = 2.0 * GAS_CONSTANT * T / FARADAY
+        if self._symmetric:
+            cse = self._pick_n * cs[:, :1] + self._pick_p * cs[:, 1:]
+            jf = self._faraday_n * rate_n[:, None] + self._faraday_p * rate_p[:, None]
+            j0 = jf * np.sqrt(ce[:, self._ecells] * (self._cmax_cells - cse) * cse)
+            eta = two_over_f[:, None] * np.arcsinh(I[:, None] * self._half_j_cells / j0)
+            eta_n, eta_p = (eta @ self._average.T).T
+        else:
+            xm = self.x_mesh
+            etas = []
+            for k, (e, cells, rate) in enumerate(zip(self._electrodes, (xm.neg, xm.pos),
+                                                     (rate_n, rate_p), strict=True)):
+                j0 = exchange_current(rate[:, None], ce[:, cells], cs[:, k:k + 1],
+                                      e.max_concentration_mol_m3, e.charge_transfer_coefficient)
+                eta = overpotential((I * self._j_per_A[k])[:, None], j0,
+                                    e.charge_transfer_coefficient, T[:, None])
+                etas.append(eta.mean(axis=1))
+            eta_n, eta_p = etas
+        kappa = self.params.electrolyte.conductivity(ce) * (f[:, 4:5] * self.x_mesh.transport)
+        lc = np.log(ce)
+        nu = self.params.electrolyte.diffusion_potential_V(T)
+        dphi = (nu[:, None] * (lc[:, 1:] - lc[:, :-1])
+                - I[:, None] * (self._hl_i / kappa[:, :-1] + self._hr_i / kappa[:, 1:]))
+        dphi_e = dphi @ self.x_mesh.reaction_shape
+        solid_drop = I * self._solid_drop_per_A
+        return eta_n, eta_p, dphi_e, solid_drop, -I * dphi_e, I * solid_drop
+
     def electrolyte_concentration(self, state) -> np.ndarray:
         """Electrolyte concentration at the cell centres (mol/m^3)."""
         return np.asarray(state, dtype=float)[self._ce_slice].copy()

@@ -95,8 +95,9 @@ class DistributedRods:
         return np.concatenate([np.tile(one, self.M), currents])
 
     def _split(self, state):
+        """(rod states as rows (M, n), the currents (M,)) -- views of ``state``."""
         n = self._size
-        return [state[k * n:(k + 1) * n] for k in range(self.M)], state[self.M * n:]
+        return state[:self.M * n].reshape(self.M, n), state[self.M * n:]
 
     def soc(self, state) -> float:
         rods, _ = self._split(state)
@@ -115,11 +116,16 @@ class DistributedRods:
     def _rods_at(self, rods, dt, T_K, currents):
         """Each rod model stands for a whole cell: patch k carrying ``I_k`` is the rod at the
         whole-cell current ``I_k / share_k`` (same current density); its heat and lithium
-        scale back by ``share_k``."""
-        out = [self.rod.solve_step(s, dt, T_K[k],
-                                   Control("current", float(currents[k] / self._share[k])), 0.0)
-               for k, s in enumerate(rods)]
-        return out, np.array([r.voltage_V for r in out])
+        scale back by ``share_k``. One vectorised step for the whole group where the model
+        has one (``solve_current_batch``), else rod by rod."""
+        whole = currents / self._share
+        batch = getattr(self.rod, "solve_current_batch", None)
+        if batch is not None:
+            out = batch(rods, dt, T_K, whole)
+        else:
+            out = _stack([self.rod.solve_step(s, dt, T_K[k], Control("current", float(whole[k])),
+                                              0.0) for k, s in enumerate(rods)])
+        return out, out.voltage_V
 
     def solve_step(self, state, dt, temperature_C, control, series_resistance_ohm=0.0):
         """Advance every rod by ``dt`` with the currents that meet the control.
@@ -187,15 +193,13 @@ class DistributedRods:
         cell_area = g.cell_area_m2
         j = (I / (self._cells * cell_area))[self.patch]
         col = self.network.solve(j)
-        q_rod = self._share * np.array([sum(r.heat_W.get(k, 0.0) for k in HEAT_KEYS)
-                                        for r in res])
+        q_rod = self._share * sum(res.heat_W[k] for k in HEAT_KEYS)
         heat_map = (q_rod / self._cells)[self.patch] + col["joule_W"]
-        soc_k = np.array([r.soc for r in res])
-        heat = {k: float(sum(w * r.heat_W.get(k, 0.0) for w, r in zip(self._share, res)))
-                for k in HEAT_KEYS}
-        state = np.concatenate([np.concatenate([r.state for r in res]), I])
+        soc_k = np.asarray(res.soc, dtype=float)
+        heat = {k: float(self._share @ res.heat_W[k]) for k in HEAT_KEYS}
+        state = np.concatenate([res.states.ravel(), I])
         current = float(I.sum())
-        ocv = float(np.dot(self._share, [r.ocv_V for r in res]))
+        ocv = float(self._share @ res.ocv_V)
         if not math.isfinite(Vt):
             raise RodStepError("distributed rods: non-finite terminal voltage")
         return FieldStepResult(
@@ -204,3 +208,15 @@ class DistributedRods:
             heat_map_W=heat_map, tab_heat_W=dict(col["tab_joule_W"]),
             collector_W=float(np.sum(col["joule_W"])), soc_map=soc_k[self.patch],
             current_density_map=j)
+
+
+def _stack(results):
+    """Rod-by-rod step results as one batch (the fields of ``RodBatch``)."""
+    from explorer.rod.spm import RodBatch
+
+    return RodBatch(states=np.array([r.state for r in results]),
+                    voltage_V=np.array([r.voltage_V for r in results]),
+                    ocv_V=np.array([r.ocv_V for r in results]),
+                    soc=np.array([r.soc for r in results]),
+                    heat_W={k: np.array([r.heat_W.get(k, 0.0) for r in results])
+                            for k in HEAT_KEYS})
