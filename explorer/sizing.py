@@ -736,6 +736,7 @@ def _check_the_answer(res: SizingResult, runner, options: dict) -> None:
     from explorer.fidelity import attach, check_fidelity
 
     kwargs = dict(runner.kwargs)
+    kwargs.pop("progress", None)  # the runs' own progress(t_s, step); the check has its own
     if not runner.as_module and res.position is not None:
         kwargs["position"] = res.position
     base = res.module if runner.as_module else res.dataset
