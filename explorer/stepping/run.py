@@ -270,6 +270,7 @@ class _Stepper:
         self.prev = None  # the rod's result at the last accepted step (recorded or not)
         self.cap_end = End("temperature", settings.temperature_cap_C, "above", "cap")
         self.fresh = True  # the current trial starts a new load: no trapezoid over the step
+        self.rod_T = None  # the temperature the rod is given at the current state (cached)
         self.last_heat = None  # the rod's heat at the last accepted step (_Trial.end)
         # a thermal model that reports many recorded states at once (looked up on its class,
         # so a wrapper forwarding attributes keeps the per-state path): states are kept and
@@ -288,6 +289,7 @@ class _Stepper:
         """The initial state and its record. Nothing is computed yet when this fails, so a
         start the models cannot make is an InputError (never a record without a voltage)."""
         self.t = 0.0
+        self.rod_T = None
         try:
             self.T_state = self.thermal.initial_state(temperature_C)
             T = self.thermal.temperature_C(self.T_state)
@@ -555,9 +557,10 @@ class _Stepper:
         lean toward the tab corners, where the extra heat is collector Joule heat rather
         than electrochemistry, and would overstate the rod's kinetics and transport.
         """
-        if self.field_rods:
-            return self.thermal.temperature_C(self.T_state)
-        return self.thermal.mean_temperature_C(self.T_state) + 273.15
+        if self.rod_T is None:  # once per accepted state, not per trial
+            self.rod_T = (self.thermal.temperature_C(self.T_state) if self.field_rods
+                          else self.thermal.mean_temperature_C(self.T_state) + 273.15)
+        return self.rod_T
 
     def _try(self, control, dt, index) -> _Trial | None:
         try:
@@ -631,9 +634,9 @@ class _Stepper:
             else:
                 tr.rejected_J_per_s = sum(tr.rejected.values())
             T = self.thermal.temperature_C(tr.thermal)
-            tr.t_max = float(T.max())  # NaN and +inf show here, -inf in the minimum
-            finite = (math.isfinite(tr.t_max) and math.isfinite(float(T.min()))
-                      and math.isfinite(tr.rejected_J_per_s))
+            tr.t_max = float(T.max())  # NaN and +inf show here, -inf in the stored heat
+            finite = math.isfinite(tr.t_max) and math.isfinite(tr.rejected_J_per_s) and (
+                self.fitted or math.isfinite(float(T.min())))
             problem = None if finite else "the temperatures are no longer finite numbers"
         except THERMAL_ERRORS as exc:
             problem = f"{type(exc).__name__}: {exc}"
@@ -759,6 +762,7 @@ class _Stepper:
         self.prev = tr.rod
         self.rod_state = tr.rod.state
         self.T_state = tr.thermal
+        self.rod_T = None
         if self.fitted:
             self.stored_now = tr.stored_J
         self.rec.steps_taken += 1
