@@ -375,7 +375,9 @@ class _Runner:
         # evaluation to the next keeps the residuals smooth in the parameters, and implicit
         # Euler at 1/300 of the test stays well within a millivolt (coarser steps put mV of
         # step-sequence noise on the curves and bias the fit)
-        interval = max(0.5, test.duration_s / STEPS_PER_TEST)
+        # on a rung of the stepper's sqrt(2) ladder, so that one step spans one interval
+        interval = 2.0 ** (math.floor(2.0 * math.log2(max(0.5, test.duration_s
+                                                          / STEPS_PER_TEST))) / 2.0)
         return explorer.simulate(
             wide, step, cooling, electrochemistry=self.s["electrochemistry"],
             layout=self.s["layout"], grid=self.s["grid"] if self.s["layout"] != "single"
