@@ -95,8 +95,10 @@ def test_validation_messages_name_field_value_and_expectation(tmp_path):
     assert "size_high" in e
     # a limit at or below the coolant inlet can never be met: heat flows only from hot to cold
     # (second law; Incropera & DeWitt, Fundamentals of Heat and Mass Transfer, ch. 1, from memory)
+    # the error stands next to the inlet that causes it, not on the Limits tab
     e = validate({**defaults(), "limit_temperature_C": 20.0, "inlet_C": 25.0})
-    assert "limit_temperature_C" in e and "25" in e["limit_temperature_C"]
+    assert "limit_temperature_C" not in e and "inlet_C" in e
+    assert "25" in e["inlet_C"] and "20" in e["inlet_C"]
     e = validate({**defaults(), "cell": str(tmp_path / "nope.toml")})
     assert "cell" in e and "nope.toml" in e["cell"]
     e = validate({**defaults(), "duty": "profile", "profile_path": str(tmp_path / "x.csv")})
@@ -324,6 +326,7 @@ def test_sizing_tab(monkeypatch, fake_simulate):
 def test_real_run_and_sizing_end_to_end():
     app = explorer.explore(discharge_c_rate=2.0, fin_mm=1.0, size_vary="fin_mm", size_low=0.2,
                            size_high=3.0)
+    app.check_fidelity = False  # the fuller-model check is seen in the browser test
     ds = app.run()
     assert ds is not None, app.last_error
     assert ds.attrs["status"] == "completed" and ds.attrs["layout"] == "averaged"
@@ -338,4 +341,48 @@ def test_real_run_and_sizing_end_to_end():
     order = np.argsort(result.curve["value"].values)
     np.testing.assert_allclose(curve.x, result.curve["value"].values[order])
     np.testing.assert_allclose(curve.y, result.curve["temperature_max_C"].values[order])
-    assert result.vary == "fin_mm" and "fin_mm" in app.sizing_text.value
+    assert result.vary == "fin_mm" and "fin thickness" in app.sizing_text.value
+    assert "_C " not in app.sizing_text.value  # no raw identifiers such as temperature_max_C
+
+
+def test_fidelity_check_and_messages_in_words():
+    from explorer.app.widget import fidelity_html, human_text
+
+    ds = synthetic_dataset()
+    assert fidelity_html(ds) == ""  # no check made on this run
+    row = {"variant": "dfn", "figure": "peak_temperature", "label": "peak temperature",
+           "unit": "degC", "as_run": 44.0, "fuller": 44.6, "difference": 0.6, "margin": 1.0,
+           "could_flip": False}
+    ds.attrs["fidelity_summary"] = json.dumps({
+        "rows": [row], "verdict_could_flip": "no", "variants": ["as run", "dfn"], "skipped": [],
+        "message": "smallest margin +1 on `temperature_max_C`: the verdict would not flip"})
+    text = fidelity_html(ds)
+    assert "dfn" in text and "peak temperature" in text and "<table" in text
+    assert "temperature_max_C" not in text and "hottest point anywhere" in text
+    message = human_text("no value of `flow_L_min` meets: temperature_max_C 74.2 degC, "
+                         "spread_K 32.9 K")
+    assert message == ("no value of coolant flow meets: hottest point anywhere 74.2 °C, "
+                       "in-cell spread 32.9 K")
+
+
+def test_cell_picker_lists_demo_cells_and_cell_files_and_takes_a_cell_object(tmp_path,
+                                                                             monkeypatch):
+    demo = explorer.cell.list_demo_cells()
+    source = next(iter(demo.values()))
+    (tmp_path / "my_cell.toml").write_text(source.read_text())
+    (tmp_path / "scenario.toml").write_text("[scenario]\nname = 'x'\n")  # not a cell file
+    monkeypatch.chdir(tmp_path)
+    app = explorer.explore()
+    picker = app.rows["cell"].control
+    values = [v for _, v in picker.menu.options]
+    assert set(demo) <= set(values) and "my_cell.toml" in values
+    assert "scenario.toml" not in values
+    picker.menu.value = "my_cell.toml"
+    assert app.inputs()["cell"] == "my_cell.toml" and "cell" not in app.errors
+    picker.menu.value = ""  # another file: the path box
+    picker.path.value = str(tmp_path / "missing.toml")
+    assert "missing.toml" in app.errors["cell"]
+    built = explorer.load_cell(next(iter(demo)))
+    app.set_inputs(cell=built)
+    assert app.inputs()["cell"] is built and "cell" not in app.errors
+    assert inputs_to_call(app.inputs()).cell is built

@@ -36,7 +36,9 @@ __all__ = [
     "Field",
     "InputsFileError",
     "applies",
+    "cell_files",
     "defaults",
+    "is_cell",
     "inputs_to_call",
     "inputs_to_tables",
     "load_inputs",
@@ -204,7 +206,35 @@ def _number_error(name: str, f: Field, value) -> str | None:
     return None
 
 
+def is_cell(value) -> bool:
+    """Whether ``value`` is a built cell (an ``explorer.Cell``), which the app accepts as it is."""
+    from explorer.cell import Cell
+
+    return isinstance(value, Cell)
+
+
+def cell_files(folder=".") -> list[Path]:
+    """The cell files (``*.toml`` with a ``[cell]`` and a ``[geometry]`` table) in ``folder``;
+    scenario and other TOML files are left out."""
+    found = []
+    try:
+        candidates = sorted(Path(folder).glob("*.toml"))
+    except OSError:
+        return found
+    for path in candidates:
+        try:
+            text = path.read_text(encoding="utf-8", errors="replace")[:200_000]
+        except OSError:
+            continue
+        lines = {line.strip() for line in text.splitlines()}
+        if "[cell]" in lines and "[geometry]" in lines:
+            found.append(path)
+    return found
+
+
 def _cell_error(value) -> str | None:
+    if is_cell(value):
+        return None
     if not isinstance(value, str) or not value.strip():
         return "expected a demo cell name or the path of a cell file"
     try:
@@ -258,6 +288,8 @@ def validate(values: dict, check_files: bool = True, check_design: bool = True) 
                 f"expected one of {', '.join(map(repr, valid))}, got {value!r}"
         elif f.kind == "flag":
             message = None if isinstance(value, bool) else f"expected true or false, got {value!r}"
+        elif name == "cell" and is_cell(value):
+            message = None
         else:
             message = None if isinstance(value, str) else f"expected text, got {value!r}"
         if message:
@@ -278,11 +310,14 @@ def validate(values: dict, check_files: bool = True, check_design: bool = True) 
         errors["start_soc_pct"] = "a discharge needs a start SOC above 0 %"
     if values["duty"] == "fast_charge" and float(values["start_soc_pct"]) >= 100.0:
         errors["start_soc_pct"] = "a charge needs a start SOC below 100 %"
-    sinks = [float(values[k]) for k in _sink_fields(values)]
-    if sinks and float(values["limit_temperature_C"]) <= min(sinks):
-        errors["limit_temperature_C"] = (
-            f"the limit {float(values['limit_temperature_C']):g} °C is not above the coldest coolant/"
-            f"ambient ({min(sinks):g} °C); no cooling can meet it")
+    sinks = {k: float(values[k]) for k in _sink_fields(values)}
+    limit = float(values["limit_temperature_C"])
+    if sinks and limit <= min(sinks.values()):
+        # shown next to the sink temperature that causes it (the inlet, ambient or busbar)
+        for name, value in sinks.items():
+            if value >= limit:
+                errors[name] = (f"{value:g} °C is not below the temperature limit {limit:g} °C "
+                                "(Limits tab); no cooling can meet it")
     if applies("cells_per_plate", values) and not float(values["cells_per_plate"]).is_integer():
         errors["cells_per_plate"] = (f"expected a whole number of cells, got "
                                      f"{float(values['cells_per_plate']):g}")
@@ -348,6 +383,8 @@ def _load_cell(name: str):
     """``explorer.load_cell`` with a small cache keyed on the file's path and modification time."""
     from explorer import load_cell
 
+    if is_cell(name):
+        return name
     path = Path(name).expanduser()
     key = (str(path.resolve()), path.stat().st_mtime_ns) if path.is_file() else (name, None)
     if key not in _CELL_CACHE:
@@ -439,7 +476,7 @@ def inputs_to_call(values: dict, check_files: bool = True) -> Call:
         raise InputsError(errors)
     from explorer import Limits
 
-    cell = _load_cell(values["cell"].strip())
+    cell = _load_cell(values["cell"] if is_cell(values["cell"]) else values["cell"].strip())
     return Call(
         cell=cell,
         duty=_make_duty(values),

@@ -21,6 +21,7 @@ from pathlib import Path
 
 import ipywidgets as widgets
 import numpy as np
+import traitlets
 
 from explorer import plots
 from explorer.app import inputs as app_inputs
@@ -71,10 +72,7 @@ class _Row:
             self.control = widgets.Checkbox(value=bool(f.default), indent=False,
                                             layout=widgets.Layout(width="240px"))
         elif name == "cell":
-            self.control = widgets.Combobox(value=str(f.default), options=demo_cells,
-                                            ensure_option=False, continuous_update=True,
-                                            placeholder="demo name or path to a .toml",
-                                            layout=lay, style=style)
+            self.control = _CellPicker(demo_cells, str(f.default))
         else:
             self.control = widgets.Text(value=str(f.default), continuous_update=True,
                                         placeholder=f.help, layout=lay, style=style)
@@ -95,7 +93,9 @@ class _Row:
         return value
 
     def set(self, value) -> None:
-        if self.field.kind == "number":
+        if self.name == "cell":
+            self.control.set(value)
+        elif self.field.kind == "number":
             self.control.value = _fmt(value)
         elif self.field.kind == "flag":
             self.control.value = bool(value)
@@ -107,6 +107,55 @@ class _Row:
 
     def visible(self, on: bool) -> None:
         self.box.layout.display = None if on else "none"
+
+
+class _CellPicker(widgets.HBox):
+    """The cell input: a menu of the demo cells and the cell files in the working folder, and a
+    path box for any other cell file; ``value`` is the name, the path or a built Cell object."""
+
+    value = traitlets.Any(allow_none=True)
+    _OTHER = ""
+    _OBJECT = "__cell_object__"
+
+    def __init__(self, demo_cells, default: str):
+        self._object = None
+        options = [(f"{n} (demo, invented)", n) for n in demo_cells]
+        options += [(f"{p.name} (this folder)", p.name) for p in app_inputs.cell_files(".")]
+        options.append(("another cell file: its path →", self._OTHER))
+        self.menu = widgets.Dropdown(options=options, layout=widgets.Layout(width="240px"))
+        self.path = widgets.Text(placeholder="path of a cell .toml file",
+                                 continuous_update=False, layout=widgets.Layout(width="240px"))
+        self.menu.add_class("pte-cell-menu")
+        self.path.add_class("pte-cell-path")
+        super().__init__([self.menu, self.path])
+        self.set(default)
+        self.menu.observe(lambda ch: self._changed(), names="value")
+        self.path.observe(lambda ch: self._changed(), names="value")
+
+    def _changed(self) -> None:
+        choice = self.menu.value
+        self.path.layout.display = None if choice == self._OTHER else "none"
+        if choice == self._OBJECT:
+            self.value = self._object
+        elif choice == self._OTHER:
+            self.value = self.path.value.strip()
+        else:
+            self.value = choice
+
+    def set(self, value) -> None:
+        values = [v for _, v in self.menu.options]
+        if app_inputs.is_cell(value):
+            self._object = value
+            label = f"{getattr(value, 'name', 'cell')} (built in Python)"
+            options = [o for o in self.menu.options if o[1] != self._OBJECT]
+            self.menu.options = [(label, self._OBJECT), *options]
+            self.menu.value = self._OBJECT
+        elif isinstance(value, str) and value in values and value != self._OTHER:
+            self.menu.value = value
+        else:
+            self.menu.value = self._OTHER
+            self.path.value = "" if value is None else str(value)
+        self._changed()
 
 
 def _fmt(value) -> str:
@@ -148,6 +197,7 @@ class ExplorerApp(widgets.VBox):
         self._limits = None
         self._cell = None  # the Cell object of the last run (its tabs outline the field maps)
         self._field_drawn: dict[str, bool] = {}
+        self.check_fidelity = True  # the Sizing tab checks its answer on the fuller models
         self._thread: threading.Thread | None = None
         self._suspend = False
         self._input_errors_shown = False
@@ -530,7 +580,7 @@ class ExplorerApp(widgets.VBox):
         self.last_error = None
         self._limits = call.limits
         self._cell = call.cell
-        self.inputs_used = values
+        self.inputs_used = _portable(values)
         self.show(ds)
         self.progress.value = 1.0
         self.progress.bar_style = "success" if status == "completed" else "warning"
@@ -759,6 +809,7 @@ class ExplorerApp(widgets.VBox):
         hyd = hydraulics_html(whole)
         if hyd:
             checks += f"<h4>Cold plate hydraulics</h4>{hyd}"
+        checks += fidelity_html(whole)  # a sized run carries the check made on it
         which = ""
         if "cell" in whole.dims:
             which = (f" — the worst of the {whole.sizes['cell']} cells sharing the coolant "
@@ -846,8 +897,10 @@ class ExplorerApp(widgets.VBox):
 
         try:
             call = inputs_to_call(values)
+            # the answer is checked on the fuller models (DFN, grid of rods, finer grid)
             result = call.size(values["size_vary"], (float(values["size_low"]),
-                                                     float(values["size_high"])), progress=progress)
+                                                     float(values["size_high"])), progress=progress,
+                               check_fidelity=self.check_fidelity)
         except Exception as exc:  # the app's boundary
             logger.debug("sizing failed", exc_info=True)
             self.last_error = str(exc)
@@ -868,7 +921,7 @@ class ExplorerApp(widgets.VBox):
         if run is not None:
             vary = values["size_vary"]
             sized = float(f"{float(result.value):.10g}")  # no float noise in the input box
-            self.inputs_used = {**values, vary: sized}
+            self.inputs_used = _portable({**values, vary: sized})
             self.set_inputs(**{vary: sized})  # Run now repeats the sized design
             self.show(run)
         return result
@@ -878,7 +931,14 @@ class ExplorerApp(widgets.VBox):
 
     def save_inputs(self, path) -> Path:
         """Write the current inputs to a .json or .toml scenario file."""
-        return app_inputs.save_inputs(self.inputs(), path)
+        values = self.inputs()
+        if app_inputs.is_cell(values["cell"]):
+            source = getattr(values["cell"], "source_path", None)
+            if not source:
+                raise ValueError("Save inputs: the cell was built in Python and has no file; "
+                                 "write it to a cell file first and pick that file")
+            values["cell"] = str(source)
+        return app_inputs.save_inputs(values, path)
 
     def load_inputs(self, path) -> str:
         """Read a scenario file and set the inputs from it."""
@@ -910,6 +970,15 @@ class ExplorerApp(widgets.VBox):
         state = "no result" if self.dataset is None else \
             f"last run {self.dataset.attrs.get('cell_name', '')} ({self.dataset.attrs.get('status')})"
         return f"<ExplorerApp: {state}, {len(self.pinned)} pinned>"
+
+
+def _portable(values: dict) -> dict:
+    """The inputs as a report or a pinned scenario records them: a Cell object built in Python
+    is named by its file, else by its name."""
+    cell = values.get("cell")
+    if app_inputs.is_cell(cell):
+        values = {**values, "cell": str(getattr(cell, "source_path", None) or cell.name)}
+    return values
 
 
 def _warm_up(call) -> None:
@@ -1259,7 +1328,56 @@ def sizing_html(result, limits) -> str:
                                   ("pump_power_W", "Pump power (W)", 1.0, "{:.3g}")):
         if hyd.get(key) is not None:
             parts.append(f"<p>{_esc(_channels_only(name))}: {fmt.format(hyd[key] * scale)}</p>")
+    parts.append(fidelity_html(sized_run(result) if run is not None else None,
+                               getattr(result, "fidelity", None)))
     message = getattr(result, "message", "")
     if message:
-        parts.append(f"<p style='color:#555;font-size:0.9em'>{_esc(message)}</p>")
+        parts.append(f"<p style='color:#555;font-size:0.9em'>{_esc(human_text(message))}</p>")
     return "".join(parts)
+
+
+def fidelity_html(ds=None, fid=None) -> str:
+    """The fidelity check of a run (``explorer.fidelity.html_table``): how far the fuller models
+    (DFN, a grid of rods, a finer grid) move its figures and whether a verdict could flip."""
+    try:
+        from explorer import fidelity
+    except ImportError:  # pragma: no cover - the module ships with the package
+        return ""
+    summary = None
+    if fid is not None:
+        summary = fidelity.summary(fid)
+    elif ds is not None:
+        summary = fidelity.from_attrs(ds)
+    if not summary:
+        return ""
+    return (f"{_TABLE_CSS}<div class='pte-table pte-fidelity'>"
+            f"{human_text(fidelity.html_table(summary))}</div>")
+
+
+def human_text(text: str) -> str:
+    """A message with the limits' and design parameters' identifiers (``temperature_max_C``,
+    `flow_L_min`) put in words with units, as the rest of the app shows them."""
+    import re
+
+    from explorer import limits as limits_module
+
+    def limit(match):
+        name = match.group(1)
+        return _short_limit(name)
+
+    out = re.sub(r"`?\b(" + "|".join(map(re.escape, limits_module.LONG_NAMES)) + r")\b`?",
+                 limit, str(text))
+    for value, label in FIELDS["size_vary"].choices:
+        out = out.replace(f"`{value}`", label.split(" (")[0]).replace(value, label.split(" (")[0])
+    return out.replace("degC", "°C")
+
+
+_SHORT_LIMITS = {"temperature_max_C": "hottest point anywhere", "spread_K": "in-cell spread",
+                 "cell_to_cell_K": "cell-to-cell difference",
+                 "core_temperature_max_C": "hottest core estimate",
+                 "coolant_outlet_C": "coolant outlet", "pressure_drop_kPa": "pressure drop",
+                 "pump_power_W": "pump power"}
+
+
+def _short_limit(name: str) -> str:
+    return _SHORT_LIMITS.get(name, name.replace("_", " "))
