@@ -104,3 +104,25 @@ def test_batched_rod_step_equals_the_rod_by_rod_steps(cell, model):
         assert batch.soc[k] == pytest.approx(one.soc, abs=1e-12)
         for key, value in one.heat_W.items():
             assert batch.heat_W[key][k] == pytest.approx(value, rel=1e-10, abs=1e-12)
+
+
+def test_patch_solver_gives_what_solve_gives(cell):
+    """The distributed layout's collector fields from the per-patch responses (solved once)
+    equal a full solve of the same current density, to round-off."""
+    from explorer.inplane.collector import CollectorNetwork
+    from explorer.stepping.distributed import patch_index
+
+    g = cell.geometry
+    grid = Grid(g.width_m, g.height_m, 12, 8)
+    network = CollectorNetwork(cell, grid)
+    patch = patch_index(grid, 3, 2)
+    cells = np.bincount(patch.ravel(), minlength=6)
+    currents = np.random.default_rng(2).uniform(-5.0, 20.0, 6)
+    fast = network.patch_solver(patch, cells)(currents)
+    full = network.solve((currents / (cells * grid.cell_area_m2))[patch])
+    for key in ("drop_V", "joule_W", "negative", "positive"):
+        np.testing.assert_allclose(fast[key], full[key], rtol=1e-10,
+                                   atol=1e-12 * np.abs(full[key]).max(), err_msg=key)
+    for tab, heat in full["tab_joule_W"].items():
+        assert fast["tab_joule_W"][tab] == pytest.approx(heat, rel=1e-10)
+    assert fast["current_A"] == pytest.approx(full["current_A"], rel=1e-12)

@@ -73,17 +73,25 @@ class DistributedRods:
         self._cells = np.bincount(flat, minlength=self.M)  # grid cells per patch
         self._share = self._cells / flat.size  # area fraction of each patch
         self._flat = flat
+        # the collector fields for a current per patch: a matrix product (the network's
+        # responses to each patch solved once) where the network offers it
+        patch_solver = getattr(network, "patch_solver", None)
+        self._collector = (patch_solver(self.patch, self._cells) if patch_solver is not None
+                           else self._collector_by_solve)
         self.A = self._transfer_matrix()
         self._size = None
         self._r = None  # differential resistance of each rod, ohm (positive)
 
+    def _collector_by_solve(self, currents) -> dict:
+        """The collector fields for ``currents`` (A per patch), uniform over each patch."""
+        j = (currents / (self._cells * self.grid.cell_area_m2))[self.patch]
+        return self.network.solve(j)
+
     def _transfer_matrix(self) -> np.ndarray:
         """Mean collector drop over patch k per ampere drawn uniformly from patch m."""
-        cell_area = self.grid.cell_area_m2
         A = np.empty((self.M, self.M))
         for m in range(self.M):
-            j = np.where(self.patch == m, 1.0 / (self._cells[m] * cell_area), 0.0)
-            drop = self.network.solve(j)["drop_V"].ravel()
+            drop = self._collector(np.eye(self.M)[m])["drop_V"].ravel()
             A[:, m] = np.bincount(self._flat, drop, self.M) / self._cells
         return A
 
@@ -192,7 +200,7 @@ class DistributedRods:
         g = self.grid
         cell_area = g.cell_area_m2
         j = (I / (self._cells * cell_area))[self.patch]
-        col = self.network.solve(j)
+        col = self._collector(I)
         q_rod = self._share * sum(res.heat_W[k] for k in HEAT_KEYS)
         heat_map = (q_rod / self._cells)[self.patch] + col["joule_W"]
         soc_k = np.asarray(res.soc, dtype=float)
