@@ -242,8 +242,11 @@ def _fit_names(fit) -> list[str]:
         return list(DEFAULT_FIT)
     if isinstance(fit, str):
         fit = [f.strip() for f in fit.split(",") if f.strip()]
-    names = list(fit)
-    bad = [n for n in names if n not in PARAMETERS]
+    try:
+        names = list(fit)
+    except TypeError:
+        names = [fit]
+    bad = [n for n in names if not isinstance(n, str) or n not in PARAMETERS]
     if bad or not names:
         raise InputError(f"calibrate: `fit` {short_repr(bad or names)}: expected one or more of "
                          f"{', '.join(PARAMETERS)}")
@@ -598,6 +601,12 @@ def calibrate(cell, tests, fit=None, *, electrochemistry: str = "spme",
         if need:
             raise InputError(f"calibrate: fitting {', '.join(need)} needs measured "
                              "temperatures (a `temperature_C` column in at least one test)")
+    from explorer.simulate import ELECTROCHEMISTRY, LAYOUTS
+    from explorer.validators import check_choice, check_integer
+
+    electrochemistry = check_choice("electrochemistry", electrochemistry, ELECTROCHEMISTRY)
+    layout = check_choice("layout", layout, LAYOUTS)
+    max_evaluations = check_integer("max_evaluations", max_evaluations, 1)
     if not (isinstance(max_points, int) and max_points >= 3):
         raise InputError(f"calibrate: `max_points` must be a whole number >= 3, got "
                          f"{short_repr(max_points)}")
