@@ -21,4 +21,19 @@ The time stepper drives any thermal model through these members:
    temperature per grid cell (the state holds through-thickness means);
    ``coolant_outlet_C(state)`` -- coolant leaving this cell, None without a
    coolant stream.
+
+Optional:
+
+6. ``fitted`` -- True when the model steps with a scheme fitted to its slowest
+   mode (exponential fitting: that mode exact on any step). ``rejected_W`` of
+   :meth:`step` is then the flow at the new state (what the record shows, at
+   the recorded state), and the stepper takes the heat rejected over the step
+   as generated less stored. A model stepping a fitted model for several cells
+   (``model`` attribute) counts as fitted too.
+7. ``recorded_figures(states, heat_W) -> dict`` defined on the class: the
+   figures the stepper records (temperature field, core, faces, extremes,
+   coolant outlet, stored heat) for many recorded states at once; the stepper
+   then keeps each recorded state and asks once when the run ends, instead of
+   calling the single-state members at every record. Only for models whose
+   figures depend on the state alone (not on settings changed during a run).
 """
