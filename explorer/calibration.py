@@ -815,6 +815,7 @@ def cmd_calibrate(cell: str, tests: list[str], fit: str | None = None,
     """
     from explorer.cell import load_cell
 
+    names = _fit_names(fit)  # a bad name is an error before anything runs
     c = load_cell(cell)
     target = Path(out) if out else Path(f"{Path(c.source_path).stem}_calibrated.toml")
     if c.source_path and target.resolve() == Path(c.source_path).resolve():
@@ -823,12 +824,11 @@ def cmd_calibrate(cell: str, tests: list[str], fit: str | None = None,
     loaded = [load_test(t) for t in tests]
 
     def progress(k, values):
-        shown = ", ".join(f"{n}={values[n] / PARAMETERS[n].display:.4g}"
-                          for n in _fit_names(fit))
+        shown = ", ".join(f"{n}={values[n] / PARAMETERS[n].display:.4g}" for n in names)
         print(f"  evaluation {k}: {shown}", flush=True)
 
     print(f"calibrating {c.name!r} to {len(loaded)} test(s)...")
-    cal = calibrate(c, loaded, fit=fit, out=target, progress=progress)
+    cal = calibrate(c, loaded, fit=names, out=target, progress=progress)
     print(cal.summary())
     print(f"wrote {target}")
     figure = target.with_name(f"{target.stem}_residuals.html")
