@@ -395,7 +395,7 @@ class _Runner:
             model = _model_curves(ds, test, idx)
             runs.append((test, idx, model, ds.attrs.get("status", "")))
             parts.append((model["voltage_V"] - test.voltage_V[idx]) / self.s["voltage_scale_V"])
-            if test.temperature_C is not None:
+            if test.temperature_C is not None and self.s["use_temperature"]:
                 parts.append((model["temperature_C"] - test.temperature_C[idx])
                              / self.s["temperature_scale_K"])
         self.last_runs = runs
@@ -549,7 +549,7 @@ class Calibration:
 def calibrate(cell, tests, fit=None, *, electrochemistry: str = "spme",
               layout: str = "averaged", grid=(4, 4), voltage_scale_V: float = 0.01,
               temperature_scale_K: float = 0.5, max_points: int = 120, initial=None,
-              bounds=None, max_evaluations: int = 60, out=None,
+              bounds=None, max_evaluations: int = 60, use_temperature=None, out=None,
               progress=None) -> Calibration:
     """Fit a few cell parameters to measured tests; see the module docstring.
 
@@ -574,6 +574,11 @@ def calibrate(cell, tests, fit=None, *, electrochemistry: str = "spme",
         Start values and ``(low, high)`` bounds by name (SI, scales as factors).
     max_evaluations : int
         Model evaluations the optimiser may use (each runs every test once).
+    use_temperature : bool, optional
+        Whether measured temperatures enter the residuals. Default: when a thermal
+        parameter (``heat_capacity``, ``rig_h``) is fitted -- otherwise a rig coefficient
+        that is only guessed would pull the electrochemical parameters. Their RMS error is
+        reported either way.
     out : str or Path, optional
         Write the calibrated cell file there.
     progress : callable(evaluation, values), optional
@@ -622,7 +627,9 @@ def calibrate(cell, tests, fit=None, *, electrochemistry: str = "spme",
     settings = {"electrochemistry": electrochemistry, "layout": layout, "grid": grid,
                 "voltage_scale_V": _positive("voltage_scale_V", voltage_scale_V),
                 "temperature_scale_K": _positive("temperature_scale_K", temperature_scale_K),
-                "max_points": max_points}
+                "max_points": max_points,
+                "use_temperature": (any(PARAMETERS[n].needs_temperature for n in names)
+                                    if use_temperature is None else bool(use_temperature))}
     runner = _Runner(data, tests, names, settings, cell.source_path or cell.name)
     cache: dict = {}
 
