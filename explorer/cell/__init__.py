@@ -10,7 +10,6 @@
 * :mod:`explorer.cell.derived` — capacities, foils, mass, stack properties.
 """
 
-from explorer.cell.datasheet import from_datasheet
 from explorer.cell.derived import ocv
 from explorer.cell.loader import (
     CellFileNotFoundError,
@@ -52,3 +51,12 @@ __all__ = [
     "Tab",
     "ThermalOverrides",
 ]
+
+
+def __getattr__(name):
+    # the data-sheet builder loads on first use (it is not needed to read a cell file)
+    if name == "from_datasheet":
+        from explorer.cell.datasheet import from_datasheet
+
+        return from_datasheet
+    raise AttributeError(f"module 'explorer.cell' has no attribute {name!r}")
