@@ -705,7 +705,6 @@ def _named_runs(ds_or_list) -> dict:
 
 
 def _plotlyjs_tag(plotlyjs: str) -> str:
-    import plotly
     import plotly.offline
 
     if plotlyjs == "inline":  # once, inline, so the file opens with no network
@@ -717,10 +716,11 @@ def _plotlyjs_tag(plotlyjs: str) -> str:
 
 
 def plotlyjs_file_name() -> str:
-    """The file a ``plotlyjs="beside"`` report loads: plotly.js of the installed plotly."""
-    import plotly
+    """The file a ``plotlyjs="beside"`` report loads: the plotly.js the installed plotly
+    bundles, named by its version."""
+    import plotly.offline
 
-    return f"plotly-{plotly.__version__}.min.js"
+    return f"plotly-{plotly.offline.get_plotlyjs_version()}.min.js"
 
 
 def render_report(ds_or_list, inputs=None, title: str = DEFAULT_TITLE, limits=None, sizing=None,
