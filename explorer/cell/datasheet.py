@@ -439,9 +439,10 @@ def _convert(f: SheetField, v):
 def _check_values(v: dict, source: str) -> None:
     problems = []
 
-    def need(cond, key, expected):
+    def need(cond, key, expected, shown=None):
         if not cond:
-            problems.append(Problem(source, key, v.get(key), expected))
+            problems.append(Problem(source, key, v.get(key) if shown is None else shown,
+                                    expected))
 
     for key in ("nominal_capacity", "voltage_min", "voltage_max", "width", "height",
                 "thickness", "mass", "electrode_width", "electrode_height", "dc_resistance",
@@ -456,8 +457,11 @@ def _check_values(v: dict, source: str) -> None:
             if key == "dc_resistance_pulse":
                 band = (0.1, 600.0)
             lo, hi = band if band else (0.0, math.inf)
+            f = _BY_KEY[key]
+            k = parse(f"1 {f.keyword_unit}", f.unit)  # shown in the unit the prompt uses
             need(v[key] > 0 and lo <= v[key] <= hi, key,
-                 f"a value between {lo:g} and {hi:g} ({_BY_KEY[key].unit}, SI)")
+                 f"a value between {lo / k:g} and {hi / k:g} {f.keyword_unit}",
+                 f"{v[key] / k:g} {f.keyword_unit}")
     if "voltage_min" in v and "voltage_max" in v:
         need(v["voltage_min"] < v["voltage_max"], "voltage_min",
              f"a value below voltage_max ({v['voltage_max']:g} V)")
