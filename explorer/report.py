@@ -754,10 +754,13 @@ def render_report(ds_or_list, inputs=None, title: str = DEFAULT_TITLE, limits=No
     contents = []
     if len(named) > 1:
         contents.append(("comparison", "Comparison, side by side"))
-    if named:
+    contents += [(f"run{k}", n) for k, n in enumerate(named)]
+    if sizing is not None:
+        contents.append(("sizing", "Sizing"))
+    contents += [(f"sweep{k}", f"Sweep {k + 1}") for k in range(len(sweeps))]
+    if len(contents) > 1:
         page.add("<nav><p>Contents: " + ", ".join(
-            [f"<a href='#{a}'>{_esc(b)}</a>" for a, b in contents]
-            + [f"<a href='#run{k}'>{_esc(n)}</a>" for k, n in enumerate(named)]) + "</p></nav>")
+            f"<a href='#{a}'>{_esc(b)}</a>" for a, b in contents) + "</p></nav>")
     if len(named) > 1:
         _comparison_section(page, named, limits)
     for k, ((name, ds), run_inputs) in enumerate(zip(named.items(), input_list, strict=True)):

@@ -63,6 +63,7 @@ class _Page(HTMLParser):
         super().__init__(convert_charrefs=True)
         self.text: list[str] = []
         self.ids: list[str] = []
+        self.anchors: list[str] = []
         self.headings: list[str] = []
         self.tables: list[list[list[str]]] = []
         self._script = False
@@ -73,6 +74,8 @@ class _Page(HTMLParser):
         a = dict(attrs)
         if a.get("id"):
             self.ids.append(a["id"])
+        if tag == "a" and (a.get("href") or "").startswith("#"):
+            self.anchors.append(a["href"][1:])
         if tag == "script":
             self._script = True
         if tag in ("h1", "h2", "h3"):
@@ -123,6 +126,7 @@ def check_page(path: Path, folder: Path) -> _Page:
     page = parse(path)
     text = path.read_text(encoding="utf-8")
     assert len(page.ids) == len(set(page.ids)), "element ids must be unique"
+    assert set(page.anchors) <= set(page.ids), "every link of the contents leads somewhere"
     assert page.body.count(" ".join(results.CAUTION.split())) >= 2
     assert str(folder) not in text and not ABSOLUTE.search(page.body)
     return page
