@@ -18,9 +18,11 @@ so each figure is also given as a ratio to that baseline, which travels between 
   plate flow x inlet, local cluster), the time from the command's start to its first case
   done (read off the progress bar), and to the end of the command.
 
-Targets are those of issue 15 (seconds on the 2-core development machine); ``target_ratio``
-is the target over the baseline measured there when idle (:data:`REFERENCE_BASELINE_S`), to
-compare with ``ratio`` on another machine.
+Targets are those of issue 15 (seconds on the 2-core development machine): ``met`` compares
+the seconds. ``target_ratio`` is the target over the baseline on that machine
+(:data:`REFERENCE_BASELINE_S`); ``met_by_ratio`` compares ``ratio`` with it, which holds on
+another machine, or on a loaded one. ``cpu_s`` is the CPU time of the process (not of its
+subprocesses), which other work on the machine disturbs less than the wall time.
 """
 
 from __future__ import annotations
@@ -101,7 +103,10 @@ def bench_first_answer(quick: bool = False) -> list[dict]:
         out = {**common, "figure": what, "s": s, "target": target, "ratio": s / baseline,
                "cpu_s": extra.pop("cpu_s", None),
                "target_ratio": target / REFERENCE_BASELINE_S if seconds else None,
-               "met": (s <= target) if seconds else None}
+               "met": (s <= target) if seconds else None,
+               # the same target as a ratio: holds on a slower or a loaded machine too
+               "met_by_ratio": (s / baseline <= target / REFERENCE_BASELINE_S) if seconds
+               else None}
         out.update(extra)
         return out
 

@@ -248,6 +248,7 @@ def _tabulate(name: str, fluid: str, kind: str) -> _Table:
     return _Table(name, fluid, float(min_C), float(max_C), first, columns)
 
 
+@lru_cache(maxsize=1)
 def _coolprop_version() -> str:
     """CoolProp's version, read from its installed metadata (importing it costs seconds)."""
     from importlib.metadata import PackageNotFoundError, version
