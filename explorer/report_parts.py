@@ -124,7 +124,7 @@ def duty_words(step: Mapping) -> str:
         text = "rest"
     elif kind == "profile":
         what = step.get("profile_quantity", "load")
-        src = step.get("source", "")
+        src = str(step.get("source", "") or "").replace("\\", "/").rsplit("/", 1)[-1]
         text = f"{what} profile{f' {src}' if src else ''}"
         if step.get("profile_samples"):
             text += (f" ({step['profile_samples']} samples over "

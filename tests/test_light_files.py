@@ -128,6 +128,9 @@ def test_an_invented_profile_is_a_data_note(tmp_path):
     notes = json.loads(ds.attrs["data_notes"])
     assert any(n.startswith("load profile route.csv: INVENTED") for n in notes)
     assert str(tmp_path) not in ds.attrs["inputs"]
+    text = render_report(ds)  # the run in memory: its report names the file, not the folder
+    assert "route.csv" in text and str(tmp_path) not in text
+    assert "load profile route.csv: INVENTED" in text  # in the banner
 
 
 def test_portable_paths():
