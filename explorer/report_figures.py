@@ -149,7 +149,7 @@ def sizing_rows(curve) -> tuple[list[str], list[list[str]]]:
     order = np.argsort(np.asarray(curve["value"].values, dtype=float))
     names = [n for n in curve.data_vars
              if curve[n].dims == ("value",) and n not in ("position", "positions_checked")]
-    header = [axis_label(vary)] + [n.replace("_", " ") for n in names]
+    header = [axis_label(vary)] + [_curve_label(n) for n in names]
     rows = []
     for k in order:
         cells = [number(float(curve["value"].values[k]))]
@@ -158,3 +158,16 @@ def sizing_rows(curve) -> tuple[list[str], list[list[str]]]:
             cells.append(("yes" if int(v) else "no") if n == "feasible" else number(float(v)))
         rows.append(cells)
     return header, rows
+
+
+def _curve_label(name: str) -> str:
+    """A sizing-curve column in words with its unit (a margin on a temperature is in K)."""
+    if name == "feasible":
+        return "meets the limits"
+    if name == "worst_margin":
+        return "worst margin (scaled)"
+    if name.startswith("margin_"):
+        words, unit = split_unit(name[len("margin_"):])
+        unit = "K" if unit == "°C" else unit
+        return f"margin on {words}" + (f" ({unit})" if unit else "")
+    return axis_label(name)
