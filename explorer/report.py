@@ -885,6 +885,9 @@ def cmd_report(paths, out: str | None = None, plotlyjs: str = "inline") -> int:
         return fail(f"cannot write report {str(target)!r}: {exc.strerror or exc}")
     except OutputError as exc:
         return fail(f"cannot write report {str(target)!r}: {exc}")
+    except KeyError as exc:  # a file shaped like a run but short of what every run carries
+        return fail(f"{names}: a variable every results file of this tool carries is missing "
+                    f"({exc}); was the file written by another program?")
     print(target)
     return 0
 

@@ -280,3 +280,12 @@ def test_demo_report_rebuilt_from_its_file_loses_nothing(demo, tmp_path):
     inputs = [t for t in first.tables if t and t[0] == ["group", "input", "value", "unit"]]
     assert inputs == [t for t in again.tables if t and t[0] == ["group", "input", "value",
                                                                  "unit"]]
+
+
+def test_a_file_shaped_like_a_run_but_short_is_one_line(tmp_path, capsys):
+    fake = tmp_path / "fake_run.nc"
+    xr.Dataset({"voltage": ("time", [4.0, 3.9]), "temperature_max": ("time", [25.0, 26.0])},
+               coords={"time": [0.0, 1.0]}).to_netcdf(fake)
+    assert main(["report", str(fake)]) == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1 and "missing" in err and "fake_run.nc" in err
