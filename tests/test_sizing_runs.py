@@ -191,3 +191,17 @@ def test_cli_size_checks_the_answer_unless_told_not_to(tmp_path, capsys, on):
     assert err.count("run: fin_mm =") >= 3  # one line per evaluation
     with xr.open_dataset(tmp_path / "case_size.nc") as ds:
         assert (from_attrs(ds) is not None) is on
+
+
+def test_the_runs_progress_callback_is_not_given_to_the_check():
+    """A `progress(t_s, step)` for the runs (as the app passes) follows the sizing runs only;
+    the fidelity check reports through its own option."""
+    cell = explorer.load_cell("van_nmc_66ah")
+    design = cooling.edge_plate(cooling.fixed_sink(25.0, conductance_W_mK=80.0), fin_mm=1.0)
+    times, variants = [], set()
+    res = size_cooling(cell, duty.discharge(c_rate=2.0, end_time_s=60.0), design, "fin_mm",
+                       (0.2, 2.0), Limits(temperature_max_C=28.0), layout="single",
+                       progress=lambda t_s, step=0: times.append(float(t_s)),
+                       check_fidelity={"progress": lambda v, f: variants.add(v)})
+    assert res.fidelity is not None and times and max(times) <= 60.0 + 1e-6
+    assert variants == {str(v) for v in res.fidelity["variant"].values[1:]}
