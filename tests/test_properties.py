@@ -467,17 +467,26 @@ def test_app_inputs_run(values, c_rate):
             ["start_soc", "start_temperature_C", "cooling", "simulate"], check=check_dataset)
 
 
+def _app_scenario_text(folder) -> str:
+    """The scenario file the app's "Save inputs" writes for its defaults."""
+    seed = folder / "app_defaults_seed.toml"
+    if not seed.is_file():
+        app_inputs.save_inputs(app_inputs.defaults(), seed)
+    return seed.read_text(encoding="utf-8")
+
+
 @props(N_ARGS)
 @given(data=st.data())
 def test_app_inputs_file_mutations(folder, data):
-    """A damaged app inputs file (JSON or TOML) loads to valid inputs or an error naming it."""
+    """A damaged app inputs file (a scenario file, or the app's earlier JSON) loads to valid
+    inputs or an error naming it."""
     values = app_inputs.defaults()
     if data.draw(st.booleans(), label="json"):
         doc = {"format": app_inputs.FILE_FORMAT, "version": app_inputs.FILE_VERSION,
                "inputs": values}
         raw, suffix = data.draw(mutated_json(doc), label="bytes"), ".json"
     else:
-        raw = data.draw(mutated_toml(app_inputs._to_toml(values)), label="bytes")
+        raw = data.draw(mutated_toml(_app_scenario_text(folder)), label="bytes")
         suffix = ".toml"
     path = _write(folder, "app_inputs", suffix, raw)
 

@@ -741,12 +741,13 @@ def _cooling_inputs(table, where: str) -> dict:
     if shown and main:
         part, plate = main[0], main[0].get("plate", {})
         if part["design"] == "convection":
-            out.update(cooling="convection", h_W_m2K=float(part["h_W_m2K"]),
-                       ambient_C=float(part["ambient_C"]))
+            out.update(cooling="convection", h_W_m2K=float(part.get("h_W_m2K", 10.0)),
+                       ambient_C=float(part.get("ambient_C", 25.0)))
         elif (part["design"] in _PLATES and plate.get("kind", "cold_plate") == "cold_plate"
               and set(plate) <= _PLATE_KEYS and set(part) <= _DESIGN_KEYS):
             out.update(cooling=part["design"], coolant=plate.get("coolant", "water"),
-                       flow_L_min=float(plate["flow_L_min"]), inlet_C=float(plate["inlet_C"]),
+                       flow_L_min=float(plate.get("flow_L_min", FIELDS["flow_L_min"].default)),
+                       inlet_C=float(plate.get("inlet_C", FIELDS["inlet_C"].default)),
                        cells_per_plate=int(plate.get("cells_per_plate", 1)),
                        tim_W_mK=float(part.get("tim_W_mK", FIELDS["tim_W_mK"].default)),
                        tim_mm=float(part.get("tim_mm", FIELDS["tim_mm"].default)))
