@@ -450,7 +450,7 @@ def test_real_flow_sizing_is_self_consistent():
     kw = {**REAL, "grid": (4, 6), "start_temperature_C": 35.0}
     lim = Limits(temperature_max_C=38.0)
     d = duty.discharge(c_rate=2.0)
-    res = size_cooling(cell, d, design, "flow_L_min", (0.05, 2.0), lim, module=False,
+    res = size_cooling(cell, d, design, "flow_L_min", (0.05, 4.0), lim, module=False,
                        resolution=0.01, **kw)
     assert res.feasible and res.limited_by == "limits", res.message
     at = design.replace(flow_L_min=res.value)
