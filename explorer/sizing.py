@@ -18,15 +18,24 @@ rounded one and every reported margin is that of a run at the answer):
 
 1. evaluate a few values across the bounds (the ends included; geometric
    spacing when the bounds span a factor of four or more, since thermal
-   figures tend to vary with the reciprocal of a flow or a conductance);
+   figures tend to vary with the reciprocal of a flow or a conductance):
+   three when each evaluation is a module run or several cell positions,
+   five for one cell (``samples="auto"``);
 2. walk them from the cheap end toward the expensive end to the first one
    that meets the limits. If it is the cheap end itself, that is the answer
    ("limited by the lower/upper bound"); if none does, the answer is the
    best evaluated value ("none met");
 3. otherwise that value and the cheaper one before it bracket the boundary;
-   shrink the bracket (linear interpolation, rounded to the feasible side,
-   with a bisection safeguard) until the two are one resolution step apart.
-   The answer meets the limits and one step cheaper does not.
+   shrink the bracket until the two are one resolution step apart. The
+   margin is smooth in the parameter, so each probe comes from the points
+   evaluated nearest the boundary (a quadratic through three, else a secant,
+   else false position on the bracket), rounded to the feasible side so the
+   next probe, one step cheaper, usually closes it; a bisection follows two
+   slow steps. The answer meets the limits and one step cheaper does not;
+   a module sizing typically takes five to seven runs.
+
+``size_cooling(..., check_fidelity=True)`` then checks the answer on the
+fuller models (:func:`explorer.check_fidelity`).
 
 Figures that do not change monotonically over the evaluated values are
 reported (``SizingResult.monotone`` and ``.turning_points``), and feasible
