@@ -108,8 +108,11 @@ def check_fidelity(cell, duty, cooling, electrochemistry: str = "spme", layout: 
         the run's margin to its limit, and the verdict is said to be able to
         flip when a difference is larger than that margin.
     module : bool
-        Run every cell on the coolant path (:func:`explorer.simulate_module`)
-        for every variant; gives the cell-to-cell spread.
+        Run every cell on the coolant path (:func:`explorer.simulate_module`);
+        gives the cell-to-cell spread. The fuller layout then runs the worst
+        cell alone against the same cell on the layout as run, and adds the
+        difference to the module's figures (a grid of rods in every cell
+        would cost the cells times the rods).
     max_wall_s : float
         Cap on the wall time of the fuller runs together, s. A fuller run
         whose estimated cost does not fit in what is left is stopped and
@@ -175,7 +178,7 @@ def check_fidelity(cell, duty, cooling, electrochemistry: str = "spme", layout: 
         if watch.reason is not None:
             skipped.append({"variant": name, "reason": watch.reason})
             continue
-        if ds.attrs.get("status") == "stopped" and not isinstance(ds, _Alone):  # a real Ctrl-C
+        if ds.attrs.get("status") == "stopped":  # a real Ctrl-C: keep what the check has
             skipped.append({"variant": name, "reason": "interrupted by the user"})
             break
         runs[name] = ds
