@@ -29,7 +29,7 @@ from explorer.rod.control import check_control, solve_current
 from explorer.rod.heat import heat_split
 from explorer.rod.kinetics import exchange_current, overpotential
 from explorer.rod.mesh import RodMesh
-from explorer.rod.params import FARADAY, REFERENCE_K, RodParameters
+from explorer.rod.params import FARADAY, GAS_CONSTANT, REFERENCE_K, RodParameters
 from explorer.rod.particle import CACHE_SIZE, SphereShells
 from explorer.validators import InputError
 
@@ -203,7 +203,17 @@ class SPM(RodModel):
         surf_c = np.array([e.particle_radius_m * self.shells.surface_distance
                            / e.diffusivity_m2_s * self._flux_per_A[k]
                            for k, e in enumerate(self._electrodes)])
-        return {"sizes": np.array(sizes), "lam": np.concatenate([m.lam for _, m, _ in blocks]),
+        lam = np.concatenate([m.lam for _, m, _ in blocks])
+        # each part's rate is linear in the Arrhenius factors: rates = R @ f, so every mode's
+        # decay rate s lam is one product (RL @ f); checked, else taken part by part
+        ea = len(self._ea)
+        R = np.array(self._rates(np.eye(ea)), dtype=float)  # (parts, factors)
+        probe = np.linspace(0.5, 2.0, ea)
+        linear = np.allclose(R @ probe, np.asarray(self._rates(probe), dtype=float),
+                             rtol=1e-12, atol=0.0)
+        return {"sizes": np.array(sizes), "lam": lam,
+                "RL": np.repeat(R, sizes, axis=0) * lam[:, None] if linear else None,
+                "ea_R": self._ea / GAS_CONSTANT,
                 "V": block_diag(*(m.V for _, m, _ in blocks)),
                 "VtW": block_diag(*(m._VtW for _, m, _ in blocks)),
                 "Vtb": np.concatenate([m.V.T @ b for _, m, b in blocks]),
@@ -215,13 +225,17 @@ class SPM(RodModel):
         op = self._ops.get(key)
         if op is not None:
             return op
-        f = arrhenius(self._ea, T, REFERENCE_K)  # all properties' factors in one call
         plan = self._blocks
         if plan is None:
             plan = self._blocks = self._plan()
+        # every property's Arrhenius factor (explorer.materials.arrhenius) in one call
+        f = np.exp(plan["ea_R"] * (1.0 / REFERENCE_K - 1.0 / T))
         # backward Euler in each part's eigenbasis: every mode decays by 1 / (1 + dt s lam)
-        scale = np.repeat(np.asarray(self._rates(f), dtype=float) * dt, plan["sizes"])
-        d = 1.0 / (1.0 + scale * plan["lam"])
+        if plan["RL"] is not None:
+            d = 1.0 / (1.0 + dt * (plan["RL"] @ f))
+        else:
+            scale = np.repeat(np.asarray(self._rates(f), dtype=float) * dt, plan["sizes"])
+            d = 1.0 / (1.0 + scale * plan["lam"])
         q = plan["V"] @ (plan["Vtb"] * (dt * d))
         # surface = value of the outer shell minus the extrapolation to the surface
         surf_q = q[plan["outer"]] - plan["surf_c"] / f[:2]
