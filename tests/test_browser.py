@@ -37,7 +37,7 @@ NOTEBOOK = ROOT / "notebooks" / "quick_start.ipynb"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
                  "--disable-background-networking", "--disable-component-update",
                  "--disable-sync", "--disable-dev-shm-usage"]
-VIEWPORT = {"width": 1400, "height": 1000}
+VIEWPORT = {"width": 1400, "height": 1900}  # tall: element screenshots show a whole tab
 # console messages that are not the notebook's or the app's (JupyterLab's own start-up chatter)
 _IGNORED_CONSOLE = ("favicon", "Failed to load resource: the server responded with a status of 404")
 
@@ -198,7 +198,8 @@ _JS_FIGURES = """(root) => Array.from((root || document).querySelectorAll('.js-p
 _JS_HEATMAP_Z = """(root) => { const gd = Array.from(root.querySelectorAll('.js-plotly-plot'))
   .find(g => g.offsetParent !== null && (g._fullData || []).some(t => t.type === 'heatmap'));
   if (!gd) return null; const t = gd._fullData.find(t => t.type === 'heatmap');
-  return {z: Array.from(t.z, row => Array.from(row)), title: gd.layout.title.text}; }"""
+  return {z: Array.from(t.z, row => Array.from(row)), title: gd.layout.title.text,
+          zmin: t.zmin, zmax: t.zmax}; }"""
 
 
 def _run_command(page, command: str, index: int | None = None) -> None:
@@ -230,8 +231,13 @@ def _shot(locator, folder: Path, name: str, shots: list[str]) -> None:
     shots.append(path.name)
 
 
-def _status(app) -> str:
-    return app.locator(".pte-status").inner_text()
+def _set_input(app, group: str, name: str, value: str) -> None:
+    """Type ``value`` into input ``name`` on the input tab ``group`` (as a user would)."""
+    _tab(app, group).click()
+    box = app.locator(f".pte-row-{name} input")
+    box.fill(value)
+    box.press("Tab")
+    app.page.wait_for_timeout(300)
 
 
 def _wait_status(page, app, words: str, timeout_s: float) -> float:
@@ -283,7 +289,7 @@ def _walk(browser, lab, work, artifacts, shots, errors, timings) -> None:
 
     def on_console(msg):
         if msg.type == "error" and not any(s in msg.text for s in _IGNORED_CONSOLE):
-            errors.append(msg.text)
+            errors.append(f"{msg.text} (after {shots[-1] if shots else 'the start'})")
 
     page.on("console", on_console)
     page.on("pageerror", lambda exc: errors.append(f"page error: {exc}"))
@@ -344,7 +350,7 @@ def _steps(page, lab, work, artifacts, shots, errors, timings) -> None:
             g.offsetParent !== null && (g._fullData || []).some(t => t.type === 'heatmap'
                                                                  && t.z && t.z.length)); }""")
     timings["first run, click to field"] = time.perf_counter() - t0
-    _wait_status(page, app, "done in", 60)
+    _wait_status(page, app, "run 1 done in", 60)
     first = app.evaluate(_JS_HEATMAP_Z)
     assert first and first["z"], "the app's temperature field shows no data after a run"
     _shot(app, artifacts, "app_temperature", shots)
@@ -360,20 +366,32 @@ def _steps(page, lab, work, artifacts, shots, errors, timings) -> None:
             assert not placeholders, f"{tab}: placeholder left over the plot: {placeholders}"
         _shot(app, artifacts, f"app_{tab.lower().replace(' ', '_')}", shots)
 
+    app.locator(".pte-scenario-name input").fill("1.5C")
+    app.locator("button.pte-pin").click()
+
     # change an input, run again: the field changes
     _tab(app, "Temperature").click()
-    _tab(app, "Cell and duty").click()
-    rate = app.locator(".pte-row-discharge_c_rate input")
-    rate.fill("3")
-    rate.press("Tab")
-    page.wait_for_timeout(300)
+    _set_input(app, "Cell and duty", "discharge_c_rate", "3")
     run.click()
-    _wait_status(page, app, "done in", 60)
+    _wait_status(page, app, "run 2 done in", 60)
     page.wait_for_timeout(500)
     second = app.evaluate(_JS_HEATMAP_Z)
     assert second["z"] != first["z"] and second["title"] != first["title"], \
         "the temperature field did not change after a new input and Run"
     _shot(app, artifacts, "app_after_rerun", shots)
+    # pin it too, and colour both runs' maps on one range
+    app.locator(".pte-scenario-name input").fill("3C")
+    app.locator("button.pte-pin").click()
+    app.locator(".pte-color-mode select").select_option(label="same for pinned runs")
+    page.wait_for_timeout(700)
+    locked = app.evaluate(_JS_HEATMAP_Z)
+    assert locked["zmin"] < second["zmin"], "the locked colour range does not span both runs"
+    _shot(app, artifacts, "app_colours_locked_to_pinned", shots)
+    app.locator(".pte-color-mode select").select_option(label="fit each time")
+    _tab(app, "Compare").click()
+    page.wait_for_timeout(700)
+    _shot(app, artifacts, "app_compare", shots)
+    _tab(app, "Temperature").click()
 
     # the time slider: End goes to the last step
     slider = app.locator(".pte-time .noUi-handle").first
@@ -400,14 +418,46 @@ def _steps(page, lab, work, artifacts, shots, errors, timings) -> None:
     timings["play, pictures per second"] = shown / max(1, round(int(paused.split(" of ")[1]
                                                                .rstrip(")")) / 60)) / played
 
-    # sizing
+    # an inlet at the temperature limit: the error stands next to the inlet
+    _set_input(app, "Cooling", "inlet_C", "50")
+    inlet_error = app.locator(".pte-row-inlet_C .pte-error")
+    assert "not below the temperature limit" in inlet_error.inner_text()
+    _shot(app.locator(".pte-inputs"), artifacts, "app_inlet_error", shots)
+    _set_input(app, "Cooling", "inlet_C", "25")
+
+    # the module: three cells along the coolant
+    _set_input(app, "Cooling", "cells_per_plate", "3")
+    run.click()
+    _wait_status(page, app, "run 3 done in", 90)
+    _tab(app, "Module").click()
+    page.wait_for_timeout(700)
+    module = [f for f in app.evaluate(_JS_FIGURES) if f["visible"]]
+    assert module and module[0]["points"] > 0 and "Module of 3 cells" in module[0]["title"]
+    _shot(app, artifacts, "app_module", shots)
+    _set_input(app, "Cooling", "cells_per_plate", "1")
+
+    # sizing the fin at 1.5C against a 15 K spread limit, checked on the fuller models
+    _set_input(app, "Cell and duty", "discharge_c_rate", "1.5")
+    _set_input(app, "Limits", "limit_spread_K", "15")
     _tab(app, "Sizing").click()
+    app.locator(".pte-row-size_vary select").select_option(label="fin thickness (mm)")
     t0 = time.perf_counter()
     app.locator("button.pte-size").click()
     _wait_status(page, app, "sized in", 120)
-    timings["sizing"] = time.perf_counter() - t0
-    page.wait_for_timeout(500)
-    _shot(app, artifacts, "app_sizing", shots)
+    timings["sizing with the fidelity check"] = time.perf_counter() - t0
+    page.wait_for_timeout(700)
+    shown = [f for f in app.evaluate(_JS_FIGURES) if f["visible"]]
+    assert shown and shown[0]["points"] > 0 and "Sizing" in shown[0]["title"], shown
+    assert app.locator(".pte-sizing-text .pte-fidelity table").count() == 1, \
+        "no fidelity check in the Sizing tab"
+    text = app.locator(".pte-sizing-text").inner_text()
+    assert "temperature_max_C" not in text and "spread_K" not in text, text
+    _shot(app, artifacts, "app_sizing_and_fidelity", shots)
+    # the input box shows the sized value
+    _tab(app, "Cooling").click()
+    fin = app.locator(".pte-row-fin_mm input").input_value()
+    assert fin != "0.5" and f"= {float(fin):g} mm" in text, (fin, text.splitlines()[0])
+    _shot(app.locator(".pte-inputs"), artifacts, "app_sized_value_in_input", shots)
 
     # export the report next to the notebook
     path = app.locator(".pte-file-path input")

@@ -9,6 +9,10 @@ Two figures, each the best of ``repeat`` timings after one warm-up (a shared mac
   traces' time marker in place; target 50 ms.
 * ``module_run_to_figure``: the same with ``module_cells`` cells sharing the plate's coolant
   (``explorer.simulate_module`` and the Module tab); no target of its own, for scale.
+* ``open``: in a fresh Python, ``import explorer`` then ``explorer.explore()`` as in a notebook
+  (the figures and the model load behind the shown app): the time until the app can be shown
+  (target 3 s), ``prepare_s`` until it is ready, and ``first_run_s``, the first Run after that
+  (target 1.5 s). One sample (a second one would find the imports cached).
 
 Without ``anywidget`` the figures are plain plotly figures updated in place (no browser here), so
 the figures measure the Python side either way: the inputs, the simulation and the figure updates.
@@ -18,7 +22,38 @@ from __future__ import annotations
 
 from explorer.timing import best_of
 
-TARGETS_S = {"run_to_figure": 1.5, "time_slider": 0.05}
+TARGETS_S = {"run_to_figure": 1.5, "time_slider": 0.05, "open": 3.0, "first_run": 1.5}
+
+_OPEN_SCRIPT = """
+import json, time
+t0 = time.perf_counter()
+import explorer
+from explorer.app import widget
+widget.DEFER_PREPARE = True
+t1 = time.perf_counter()
+app = explorer.explore(discharge_c_rate=1.5)
+t2 = time.perf_counter()
+app._ready.wait(300)
+t3 = time.perf_counter()
+app.run()
+t4 = time.perf_counter()
+print(json.dumps({"import_s": t1 - t0, "construct_s": t2 - t1, "prepare_s": t3 - t2,
+                  "first_run_s": t4 - t3, "error": app.last_error}))
+"""
+
+
+def bench_open() -> dict:
+    """Open the app in a fresh interpreter (see the module docstring); return one row."""
+    import json
+    import subprocess
+    import sys
+
+    out = subprocess.run([sys.executable, "-c", _OPEN_SCRIPT], capture_output=True, text=True,
+                         timeout=600, check=True)
+    figures = json.loads(out.stdout.strip().splitlines()[-1])
+    return {"section": "app", "figure": "open", "wall_s": figures["import_s"]
+            + figures["construct_s"], **figures, "target_s": TARGETS_S["open"],
+            "first_run_target_s": TARGETS_S["first_run"]}
 
 
 def bench_app(repeat: int = 3, module_cells: int = 6, **inputs) -> list[dict]:
@@ -64,6 +99,7 @@ def bench_app(repeat: int = 3, module_cells: int = 6, **inputs) -> list[dict]:
         {**common, "figure": "time_slider", "wall_s": slider_s,
          "target_s": TARGETS_S["time_slider"]},
     ]
+    rows.append(bench_open())
     if module_cells > 1 and app.rows["cells_per_plate"].box.layout.display != "none":
         app.set_inputs(cells_per_plate=module_cells)
         module_s = best_of(run_once, repeat)[0]

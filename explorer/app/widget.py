@@ -38,6 +38,7 @@ _PANELS = ("Summary", "Temperature", "SOC and heat", "Traces", "Heat split", "Mo
            "Sizing")
 _ERROR_STYLE = "color:#B2182B;font-size:0.9em;white-space:pre-wrap"
 _TIME_MARKER = "time marker"
+DEFER_PREPARE: bool | None = None  # None: in a notebook kernel only (the benchmark sets True)
 _FIELD_WIDTH_PX = 900  # the width the field maps are sized for (their height follows the cell)
 
 
@@ -77,8 +78,10 @@ class _Row:
             self.control = widgets.Text(value=str(f.default), continuous_update=True,
                                         placeholder=f.help, layout=lay, style=style)
         if f.help:
-            self.control.tooltip = f.help
+            # on the picker's menu: a box with a tooltip fails to draw in ipywidgets 8's front end
+            getattr(self.control, "menu", self.control).tooltip = f.help
         self.error = widgets.HTML("", layout=widgets.Layout(width="auto"))
+        self.error.add_class("pte-error")
         self.box = widgets.HBox([self.label, self.control, self.error],
                                 layout=widgets.Layout(align_items="center"))
         self.box.add_class(f"pte-row-{name}")
@@ -198,6 +201,7 @@ class ExplorerApp(widgets.VBox):
         self._cell = None  # the Cell object of the last run (its tabs outline the field maps)
         self._field_drawn: dict[str, bool] = {}
         self.check_fidelity = True  # the Sizing tab checks its answer on the fuller models
+        self.runs_done = 0
         self._thread: threading.Thread | None = None
         self._suspend = False
         self._input_errors_shown = False
@@ -222,6 +226,7 @@ class ExplorerApp(widgets.VBox):
         # time controls shared by the field figures; the slider is made anew for each run's
         # number of samples (a slider created with another maximum sends End to a stale end)
         self.time_slider = self._new_slider(0)
+        self._retired_slider = None
         self.play = widgets.ToggleButton(value=False, description="play", icon="play",
                                          tooltip="play the run in time; press again to pause",
                                          layout=widgets.Layout(width="90px"))
@@ -238,6 +243,7 @@ class ExplorerApp(widgets.VBox):
             style={"description_width": "55px"},
             tooltip="colour range of the field maps: each picture's own spread, the whole run, or "
                     "one range over the pinned runs and this one (to compare them)")
+        self.color_mode.add_class("pte-color-mode")
         self.color_mode.observe(lambda ch: self._colors_changed(), names="value")
 
         # figures: built after the app is on screen (``_prepare``); the tabs say so meanwhile
@@ -250,6 +256,7 @@ class ExplorerApp(widgets.VBox):
         self.summary = widgets.HTML("")
         self.compare_table = widgets.HTML("")
         self.sizing_text = widgets.HTML("")
+        self.sizing_text.add_class("pte-sizing-text")
         self.module_text = widgets.HTML("")
         self.cell_select = widgets.Dropdown(options=[], description="cell shown in the other tabs",
                                             style={"description_width": "initial"},
@@ -264,6 +271,8 @@ class ExplorerApp(widgets.VBox):
                                          tooltip="keep the last run as a named scenario")
         self.clear_button = widgets.Button(description="Clear pins", icon="trash")
         self.pin_button.on_click(lambda _: self._guard(self.pin))
+        self.pin_button.add_class("pte-pin")
+        self.scenario_name.add_class("pte-scenario-name")
         self.clear_button.on_click(lambda _: self._guard(self.clear_pins))
         self.file_path = widgets.Text(value="scenario.toml", layout=widgets.Layout(width="300px"),
                                       placeholder="file path")
@@ -302,7 +311,8 @@ class ExplorerApp(widgets.VBox):
             self.set_inputs(**initial)
         else:
             self._on_change()
-        if _in_kernel():  # show the app now; the figures and the model load behind it
+        if DEFER_PREPARE if DEFER_PREPARE is not None else _in_kernel():
+            # show the app now; the figures and the model load behind it
             self._preparing(0.05, "preparing the figures and the model (first use in this "
                                   "kernel) …")
             threading.Thread(target=self._prepare, name="explorer-app-prepare",
@@ -323,6 +333,7 @@ class ExplorerApp(widgets.VBox):
             rows = [r.box for r in self.rows.values() if r.field.group == group]
             groups.append(widgets.VBox(rows))
         self.input_tabs = widgets.Tab(children=groups)
+        self.input_tabs.add_class("pte-inputs")
         for k, group in enumerate(_GROUPS):
             self.input_tabs.set_title(k, group)
         run_row = widgets.HBox([self.run_button, self.progress, self.status],
@@ -397,7 +408,7 @@ class ExplorerApp(widgets.VBox):
                 self._on_change()
                 if not self.errors:  # warm: cell, coolant properties, solver, figure code
                     call = inputs_to_call(self.inputs())
-                    if _in_kernel():  # a user waits for the first Run click, a script does not
+                    if DEFER_PREPARE or _in_kernel():  # a user waits for the first click
                         self._preparing(0.7, "loading the simulation code …")
                         _warm_up(call)
             except Exception as exc:  # the app's boundary: say why, keep the app usable
@@ -585,7 +596,8 @@ class ExplorerApp(widgets.VBox):
         self.progress.value = 1.0
         self.progress.bar_style = "success" if status == "completed" else "warning"
         note = "" if status == "completed" else f" — {status}: {ds.attrs.get('status_message', '')}"
-        self.status.value = f"done in {elapsed:.1f} s{_esc(note)}"
+        self.runs_done += 1
+        self.status.value = f"run {self.runs_done} done in {elapsed:.1f} s{_esc(note)}"
         return ds
 
     def _failed(self, reason: str) -> None:
@@ -693,7 +705,11 @@ class ExplorerApp(widgets.VBox):
         children = list(self._time_row.children)
         children[children.index(old)] = self.time_slider
         self._time_row.children = children
-        old.close()
+        # closed one replacement later: closing it now can reach the browser before the row's
+        # new children, which then asks for a view of a closed model
+        if self._retired_slider is not None:
+            self._retired_slider.close()
+        self._retired_slider = old
 
     def _play_toggled(self, on: bool) -> None:
         self.play.icon = "pause" if on else "play"
