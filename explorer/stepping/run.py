@@ -380,9 +380,12 @@ class _Stepper:
         r = self.rec
         scalars = ("core_difference", "hottest", "coldest", "front_max", "front_min",
                    "back_max", "back_min", "through_difference", "coolant_outlet", "stored_J")
+        shape = self.thermal.grid.shape
         for i in range(0, len(states), chunk):
-            fig = self.thermal.recorded_figures(np.stack(states[i:i + chunk]),
-                                                np.stack(r.heat_map[i:i + chunk]))
+            part = states[i:i + chunk]  # one concatenation: far cheaper than stacking
+            fig = self.thermal.recorded_figures(
+                np.concatenate(part).reshape(len(part), -1),
+                np.concatenate(r.heat_map[i:i + chunk]).reshape(len(part), *shape))
             r.temperature.extend(fig["temperature"])
             for key in scalars:
                 getattr(r, key).extend(fig[key].tolist())
@@ -404,8 +407,8 @@ class _Stepper:
                             (r.lithium_mol, lithium)):
             lst.extend(values)
         for k in HEAT_KEYS:
-            r.heat[k].extend(h.get(k, 0.0) for h in heat)
-        r.heat_rejected.extend(float(sum(d.values())) for d in rejected)
+            r.heat[k].extend([h.get(k, 0.0) for h in heat])
+        r.heat_rejected.extend([float(sum(d.values())) for d in rejected])
         names = list(dict.fromkeys(name for d in rejected for name in d))
         for name in names:
             r.rejected_by_sink[name] = [d.get(name, 0.0) for d in rejected]
