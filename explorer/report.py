@@ -231,8 +231,13 @@ def limits_rows(ds, limits) -> list[tuple[str, str, str, str, str]]:
         figure = result["figures"].get(name)
         unit = UNITS.get(name, "").replace("degC", "°C")
         margin_unit = "K" if unit == "°C" else unit
+        margin_text = "—" if margin is None else f"{margin:+.3g} {margin_unit}"
         if figure is not None:
-            shown = f"{figure:.4g} {unit}"
+            shown, margin_shown = parts.figure_and_margin(figure, margin if margin is not None
+                                                          else 0.0)
+            shown += f" {unit}"
+            if margin is not None:
+                margin_text = f"{margin_shown} {margin_unit}"
         elif name in result.get("bounds", {}):
             shown = f"≥ {result['bounds'][name]:.4g} {unit}"
         else:
@@ -244,7 +249,7 @@ def limits_rows(ds, limits) -> list[tuple[str, str, str, str, str]]:
         if name in result["reasons"]:
             text += f": {result['reasons'][name]}"
         rows.append((f"{name}: {LONG_NAMES.get(name, name)}", f"{getattr(limits, name):.4g} {unit}",
-                     shown, "—" if margin is None else f"{margin:+.3g} {margin_unit}", text))
+                     shown, margin_text, text))
     return rows
 
 

@@ -72,6 +72,17 @@ def number(value, digits: int = 4) -> str:
     return str(value)
 
 
+def figure_and_margin(figure: float, margin: float, digits: int = 4) -> tuple[str, str]:
+    """A limit's figure to ``digits`` significant figures and its margin to the same decimal
+    places (at most three), so that the shown margin is the shown limit minus the shown figure
+    (22.01 K against 5 K: margin -17.01, not -17)."""
+    shown = f"{figure:.{digits}g}"
+    if "e" in shown:
+        return shown, f"{margin:+.3g}"
+    places = min(len(shown.split(".")[1]) if "." in shown else 0, 3)
+    return shown, f"{margin:+.{places}f}"
+
+
 def parse(value):
     """An attribute as Python data: JSON strings parsed, anything else as it is."""
     if isinstance(value, str) and value[:1] in "[{":

@@ -677,17 +677,22 @@ def _limits_table(limits: Limits, check: dict) -> str:
     """The limits with figure, margin and verdict; then what each figure spans, why a limit
     was not evaluated, the overall verdict and the run's warnings."""
     from explorer.limits import LONG_NAMES, UNITS
+    from explorer.report_parts import figure_and_margin
 
     lines = [f"{'limit':<24}{'limit value':>12}{'figure':>12}{'margin':>12}  {'unit':<6}verdict"]
     for name, margin in check["margins"].items():
         figure = check["figures"].get(name)
         bound = check.get("bounds", {}).get(name)
-        shown = (f"{figure:.4g}" if figure is not None else
-                 f">={bound:.4g}" if bound is not None else "-")
+        shown = (f">={bound:.4g}" if bound is not None else "-")
+        margin_shown = "-" if margin is None else format(margin, '.4g')
+        if figure is not None and margin is not None:  # margin to the figure's decimals
+            shown, margin_shown = figure_and_margin(figure, margin)
+        elif figure is not None:
+            shown = f"{figure:.4g}"
         verdict = {"met": "met", "not met": "NOT met"}.get(check["verdicts"][name],
                                                           "not evaluated")
         lines.append(f"{name:<24}{getattr(limits, name):>12.4g}{shown:>12}"
-                     f"{'-' if margin is None else format(margin, '.4g'):>12}  "
+                     f"{margin_shown:>12}  "
                      f"{UNITS[name]:<6}{verdict}")
     for name in check["margins"]:
         cell = check.get("cells", {}).get(name)

@@ -13,6 +13,7 @@ import plotly.offline
 import pytest
 from synthetic import SyntheticSizing, synthetic_dataset
 
+from explorer import report_parts as parts
 from explorer import results
 from explorer.report import cmd_report, render_report, write_report
 
@@ -95,8 +96,12 @@ def test_limits_and_hydraulics_tables(ds):
     body = " ".join(_parse(text).text)
     figures = results.key_figures(ds)
     # margin = limit - figure (positive = met), the convention of explorer.Limits.check
-    assert f"{40.0 - figures['peak_temperature_C']:+.3g}" in body and "NOT met" in body
-    assert f"{10.0 - figures['max_spread_K']:+.3g}" in body
+    # the margin is shown to the figure's decimals: limit - shown figure = shown margin
+    for limit, name in ((40.0, "peak_temperature_C"), (10.0, "max_spread_K")):
+        shown, margin = parts.figure_and_margin(figures[name], limit - figures[name])
+        assert f"{shown} " in body and f"{margin} K" in body
+        assert abs(limit - float(shown) - float(margin)) < 1.5 * 10.0 ** -len(margin.split(".")[-1])
+    assert "NOT met" in body
     # the synthetic run's plate: 1200 Pa = 1.2 kPa (SI prefix)
     assert "Pressure drop (kPa)" in body and " 1.2 " in f" {body} ".replace("\n", " ")
 
@@ -266,3 +271,11 @@ def test_first_screen_warnings_name_an_early_end_and_the_cell():
     warnings = body.split("Warnings", 1)[1].split("Key figures", 1)[0]
     assert "was cut short" in warnings and "not the whole duty" in warnings
     assert "cell: geometry inconsistent" in warnings
+
+
+def test_margin_has_the_figures_decimals():
+    # 5 K limit, 22.0129 K spread: shown "22.01" and "-17.01" (was "-17", which does not add up)
+    assert parts.figure_and_margin(22.0129, 5.0 - 22.0129) == ("22.01", "-17.01")
+    assert parts.figure_and_margin(56.8857, 55.0 - 56.8857) == ("56.89", "-1.89")
+    assert parts.figure_and_margin(0.26351, 5.0 - 0.26351) == ("0.2635", "+4.736")  # 3 places
+    assert parts.figure_and_margin(1806.0, 1.0) == ("1806", "+1")
