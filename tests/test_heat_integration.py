@@ -100,3 +100,20 @@ def test_fitted_field_with_edge_cooling_converges():
     fine = mean_after(PlaneThermal(cell, grid, sinks), 0.25, 14400)
     assert coarse == pytest.approx(fine, rel=3e-3)
     assert fitted.slowest_time_constant_s() > cell.derived.heat_capacity_J_K / (50.0 * g.width_m)
+
+
+@pytest.mark.parametrize("layout", ["single", "averaged"])
+def test_rejected_heat_closes_with_the_recorded_sink_flows(layout):
+    """The fitted schemes take the heat rejected over a step as generated less stored (first
+    law); the sink flows recorded at each state, integrated independently (trapezoid rule,
+    common practice) over a cooled discharge and rest, give the same energy within 0.1 %."""
+    cell = explorer.load_cell("van_nmc_66ah")
+    ds = explorer.simulate(cell, [duty.discharge(c_rate=1.0), duty.rest(1800.0)],
+                           explorer.cooling.convection(10.0, 25.0), layout=layout, grid=(8, 12))
+    assert ds.attrs["status"] == "completed"
+    t, q = ds.time.values, ds.heat_rejected.values
+    integrated = float(np.sum(0.5 * (q[1:] + q[:-1]) * np.diff(t)))
+    assert integrated == pytest.approx(float(ds.heat_rejected_energy[-1]), rel=1e-3)
+    stored = float(ds.heat_stored[-1] - ds.heat_stored[0])
+    assert float(ds.heat_generated_energy[-1]) == pytest.approx(
+        stored + float(ds.heat_rejected_energy[-1]), rel=1e-9)
