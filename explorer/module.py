@@ -531,6 +531,19 @@ _RELABEL = {
 }
 
 
+def _record_grid(ds: xr.Dataset, grid) -> None:
+    """Write the cells' own in-plane grid into the recorded inputs (JSON attr or dict)."""
+    import json
+
+    inputs = ds.attrs.get("inputs")
+    text = isinstance(inputs, str)
+    data = json.loads(inputs) if text else inputs
+    if not isinstance(data, dict):
+        return
+    data.setdefault("model", {})["grid"] = [int(grid.nx), int(grid.ny)]
+    ds.attrs["inputs"] = json.dumps(data) if text else data
+
+
 def _dataset(record, per_cell, *, cell, grid, cells, attrs) -> xr.Dataset:
     """The module Dataset: the stepper's shared series plus the per-cell figures and fields."""
     import copy
@@ -553,6 +566,7 @@ def _dataset(record, per_cell, *, cell, grid, cells, attrs) -> xr.Dataset:
     slim.rejected_by_sink = {}
     shared = to_dataset(slim, cell=cell, grid=Grid.single(grid.width_m, grid.height_m),
                         attrs=attrs)
+    _record_grid(shared, grid)  # the stand-in grid above is not the module's
     per_cell_names = set(_PER_CELL) | {"heat_flux", "soc_mean", "heat_total", "heat_rejected"}
     drop = [v for v in shared.data_vars
             if shared[v].dims != ("time",) or v.startswith("temperature") or v in per_cell_names
