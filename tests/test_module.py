@@ -71,6 +71,7 @@ def test_contract_layout(module_run):
     for name, v in ds.variables.items():
         assert "units" in v.attrs and "long_name" in v.attrs, name
     json.loads(ds.attrs["hydraulics"])
+    assert json.loads(ds.attrs["inputs"])["model"]["grid"] == list(GRID)  # the cells' own grid
     # the coolant warms along the path, so the cells run warmer one after another
     peak = ds["temperature_hottest"].max("time").values
     assert np.all(np.diff(peak) > 0)
