@@ -206,6 +206,8 @@ def field_frame(ds, variable: str, index: int, values: np.ndarray | None = None,
         "spot_y_mm": float(ds["y"].values[j]) * 1e3,
         "spot_value": float(z[j, i]),
         "spot_word": word,
+        # the label goes below a point in the upper half (above it sit the tabs' labels)
+        "spot_ay": 35 if j >= z.shape[0] / 2 else -35,
         "title": f"{label} at t = {t:.0f} s{where} — {extreme} {z[j, i]:.3g} {unit}",
     }
 
@@ -232,7 +234,8 @@ def spot_annotation(frame: dict, unit: str, visible: bool = True) -> dict:
     """The marker of a field's extreme point: an arrow and its value (a layout annotation)."""
     return dict(x=frame["spot_x_mm"], y=frame["spot_y_mm"], xref="x", yref="y", visible=visible,
                 text=f"{frame['spot_word']} {frame['spot_value']:.3g} {unit}", showarrow=True,
-                arrowhead=2, arrowwidth=1.5, arrowcolor="#000000", ax=30, ay=-30,
+                arrowhead=2, arrowwidth=1.5, arrowcolor="#000000", ax=30,
+                ay=frame.get("spot_ay", -35),
                 font=dict(color="#000000", size=12), bgcolor="rgba(255,255,255,0.85)",
                 bordercolor="#000000", borderwidth=1)
 

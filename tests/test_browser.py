@@ -278,7 +278,8 @@ def test_quick_start_in_a_browser(tmp_path, artifacts):
         leftover = lab.stop()
     timings["whole test"] = time.perf_counter() - started
     print(f"\nbrowser test screenshots in {artifacts}: {', '.join(shots)}")
-    print("browser test timings: " + ", ".join(f"{k} {v:.2f} s" for k, v in timings.items()))
+    print("browser test timings: " + ", ".join(f"{k} {v:.2f}{'' if '/s' in k else ' s'}"
+                                               for k, v in timings.items()))
     assert not leftover, f"processes still running after the test: {leftover}"
 
 
@@ -415,7 +416,7 @@ def _steps(page, lab, work, artifacts, shots, errors, timings) -> None:
     assert shown > 1, f"play did not move the time: {paused}"
     page.wait_for_timeout(600)
     assert app.locator(".pte-time-label").inner_text() == paused, "pause did not keep the time"
-    timings["play, pictures per second"] = shown / max(1, round(int(paused.split(" of ")[1]
+    timings["play (pictures/s)"] = shown / max(1, round(int(paused.split(" of ")[1]
                                                                .rstrip(")")) / 60)) / played
 
     # an inlet at the temperature limit: the error stands next to the inlet
@@ -453,6 +454,7 @@ def _steps(page, lab, work, artifacts, shots, errors, timings) -> None:
     text = app.locator(".pte-sizing-text").inner_text()
     assert "temperature_max_C" not in text and "spread_K" not in text, text
     _shot(app, artifacts, "app_sizing_and_fidelity", shots)
+    _shot(app.locator(".pte-sizing-figure"), artifacts, "app_sizing_curve", shots)
     # the input box shows the sized value
     _tab(app, "Cooling").click()
     fin = app.locator(".pte-row-fin_mm input").input_value()
@@ -496,8 +498,9 @@ def _report_offline(browser, work, artifacts, shots) -> None:
                            timeout=30_000)
     figures = page.evaluate(_JS_FIGURES, None)
     assert figures and all(f["points"] > 0 for f in figures), figures
-    path = artifacts / f"{len(shots) + 1:02d}_report_offline.png"
-    page.screenshot(path=str(path), full_page=True)
-    shots.append(path.name)
+    for name, full in (("report_offline_first_screen", False), ("report_offline_whole", True)):
+        path = artifacts / f"{len(shots) + 1:02d}_{name}.png"
+        page.screenshot(path=str(path), full_page=full)
+        shots.append(path.name)
     assert not errors, f"console errors in the offline report: {errors} (refused: {refused})"
     context.close()

@@ -367,6 +367,7 @@ class ExplorerApp(widgets.VBox):
         self.fig_heat = LiveFigure("Run to see the heat split", height=440)
         self.fig_compare = LiveFigure("Pin two or more runs to compare them", height=640)
         self.fig_sizing = LiveFigure("Size the cooling to see the curve", height=520)
+        self.fig_sizing.widget.add_class("pte-sizing-figure")
         self.fig_module = LiveFigure("Run with more than one cell sharing the coolant (Cooling tab) "
                                      "to see the module", height=820)
         sizing_rows = [r.box for r in self.rows.values() if r.field.group == "Sizing"]
@@ -799,7 +800,8 @@ class ExplorerApp(widgets.VBox):
             with fig.batch_update():
                 fig.data[0].z = frame["z"]
                 fig.data[0].zmin, fig.data[0].zmax = frame["zmin"], frame["zmax"]
-                fig.layout.annotations[0].update(x=spot["x"], y=spot["y"], text=spot["text"])
+                fig.layout.annotations[0].update(x=spot["x"], y=spot["y"], ay=spot["ay"],
+                                                 text=spot["text"])
                 fig.layout.title.text = frame["title"]
             live.refresh()
         _, _, divisor = plots.time_axis(ds)
