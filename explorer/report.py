@@ -94,7 +94,7 @@ pre{margin:0;white-space:pre-wrap;font-size:.85em}
 .verdict-met{color:#1a7f37;font-weight:bold;white-space:nowrap}
 .verdict-not{color:#B2182B;font-weight:bold;white-space:nowrap}
 .status-stopped,.status-failed,.status-cut_short{color:#B2182B;font-weight:bold}
-.plot{margin:0 0 1.5em}
+.plot{margin:0 0 1.5em}.wide{overflow-x:auto;max-width:100%}
 footer{margin-top:3em;border-top:1px solid #ccc;padding-top:1em;font-size:.9em;color:#333}
 """
 
@@ -179,7 +179,7 @@ HYDRAULIC_FIGURES = (
     ("h_channel_W_m2K", "Channel heat transfer coefficient (W/(m² K))", "{:.0f}"),
     ("pressure_drop_Pa", "Pressure drop (kPa)", "kPa"),
     ("pump_power_W", "Pump power (W)", "{:.3g}"),
-    ("outlet_C", "Coolant outlet (°C)", "{:.2f}"),
+    ("outlet_C", "Coolant outlet at the run's mean heat into the plate (°C)", "{:.2f}"),
 )
 
 
@@ -208,6 +208,11 @@ def hydraulics_rows(ds) -> list[tuple[str, str]]:
         else:
             text = fmt.format(float(value))
         rows.append((label, text))
+    if rows and "coolant_outlet" in ds.data_vars:  # the figure a coolant_outlet_C limit reads
+        outlet = np.asarray(ds["coolant_outlet"].values, dtype=float)
+        if np.isfinite(outlet).any():
+            rows.append(("Highest coolant outlet during the run (°C)",
+                         f"{float(np.nanmax(outlet)):.2f}"))
     rows += [("Warning", str(w)) for w in hyd.get("warnings", []) or []]
     return rows
 
@@ -456,8 +461,8 @@ def _run_section(page: _Page, ds, k: int, name: str, inputs, limits) -> None:
     held, _ = _limits_for(ds, limits)
     page.heading(3, "Key figures", f"{prefix}-key")
     figures = results.key_figures(ds)
-    page.add(_table([[_esc(c) for c in format_figure(n, v)] for n, v in figures.items()],
-                    header=("figure", "value")))
+    page.add(_table([[_esc(c) for c in _module_label(ds, *format_figure(n, v), n)]
+                     for n, v in figures.items()], header=("figure", "value")))
     page.heading(3, "Inputs", f"{prefix}-inputs")
     if not isinstance(inputs, Mapping | type(None)):
         raise TypeError(f"write_report: `inputs` must be a mapping (name -> value), got "
@@ -484,6 +489,18 @@ def _run_section(page: _Page, ds, k: int, name: str, inputs, limits) -> None:
         page.add(_fidelity_html(summary))
     _appendix(page, ds, prefix)
     page.add("</section>")
+
+
+def _module_label(ds, label: str, text: str, name: str) -> tuple[str, str]:
+    """A module's key figure says what it spans: the heats add up over the cells, the energy
+    is per cell (the string's over the cells), the charge is the series charge."""
+    if "cell" not in ds.dims:
+        return label, text
+    if name in ("heat_generated_J", "heat_rejected_J"):
+        label = label.replace(" (kJ)", f", all {ds.sizes['cell']} cells (kJ)")
+    elif name == "energy_delivered_Wh":
+        label = label.replace(" (Wh)", " per cell (Wh)")
+    return label, text
 
 
 def _figures(page: _Page, ds, prefix: str, limits) -> None:
@@ -639,7 +656,7 @@ def _sizing_section(page: _Page, sizing, limits) -> None:
         from explorer.report_figures import sizing_rows
 
         header, rows = sizing_rows(curve)
-        page.add(_table(_esc_rows(rows), header=header))
+        page.add("<div class='wide'>" + _table(_esc_rows(rows), header=header) + "</div>")
     page.figure("Sizing curve: the limits' figures against the design value", "sizing",
                 lambda: plots.sizing_figure(sizing, limits=limits))
     page.add("</section>")
@@ -661,10 +678,16 @@ def _sweep_section(page: _Page, ds, k: int, limits) -> None:
     if isinstance(duty, list) and duty:
         rows.append(("Duty", "; then ".join(parts.duty_words(s) if isinstance(s, Mapping)
                                             else str(s) for s in duty)))
-    rows.append(("Cooling", parts.cooling_words(parts.parse(ds.attrs.get("cooling", "{}")))))
+    cooling = parts.cooling_words(parts.parse(ds.attrs.get("cooling", "{}")))
+    if isinstance(axes, Mapping) and axes:  # the base design's values of the swept parameters
+        cooling += (" (base design; swept: "
+                    + ", ".join(parts.split_unit(n)[0] for n in axes) + ", see the axes)")
+    rows.append(("Cooling", cooling))
     settings = parts.parse(ds.attrs.get("settings", "{}"))
     if isinstance(settings, Mapping) and settings:
-        rows.append(("Model", ", ".join(f"{a} {parts._plain(b)}" for a, b in settings.items())))
+        words = (parts._named_value(str(a), b) for a, b in settings.items())
+        rows.append(("Model", ", ".join(f"{n} {v}" + (f" {u}" if u else "")
+                                        for n, v, u in words)))
     if isinstance(axes, Mapping):
         for name, values in axes.items():
             words, unit = parts.split_unit(name)
@@ -679,7 +702,8 @@ def _sweep_section(page: _Page, ds, k: int, limits) -> None:
     page.add("</div>")
     page.heading(3, "Every case", f"{prefix}-table")
     header, rows = sweep_rows(ds)
-    page.add(_table(_esc_rows(rows), header=header, numeric_from=0))
+    page.add("<div class='wide'>" + _table(_esc_rows(rows), header=header, numeric_from=0)
+             + "</div>")
     page.figure("Map of the swept figures against the axes", f"{prefix}-map",
                 lambda: sweep_map_figure(ds, limits=limits))
     page.heading(3, "Assumptions: what the model leaves out", f"{prefix}-assumptions")

@@ -24,8 +24,9 @@ SWEEP_FIGURES = {
     "cell_to_cell_K": ("Cell-to-cell difference (K)", True),
     "pressure_drop_kPa": ("Pressure drop, channels only (kPa)", True),
     "pump_power_W": ("Pump power, channels only (W)", True),
-    "end_soc": ("SOC at the end (1)", False),
+    "end_soc": ("SOC at the end (%)", False),
 }
+_SCALE = {"end_soc": 100.0}  # stored as a fraction, shown in % like the run report's
 _LIMIT_OF = {"peak_temperature_C": "temperature_max_C", "max_spread_K": "spread_K",
              "cell_to_cell_K": "cell_to_cell_K", "pressure_drop_kPa": "pressure_drop_kPa",
              "pump_power_W": "pump_power_W"}
@@ -69,7 +70,7 @@ def sweep_rows(ds) -> tuple[list[str], list[list[str]]]:
     for k in range(stacked.sizes["case"]):
         row = stacked.isel(case=k)
         cells = [number(float(row[a])) for a in axes]
-        cells += [number(float(row[n])) for n in names]
+        cells += [number(float(row[n]) * _SCALE.get(n, 1.0)) for n in names]
         if has_verdict:
             cells.append("met" if int(row["meets_limits"]) else "NOT met")
         cells.append(str(row["case_status"].item()))
@@ -88,7 +89,8 @@ def sweep_map_figure(ds, limits=None) -> go.Figure:
         fig = make_subplots(rows=len(names), cols=1, shared_xaxes=True, vertical_spacing=0.06)
         x = np.asarray(ds[axes[0]].values, dtype=float)
         for row, name in enumerate(names, start=1):
-            fig.add_trace(go.Scatter(x=x, y=np.asarray(ds[name].values, dtype=float),
+            fig.add_trace(go.Scatter(x=x, y=np.asarray(ds[name].values, dtype=float)
+                                     * _SCALE.get(name, 1.0),
                                      mode="lines+markers", name=SWEEP_FIGURES[name][0]),
                           row=row, col=1)
             fig.update_yaxes(title_text=SWEEP_FIGURES[name][0], row=row, col=1)
@@ -102,7 +104,7 @@ def sweep_map_figure(ds, limits=None) -> go.Figure:
         fig = make_subplots(rows=len(names), cols=1, vertical_spacing=0.08,
                             subplot_titles=[SWEEP_FIGURES[n][0] for n in names])
         for row, name in enumerate(names, start=1):
-            da = ds[name]
+            da = ds[name] * _SCALE.get(name, 1.0)
             if reduced:  # the worst over the further axes
                 da = da.max(reduced) if SWEEP_FIGURES[name][1] else da.min(reduced)
             z = np.asarray(da.transpose(axes[1], axes[0]).values, dtype=float)

@@ -43,7 +43,7 @@ LABELS = {"tim_W_mK": ("TIM conductivity", "W/(m K)"), "tim_mm": ("TIM thickness
           "fin_contact_W_m2K": ("fin contact coefficient", "W/(m² K)"),
           "c_rate": ("C-rate", "C"), "soc": ("SOC", ""), "rib_mm": ("rib between channels", "mm"),
           "wall_mm": ("plate wall", "mm"), "length_mm": ("plate length", "mm"),
-          "output_interval_s": ("output interval", "s")}
+          "output_interval_s": ("output interval", "s"), "start_soc": ("start SOC", "")}
 
 
 def split_unit(name: str) -> tuple[str, str]:
@@ -142,11 +142,15 @@ def duty_words(step: Mapping) -> str:
                      f"{number(step.get('profile_duration_s', math.nan))} s)")
     else:
         text = label or kind
-    ends = [_end_words(e) for e in step.get("ends", []) or [] if isinstance(e, Mapping)]
+    given = [e for e in step.get("ends", []) or [] if isinstance(e, Mapping)]
+    timed = [e for e in given if e.get("quantity") == "time"]
+    ends = [_end_words(e) for e in given if e.get("quantity") != "time"]
     if step.get("default_limit", False) and kind in ("current", "power", "profile"):
         ends.append("the cell's voltage window")
+    if timed:  # the step's own clock: "rest for 900 s", "... for 600 s or until ..."
+        text += " for " + " or ".join(f"{number(e.get('threshold'))} s" for e in timed)
     if ends:
-        text += " until " + " or ".join(ends)
+        text += (" or" if timed else "") + " until " + " or ".join(ends)
     return text
 
 
@@ -266,8 +270,9 @@ def input_rows(ds, given=None) -> list[tuple[str, str, str, str]]:
             if isinstance(step, Mapping):
                 group = f"duty step {k + 1}"
                 rows.append((group, "duty", duty_words(step), ""))
-                rows += [(group, *r) for r in _flat(step, skip=("kind", "ends", "label",
-                                                                "default_limit"))]
+                skip = ("kind", "ends", "label", "default_limit") + \
+                    (("value",) if step.get("kind") == "rest" else ())
+                rows += [(group, *r) for r in _flat(step, skip=skip)]
         cooling = inputs.get("cooling")
         if isinstance(cooling, Mapping):
             rows += _cooling_rows(cooling)
@@ -333,6 +338,11 @@ def _named_value(key: str, value) -> tuple[str, str, str]:
     name, unit = split_unit(str(key))
     if isinstance(value, list):
         return name, " × ".join(number(v) for v in value), unit
+    if key in ("start_soc", "soc") and isinstance(value, int | float) and \
+            not isinstance(value, bool):  # a state of charge reads in % (as on the first screen)
+        return name, number(100.0 * float(value)), "%"
+    if isinstance(value, str):  # a word ("auto") has no unit
+        return name, value, ""
     return name, _plain(value), unit
 
 

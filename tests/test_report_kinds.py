@@ -289,3 +289,51 @@ def test_a_file_shaped_like_a_run_but_short_is_one_line(tmp_path, capsys):
     assert main(["report", str(fake)]) == 2
     err = capsys.readouterr().err
     assert len(err.strip().splitlines()) == 1 and "missing" in err and "fake_run.nc" in err
+
+
+def _table_of(page: _Page, first: str) -> dict[str, list[str]]:
+    """A two-or-more-column table whose header row starts with ``first``, keyed by row label."""
+    table = next(t for t in page.tables if t and t[0] and t[0][0] == first)
+    return {row[0]: row[1:] for row in table[1:] if row}
+
+
+def test_module_figures_say_what_they_span(files, tmp_path):
+    out = tmp_path / "module_words.html"
+    assert main(["report", str(files["module"]), "--out", str(out)]) == 0
+    page = parse(out)
+    key = _table_of(page, "figure")
+    # the heats add up over the cells (results.key_figures sums them), the energy is per cell
+    assert "Heat generated, all 3 cells (kJ)" in key and "Energy delivered per cell (Wh)" in key
+    ds = explorer.open_results(files["module"])
+    heat = results.key_figures(ds)["heat_generated_J"]
+    assert key["Heat generated, all 3 cells (kJ)"][0] == f"{heat / 1e3:.1f}"
+    # the coolant outlet a limit reads (the highest during the run) beside the design-point one
+    rows = {r[0]: r[1:] for t in page.tables for r in t[1:] if r}
+    highest = float(np.nanmax(ds["coolant_outlet"].values))
+    assert rows["Highest coolant outlet during the run (°C)"][0] == f"{highest:.2f}"
+    assert "Coolant outlet at the run's mean heat into the plate (°C)" in rows
+
+
+def test_sweep_words_name_the_swept_values(files, tmp_path):
+    out = tmp_path / "sweep_words.html"
+    assert main(["report", str(files["sweep"]), "--out", str(out)]) == 0
+    page = parse(out)
+    what = {r[0]: r[1] for t in page.tables for r in t if len(r) == 2}
+    # the cooling row gives the base design; it says which of its values were swept
+    assert "swept: flow, inlet" in what["Cooling"]
+    assert "grid 6 × 4" in what["Model"] and "output interval 30 s" in what["Model"]
+    assert "_" not in what["Model"]  # words, not identifiers
+    table = next(t for t in page.tables if t and t[0][0] == "flow (L/min)")
+    column = table[0].index("SOC at the end (%)")
+    sweep = xr.open_dataset(files["sweep"]).load()
+    assert float(table[1][column]) > 1.0 or float(sweep["end_soc"].min()) < 0.01  # in %
+
+
+def test_run_inputs_read_in_engineering_words(files, tmp_path):
+    out = tmp_path / "run_words.html"
+    assert main(["report", str(files["run"]), "--out", str(out)]) == 0
+    page = parse(out)
+    inputs = next(t for t in page.tables if t and t[0] == ["group", "input", "value", "unit"])
+    rows = {(r[0], r[1]): r[2:] for r in inputs[1:]}
+    assert rows[("start", "SOC")] == ["100", "%"]  # as on the first screen, not "1"
+    assert rows[("model", "output interval")] == ["30", "s"]
