@@ -69,6 +69,7 @@ import inspect
 import json
 import logging
 import math
+import os
 import sys
 import tomllib
 from dataclasses import dataclass, field
@@ -486,14 +487,22 @@ def _plain(value):
 
 
 def _relative(name: str, folder: Path) -> str:
-    """A file below ``folder`` as a path relative to it (POSIX form); anything else as given."""
+    """A file as a path relative to ``folder`` (POSIX form), so that the scenario and its files
+    move together and no local absolute path travels in a shared file: below the folder, or
+    given as a relative path (``../profiles/route.csv``); an absolute path elsewhere as given."""
     candidate = Path(name).expanduser()
     if not (candidate.suffix or "/" in name or "\\" in name):
         return name  # a demo cell name
     try:
         return candidate.resolve().relative_to(folder.resolve()).as_posix()
     except ValueError:
-        return str(candidate.resolve()) if candidate.exists() else name
+        pass
+    if not candidate.is_absolute() and candidate.exists():
+        try:
+            return Path(os.path.relpath(candidate.resolve(), folder.resolve())).as_posix()
+        except ValueError:  # another drive
+            pass
+    return str(candidate.resolve()) if candidate.exists() else name
 
 
 # --------------------------------------------------------------------------- commands

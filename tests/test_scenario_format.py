@@ -120,3 +120,18 @@ def test_what_the_app_cannot_show_is_said(tmp_path):
                                             "h_W_m2K": 2000.0}})
     with pytest.raises(InputsFileError, match="cooling.*explorer run"):
         app_inputs.load_inputs(path)
+
+
+def test_save_writes_a_relative_profile_relative_to_the_scenario(tmp_path, monkeypatch):
+    # a profile named relative to the current folder, beside (not below) the scenario's folder:
+    # written as "../profiles/route.csv", never as this machine's absolute path
+    (tmp_path / "profiles").mkdir()
+    (tmp_path / "profiles" / "route.csv").write_text("time_s,current_A\n0,10\n60,10\n")
+    (tmp_path / "scenarios").mkdir()
+    monkeypatch.chdir(tmp_path)
+    path = scenario.save("scenarios/route.toml", cell="bus_power_12ah",
+                         duty=[{"step": "profile_csv", "path": "profiles/route.csv"}])
+    text = path.read_text()
+    assert '"../profiles/route.csv"' in text and str(tmp_path) not in text
+    monkeypatch.chdir(tmp_path / "scenarios")  # it loads from anywhere
+    assert scenario.load_scenario(tmp_path / "scenarios" / "route.toml").duty
