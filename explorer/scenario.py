@@ -535,7 +535,7 @@ def cmd_run(scenario, out=None) -> int:
     and pump power. Returns 0 (completed, limits met), 1 (a limit not met or
     the run failed) or 2 (bad input).
     """
-    from explorer.results import key_figures, save
+    from explorer.results import key_figures, run_warnings, save
     from explorer.simulate import simulate
     from explorer.sizing import run_hydraulics
 
@@ -546,10 +546,15 @@ def cmd_run(scenario, out=None) -> int:
     hyd = run_hydraulics(ds) or {}
     lines = [f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}",
              f"status: {ds.attrs.get('status')} {ds.attrs.get('status_message', '')}".rstrip()]
-    for key, unit in (("peak_temperature_C", "degC"), ("max_spread_K", "K"), ("end_soc", "1"),
+    for key, unit in (("peak_temperature_C", "degC"), ("max_spread_K", "K"), ("end_soc", "%"),
                       ("energy_delivered_Wh", "Wh"), ("heat_generated_J", "J"),
                       ("heat_rejected_J", "J"), ("duration_s", "s")):
-        lines.append(f"{key:<24}{fig[key]:>12.4g}  {unit}")
+        value = fig[key] * (100.0 if unit == "%" else 1.0)
+        if math.isfinite(value):
+            lines.append(f"{key:<24}{value:>12.4g}  {unit}")
+        else:  # a figure this layout cannot see (the spread on one lumped temperature)
+            lines.append(f"{key:<24}{'-':>12}  {unit}  (not seen on layout "
+                         f"{ds.attrs.get('layout', '?')!r})")
     ok = ds.attrs.get("status") != "failed"
     if sc.limits is not None:
         check = sc.limits.check(ds, hyd)
@@ -559,10 +564,24 @@ def cmd_run(scenario, out=None) -> int:
             lines.append(f"note: `temperature_max_C` = {sc.limits.temperature_max_C:g} degC is "
                          f"above the cell's data-sheet maximum {sheet:g} degC")
         ok = ok and check["met"]
+    else:  # no verdict to carry them: the run's own warnings
+        lines += [f"warning: {w}" for w in run_warnings(ds)]
+    lines += [f"warning: cell: {w}" for w in _cell_warnings(ds)]
     lines.extend(_hydraulics_lines(hyd))
     lines.append(f"wrote {path}")
     _print(lines)
     return 0 if ok else 1
+
+
+def _cell_warnings(ds) -> list[str]:
+    """The cell file's own warnings the run recorded (e.g. an OCV table that disagrees with
+    the negative curve; ``results.data_attrs``), as the report shows them."""
+    raw = ds.attrs.get("cell_warnings", "[]")
+    try:
+        value = json.loads(raw) if isinstance(raw, str) else list(raw)
+    except (TypeError, ValueError):
+        return [str(raw)]
+    return [str(w) for w in value] if isinstance(value, list) else [str(value)]
 
 
 @_guard

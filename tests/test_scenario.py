@@ -230,3 +230,18 @@ def test_paths_are_relative_to_the_scenario_file(tmp_path):
     missing = write(tmp_path, text.replace("load.csv", "nowhere.csv"), "missing.toml")
     with pytest.raises(ScenarioError, match=r"duty\[0\].*nowhere.csv"):
         load_scenario(missing)
+
+
+def test_cmd_run_lines_on_a_single_layout_without_limits(tmp_path, capsys):
+    # the SOC in %, and a figure the layout cannot see as "-" with why (not "nan")
+    text = CHEAP.replace('layout = "averaged"', 'layout = "single"').replace(
+        "end_time_s = 300", "end_time_s = 300\nend_voltage_V = 4.1").replace(
+        'step = "discharge"', 'step = "charge"')
+    path = write(tmp_path, text.replace("start_temperature_C = 25.0",
+                                        "start_temperature_C = 25.0\nstart_soc = 0.9"))
+    cmd_run(path, tmp_path / "out")
+    out = capsys.readouterr().out
+    ds = xr.open_dataset(tmp_path / "out" / "case_run.nc").load()
+    soc = 100.0 * float(ds["soc_mean"].values[-1])
+    assert f"{soc:.4g}  %" in out
+    assert "nan" not in out and "(not seen on layout 'single')" in out
