@@ -26,8 +26,13 @@ def demo_design():
 
 def describe_cell(cell) -> str:
     g, d = cell.geometry, cell.derived
-    tabs = ", ".join(f"{t.name} ({t.polarity}) on {t.edge} at {t.position_m * 1e3:.0f} mm, "
-                     f"{t.width_m * 1e3:.0f} mm wide" for t in g.tabs)
+    tabs = ", ".join(f"{t.name}{'' if t.name == t.polarity else f' ({t.polarity})'} on "
+                     f"{t.edge} at {t.position_m * 1e3:.0f} mm, {t.width_m * 1e3:.0f} mm wide"
+                     for t in g.tabs)
+    curves = "; ".join(f"{name} {e.ocp if isinstance(e.ocp, str) else e.ocp.source}"
+                       for name, e in (("negative", cell.negative), ("positive", cell.positive)))
+    note = str(cell.extra.get("data_note", "") or "")
+    warnings = [str(w) for w in cell.extra.get("warnings", []) or []]
     lines = [
         f"{cell.name}: {cell.description}",
         f"  file             {cell.source_path}",
@@ -44,7 +49,11 @@ def describe_cell(cell) -> str:
         f"  heat capacity    {d.heat_capacity_J_K:.0f} J/K",
         f"  temperature      {cell.temperature_min_C:g} to {cell.temperature_max_C:g} degC "
         "(data sheet)",
+        f"  potentials       {curves}",
     ]
+    if note:
+        lines.append(f"  data note        {note}")
+    lines += [f"  warning          {w}" for w in warnings]
     return "\n".join(lines)
 
 

@@ -50,3 +50,13 @@ def test_module_entry_point():
     out = subprocess.run([sys.executable, "-m", "explorer", "--help"], capture_output=True,
                          text=True, check=True).stdout
     assert "python -m explorer" in out
+
+
+def test_show_names_the_curves_the_data_note_and_plain_tabs(capsys):
+    # a tab named by its polarity is not repeated ("negative (negative)"); the electrode
+    # curves and the file's data note are what an engineer checks first
+    assert main(["show", "van_nmc_66ah"]) == 0
+    out = capsys.readouterr().out
+    assert "(negative)" not in out and "negative on top" in out
+    assert "potentials       negative graphite; positive nmc" in out
+    assert "data note        invented" in out
