@@ -573,6 +573,11 @@ def _appendix(page: _Page, ds, prefix: str) -> None:
             ("Cell file", str(a.get("cell_file", "—") or "—")),
             ("Cell file SHA-256", str(a.get("cell_file_sha256", a.get("cell_sha256", "—")))),
             ("Cell data note", str(a.get("data_note", "—") or "—"))]
+    tables = parts.parse(a.get("cell_tables", "{}"))
+    for key, table in (tables.items() if isinstance(tables, Mapping) else ()):
+        if isinstance(table, Mapping):
+            prov.append((f"Cell table {key}", f"{table.get('file', '?')} (SHA-256 "
+                                              f"{table.get('sha256', '?')})"))
     if a.get("field_storage"):
         prov.append(("Stored fields", str(a["field_storage"])))
     page.add(_table(_esc_rows(prov), numeric_from=99))

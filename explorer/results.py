@@ -575,7 +575,8 @@ def data_attrs(cell, steps=()) -> dict:
     ``data_note`` (the cell file's own), ``data_notes`` (JSON list: every invented, template
     or assumed input: the cell, a load profile marked invented in its header),
     ``cell_file`` (the file name only) and ``cell_file_sha256``; ``cell_warnings`` (JSON list)
-    when the cell carries warnings (e.g. an inconsistent geometry).
+    when the cell carries warnings (e.g. an inconsistent geometry); ``cell_tables`` (JSON:
+    field -> {"file": name only, "sha256"}) when the cell file names measured curve tables.
     """
     extra = getattr(cell, "extra", {}) or {}
     note = str(extra.get("data_note", "") or "")
@@ -595,6 +596,12 @@ def data_attrs(cell, steps=()) -> dict:
     warnings = extra.get("warnings")
     if warnings:
         out["cell_warnings"] = json.dumps([str(w) for w in warnings])
+    tables = extra.get("tables")
+    if isinstance(tables, dict) and tables:  # measured curves: which file, which content
+        out["cell_tables"] = json.dumps({
+            str(key): {"file": Path(str(t.get("file") or t.get("path") or "")).name,
+                       "sha256": str(t.get("sha256", ""))}
+            for key, t in tables.items() if isinstance(t, dict)})
     return out
 
 

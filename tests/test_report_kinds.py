@@ -8,6 +8,7 @@ HTML Living Standard), not searched as a string alone. Every scenario here is in
 
 from __future__ import annotations
 
+import json
 import re
 from html.parser import HTMLParser
 from pathlib import Path
@@ -337,3 +338,31 @@ def test_run_inputs_read_in_engineering_words(files, tmp_path):
     rows = {(r[0], r[1]): r[2:] for r in inputs[1:]}
     assert rows[("start", "SOC")] == ["100", "%"]  # as on the first screen, not "1"
     assert rows[("model", "output interval")] == ["30", "s"]
+
+
+def test_a_measured_ocv_table_is_named_in_the_file_and_the_report(tmp_path):
+    # A cell whose positive curve comes from a full-cell OCV table (the van cell's own OCV
+    # sampled, invented data): the results file names the table by file name and content hash
+    # (results.data_attrs), and the report's provenance shows it, with no local path.
+    from explorer.cell import list_demo_cells, load_cell, ocv
+    from explorer.report import render_report
+
+    ref = load_cell("van_nmc_66ah")
+    soc = np.concatenate([np.linspace(0, 0.1, 21), np.linspace(0.12, 1, 45)])
+    volts = ocv(ref.negative, ref.positive, soc)
+    (tmp_path / "ocv.csv").write_text("# invented test table\nsoc,ocv_V\n" + "".join(
+        f"{s:.6g},{v:.6g}\n" for s, v in zip(soc, volts, strict=True)), encoding="utf-8")
+    text = list_demo_cells()["van_nmc_66ah"].read_text(encoding="utf-8")
+    text = text.replace('ocp = "nmc"\n', "", 1).replace(
+        "[geometry]", 'ocv_table = "ocv.csv"\n\n[geometry]', 1)
+    (tmp_path / "cell.toml").write_text(text, encoding="utf-8")
+    run = explorer.simulate(load_cell(tmp_path / "cell.toml"),
+                            explorer.duty.discharge(c_rate=1.0, end_time_s=60), None, "spm",
+                            "single")
+    tables = json.loads(run.attrs["cell_tables"])
+    assert tables["cell.ocv_table"]["file"] == "ocv.csv"
+    assert len(tables["cell.ocv_table"]["sha256"]) == 64
+    page = _Page()
+    page.feed(render_report(run))
+    assert "Cell table cell.ocv_table" in page.body and "ocv.csv" in page.body
+    assert str(tmp_path) not in page.body
