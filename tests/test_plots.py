@@ -236,3 +236,51 @@ def test_real_run_plots(real):
     parts = sum(np.asarray(tr.y) for tr in heat.data if tr.stackgroup or "signed" in (tr.name or ""))
     total = next(tr for tr in heat.data if tr.name.startswith("total generated"))
     np.testing.assert_allclose(parts, np.asarray(total.y), rtol=1e-9, atol=1e-9)
+
+
+def test_field_drawn_to_the_cell_aspect_with_tabs_and_cooling_outlined(ds):
+    import json
+
+    import explorer
+
+    cell = explorer.load_cell("van_nmc_66ah")  # invented demo cell: 240 x 160 mm, tabs on top
+    fig = plots.field_figure(ds, "temperature", animate=False, cell=cell)
+    g = cell.geometry
+    width, height = g.width_m * 1e3, g.height_m * 1e3
+    # the axes span the face (and the room for the tabs): equal scale, so true aspect
+    x0, x1 = fig.layout.xaxis.range
+    y0, y1 = fig.layout.yaxis.range
+    assert x0 < 0 < width < x1 and y0 < 0 < height < y1
+    assert fig.layout.yaxis.scaleanchor == "x" and fig.layout.yaxis.scaleratio == 1
+    assert fig.layout.height >= 300  # not a strip of a heat map
+    names = [s.name for s in fig.layout.shapes]
+    assert "cell outline" in names and "cooled edge" in names
+    tabs = [s for s in fig.layout.shapes if (s.name or "").startswith("tab ")]
+    assert len(tabs) == len(g.tabs)
+    for tab, shape in zip(g.tabs, tabs):  # top-edge tabs stand above the face at their place
+        assert shape.y0 == pytest.approx(height)
+        assert (shape.x0 + shape.x1) / 2 == pytest.approx(tab.position_m * 1e3)
+    edge = next(s for s in fig.layout.shapes if s.name == "cooled edge")
+    assert edge.y0 == edge.y1 < 0  # the plate under the bottom edge
+    # a plate under a face: its footprint, dashed; cooled tabs are marked
+    face = ds.copy()
+    face.attrs["cooling"] = json.dumps({"kind": "combined", "parts": [
+        {"kind": "face_plate", "face": "back"}, {"kind": "tab_cooling"}]})
+    fig = plots.field_figure(face, "temperature", animate=False, cell=cell)
+    footprint = next(s for s in fig.layout.shapes if s.name == "plate footprint")
+    assert footprint.line.dash == "dash" and "back face" in fig.layout.xaxis.title.text
+    assert all("cooled" in s.label.text for s in fig.layout.shapes
+               if (s.name or "").startswith("tab "))
+
+
+def test_uniform_soc_is_said_and_pinned_runs_share_one_colour_range(ds):
+    assert plots.field_is_uniform(ds, "soc") == bool(
+        np.all(np.ptp(ds["soc"].values, axis=(1, 2)) == 0))
+    assert not plots.field_is_uniform(ds, "temperature")
+    hotter = ds.copy()
+    hotter["temperature"] = ds["temperature"] + 10.0
+    lo, hi = plots.color_range({"a": ds, "b": hotter}, "temperature")
+    assert lo == pytest.approx(float(ds["temperature"].min()))
+    assert hi == pytest.approx(float(hotter["temperature"].max()))
+    fig = plots.field_figure(ds, "temperature", color_range=(lo, hi), max_frames=5)
+    assert all(fr.data[0].zmin == lo and fr.data[0].zmax == hi for fr in fig.frames)
