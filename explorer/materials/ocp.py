@@ -17,6 +17,7 @@ as measured tables.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -52,6 +53,9 @@ class OpenCircuitPotential:
     source: str
     _potential: Callable = None
     _entropic: Callable = None
+    # optional: sto (a float, clipped) -> (U, dU/dT) as floats, the same curves evaluated with
+    # the math module (the rods call them once per step: numpy costs far more on one number)
+    _scalar: Callable = None
 
     def potential(self, sto):
         """Open-circuit potential in V vs Li/Li+ at 298.15 K, vectorised over ``sto``."""
@@ -60,6 +64,15 @@ class OpenCircuitPotential:
     def entropic(self, sto):
         """Entropic coefficient dU/dT in V/K, vectorised over ``sto``."""
         return self._entropic(_clip(sto))
+
+    def at(self, sto: float) -> tuple[float, float]:
+        """``(potential V, dU/dT V/K)`` at one stoichiometry, as Python floats (clipped as
+        :meth:`potential` clips)."""
+        sto = float(sto)
+        x = STO_CLIP if sto < STO_CLIP else 1.0 - STO_CLIP if sto > 1.0 - STO_CLIP else sto
+        if self._scalar is not None:
+            return self._scalar(x)
+        return float(self._potential(x)), float(self._entropic(x))
 
     def __call__(self, sto, temperature_K=298.15):
         """Potential at ``temperature_K`` by the linear entropic correction U + dU/dT (T - 298.15)."""
@@ -84,20 +97,22 @@ GRAPHITE_POINTS = np.array([
     (0.96, 0.075), (0.99, 0.060)])
 
 
-def _fall(x, centre, width):
+def _fall(x, centre, width, m=np):
     """A smooth step from 1 to 0 across ``centre`` (falling in x)."""
-    return 0.5 * (1.0 - np.tanh((x - centre) / width))
+    return 0.5 * (1.0 - m.tanh((x - centre) / width))
 
 
-def _graphite_u(x):
+# Each curve takes ``m``, the module whose exp and tanh it uses: numpy (arrays) by default,
+# :mod:`math` for the one-number evaluations of OpenCircuitPotential.at.
+def _graphite_u(x, m=np):
     return (
         0.1031
-        + 0.2884 * np.exp(-x / 0.006068)
-        + 0.8506 * np.exp(-x / 0.02799)
-        + 0.07242 * _fall(x, 0.2281, 0.05698)
-        + 0.02508 * _fall(x, 0.5095, 0.04417)
+        + 0.2884 * m.exp(-x / 0.006068)
+        + 0.8506 * m.exp(-x / 0.02799)
+        + 0.07242 * _fall(x, 0.2281, 0.05698, m)
+        + 0.02508 * _fall(x, 0.5095, 0.04417, m)
         - 0.02288 * x
-        - 0.03057 * np.exp((x - 1.0) / 0.02494)
+        - 0.03057 * m.exp((x - 1.0) / 0.02494)
     )
 
 
@@ -105,11 +120,11 @@ def _graphite_u(x):
 # Reynier, Yazami & Fultz, J. Electrochem. Soc. 151 (2004) A422 (positive, a few tenths of
 # mV/K, at low lithiation; negative, about -0.1 mV/K, through the stage-2 region; near zero
 # when full). Coefficients invented for the demo.
-def _graphite_dudt(x):
+def _graphite_dudt(x, m=np):
     return (
-        3.0e-4 * np.exp(-x / 0.07)
-        - 1.0e-4 * 0.5 * (np.tanh((x - 0.17) / 0.04) - np.tanh((x - 0.55) / 0.05))
-        - 2.0e-5 * 0.5 * (1.0 + np.tanh((x - 0.7) / 0.05))
+        3.0e-4 * m.exp(-x / 0.07)
+        - 1.0e-4 * 0.5 * (m.tanh((x - 0.17) / 0.04) - m.tanh((x - 0.55) / 0.05))
+        - 2.0e-5 * 0.5 * (1.0 + m.tanh((x - 0.7) / 0.05))
     )
 
 
@@ -127,20 +142,20 @@ NMC_POINTS = np.array([
     (0.98, 3.15)])
 
 
-def _nmc_u(x):
+def _nmc_u(x, m=np):
     return (
         4.054
         - 0.5576 * x
-        - 0.6645 * np.exp((x - 1.0) / 0.03591)
-        + 0.9655 * np.exp(-x / 0.2666)
+        - 0.6645 * m.exp((x - 1.0) / 0.03591)
+        + 0.9655 * m.exp(-x / 0.2666)
     )
 
 
 # Entropic coefficient: magnitude (within about +-0.1 mV/K, going negative as the
 # electrode fills) from memory of the layered-oxide measurements in Viswanathan, Choi, Wang,
 # Xiao, Liu & Zhang, J. Power Sources 195 (2010) 3720. Coefficients invented for the demo.
-def _nmc_dudt(x):
-    return 6.0e-5 - 1.4e-4 * x + 5.0e-5 * np.exp(-((x - 0.45) / 0.12) ** 2)
+def _nmc_dudt(x, m=np):
+    return 6.0e-5 - 1.4e-4 * x + 5.0e-5 * m.exp(-((x - 0.45) / 0.12) ** 2)
 
 
 # --- LFP (LiFePO4) ------------------------------------------------------------------------
@@ -148,22 +163,27 @@ def _nmc_dudt(x):
 # plateau near 3.43 V vs Li/Li+, a steep rise as the electrode empties and a steep fall as it
 # fills), e.g. Safari & Delacourt, J. Electrochem. Soc. 158 (2011) A562. Invented
 # coefficients, for the demo.
-def _lfp_u(x):
+def _lfp_u(x, m=np):
     return (
         3.428
         - 0.025 * (x - 0.5)
-        + 0.30 * np.exp(-x / 0.025)
-        + 0.04 * np.exp(-x / 0.12)
-        - 0.60 * np.exp(-(1.0 - x) / 0.018)
-        - 0.05 * np.exp(-(1.0 - x) / 0.08)
+        + 0.30 * m.exp(-x / 0.025)
+        + 0.04 * m.exp(-x / 0.12)
+        - 0.60 * m.exp(-(1.0 - x) / 0.018)
+        - 0.05 * m.exp(-(1.0 - x) / 0.08)
     )
 
 
 # Entropic coefficient: small on the plateau (a few tens of uV/K), larger at the ends;
 # magnitude from memory of Forgez, Do, Friedrich, Morcrette & Delacourt, J. Power Sources
 # 195 (2010) 2961. Coefficients invented for the demo.
-def _lfp_dudt(x):
-    return -3.0e-5 + 1.5e-4 * np.exp(-x / 0.05) - 1.5e-4 * np.exp(-(1.0 - x) / 0.05)
+def _lfp_dudt(x, m=np):
+    return -3.0e-5 + 1.5e-4 * m.exp(-x / 0.05) - 1.5e-4 * m.exp(-(1.0 - x) / 0.05)
+
+
+def _scalar(potential, entropic):
+    """The one-number form of a curve pair (math instead of numpy)."""
+    return lambda x: (potential(x, math), entropic(x, math))
 
 
 class _MaterialCurves(dict):
@@ -192,6 +212,7 @@ OCP: dict[str, OpenCircuitPotential] = _MaterialCurves({
         "J. Electrochem. Soc. 151 (2004) A422, invented coefficients, for the demo",
         _graphite_u,
         _graphite_dudt,
+        _scalar(_graphite_u, _graphite_dudt),
     ),
     "nmc": OpenCircuitPotential(
         "nmc",
@@ -201,6 +222,7 @@ OCP: dict[str, OpenCircuitPotential] = _MaterialCurves({
         "J. Power Sources 195 (2010) 3720, invented coefficients, for the demo",
         _nmc_u,
         _nmc_dudt,
+        _scalar(_nmc_u, _nmc_dudt),
     ),
     "lfp": OpenCircuitPotential(
         "lfp",
@@ -210,5 +232,6 @@ OCP: dict[str, OpenCircuitPotential] = _MaterialCurves({
         "et al., J. Power Sources 195 (2010) 2961, invented coefficients, for the demo",
         _lfp_u,
         _lfp_dudt,
+        _scalar(_lfp_u, _lfp_dudt),
     ),
 })

@@ -49,6 +49,31 @@ class RodBatch:
     heat_W: dict
 
 
+class _AtTemperature:
+    """What a step needs of one temperature (:meth:`SPM._at`): ``f`` the Arrhenius factors
+    (list, in :meth:`SPM._activation_energies` order), ``rate_lam`` every mode's decay rate,
+    ``extrap`` the two surface extrapolations per ampere, and the voltage terms' constants
+    (:meth:`SPM._fill_constants`)."""
+
+    __slots__ = ("T", "f", "rate_lam", "extrap", "rate", "gF", "two_over_f", "kappa_f", "nu")
+
+
+class _StepOperator:
+    """One step's linear part at ``(dt, T)`` (:meth:`SPM._operator`)."""
+
+    __slots__ = ("at", "dt", "d", "q", "surf_q")
+
+
+def ocp_at(ocp):
+    """``sto -> (U, dU/dT)`` as Python floats for one stoichiometry: the curve's own ``at``
+    (:meth:`explorer.materials.ocp.OpenCircuitPotential.at`) or, for another curve object,
+    its ``potential`` and ``entropic``."""
+    at = getattr(ocp, "at", None)
+    if at is not None:
+        return at
+    return lambda sto: (float(ocp.potential(sto)), float(ocp.entropic(sto)))
+
+
 def check_step_inputs(dt, temperature_K, series_resistance_ohm):
     """Validate the scalar step inputs; return them as floats."""
     try:
@@ -104,9 +129,15 @@ class SPM(RodModel):
         self.current_1C_A = params.capacity_Ah
         self.size = 2 * self.nr + self._extra_size() + 1
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
-        self._ops: dict = {}
+        self._ops: dict = {}  # (dt, T) -> _StepOperator
+        self._temps: dict = {}  # T -> _AtTemperature
         self._ea = np.array(self._activation_energies())
         self._cmax = np.array([e.max_concentration_mol_m3 for e in self._electrodes])
+        self._cmax_f = tuple(self._cmax.tolist())
+        self._ocp_at = tuple(ocp_at(e.ocp) for e in self._electrodes)
+        self._ce_slice = None  # the electrolyte's part of the state (SPMe)
+        # the negative electrode's bulk stoichiometry from its shells, for the SOC
+        self._mean_sto_n = self.shells.weights / params.negative.max_concentration_mol_m3
         self._blocks = None  # the stacked linear parts (_plan), built on first use: subclasses
         # finish their parts after this
 
@@ -184,10 +215,14 @@ class SPM(RodModel):
         return [e.diffusivity_m2_s * f[k] / e.particle_radius_m ** 2
                 for k, e in enumerate(self._electrodes)]
 
-    def _constants(self, T, f):
-        """Temperature-dependent constants of the voltage terms."""
+    def _fill_constants(self, at):
+        """The temperature-dependent constants of the voltage terms, on ``at`` (its ``f`` is
+        the list of Arrhenius factors in :meth:`_activation_energies` order)."""
         n, p = self._electrodes
-        return {"rate": (n.rate_constant * f[2], p.rate_constant * f[3])}
+        f = at.f
+        at.rate = (n.rate_constant * f[2], p.rate_constant * f[3])
+        at.gF = (FARADAY * at.rate[0], FARADAY * at.rate[1])
+        at.two_over_f = 2.0 * GAS_CONSTANT * at.T / FARADAY
 
     def _plan(self):
         """The linear parts stacked once: block-diagonal eigenbases, their eigenvalues and the
@@ -219,62 +254,97 @@ class SPM(RodModel):
                 "Vtb": np.concatenate([m.V.T @ b for _, m, b in blocks]),
                 "outer": np.array(self._outer), "surf_c": surf_c}
 
-    def _operator(self, dt, T):
-        """The whole step's linear part: ``new = V diag(d) V'W old + q I``, cached per (dt, T)."""
-        key = (dt, T)
-        op = self._ops.get(key)
-        if op is not None:
-            return op
+    def _at(self, T) -> _AtTemperature:
+        """What the steps need of temperature ``T``, cached: the Arrhenius factors, every
+        mode's decay rate and the voltage terms' constants (a thermal run changes the
+        temperature on every accepted step, and retries a step at the same one)."""
+        at = self._temps.get(T)
+        if at is not None:
+            return at
         plan = self._blocks
         if plan is None:
             plan = self._blocks = self._plan()
         # every property's Arrhenius factor (explorer.materials.arrhenius) in one call
         f = np.exp(plan["ea_R"] * (1.0 / REFERENCE_K - 1.0 / T))
-        # backward Euler in each part's eigenbasis: every mode decays by 1 / (1 + dt s lam)
+        at = _AtTemperature()
+        at.T, at.f = T, f.tolist()
         if plan["RL"] is not None:
-            d = 1.0 / (1.0 + dt * (plan["RL"] @ f))
+            at.rate_lam = plan["RL"] @ f
         else:
-            scale = np.repeat(np.asarray(self._rates(f), dtype=float) * dt, plan["sizes"])
-            d = 1.0 / (1.0 + scale * plan["lam"])
-        q = plan["V"] @ (plan["Vtb"] * (dt * d))
-        # surface = value of the outer shell minus the extrapolation to the surface
-        surf_q = q[plan["outer"]] - plan["surf_c"] / f[:2]
-        op = {"d": d, "q": q, "surf_q": surf_q, "T": T, **self._constants(T, f)}
+            at.rate_lam = np.repeat(np.asarray(self._rates(f), dtype=float),
+                                    plan["sizes"]) * plan["lam"]
+        # surface = outer shell's value less the extrapolation to the surface, per ampere
+        at.extrap = (plan["surf_c"][0] / at.f[0], plan["surf_c"][1] / at.f[1])
+        self._fill_constants(at)
+        if len(self._temps) >= CACHE_SIZE:
+            self._temps.clear()
+        self._temps[T] = at
+        return at
+
+    def _operator(self, dt, T) -> _StepOperator:
+        """The whole step's linear part at ``(dt, T)``, cached: backward Euler in each part's
+        eigenbasis, every mode decays by ``d = 1 / (1 + dt s lam)``; the response per ampere
+        ``q`` is made only when a control needs the current solved for (:meth:`_response`)."""
+        key = (dt, T)
+        op = self._ops.get(key)
+        if op is not None:
+            return op
+        op = _StepOperator()
+        op.at = at = self._at(T)
+        op.dt, op.d, op.q, op.surf_q = dt, 1.0 / (1.0 + dt * at.rate_lam), None, None
         if len(self._ops) >= CACHE_SIZE:
             self._ops.clear()
         self._ops[key] = op
         return op
 
-    def _linear_step(self, op, x, dt):
-        """``(base, q)``: the step's new state (less the current entry) is ``base + I q``."""
-        plan = self._blocks
-        return plan["V"] @ (op["d"] * (plan["VtW"] @ x[:-1])), op["q"]
+    def _response(self, op):
+        """``(q, surf_q)``: the new state (less its current entry) and the two particle
+        surfaces per ampere of the step's current."""
+        if op.q is None:
+            plan = self._blocks
+            q = plan["V"] @ (plan["Vtb"] * (op.dt * op.d))
+            o_n, o_p = self._outer
+            op.surf_q = (q.item(o_n) - op.at.extrap[0], q.item(o_p) - op.at.extrap[1])
+            op.q = q
+        return op.q, op.surf_q
 
-    def _electrolyte_terms(self, op, lin, I, cs):
-        """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal electrolyte."""
-        c0 = self.params.electrolyte.initial_concentration_mol_m3
-        T = op["T"]
+    def _surfaces(self, base, q, surf_q, I):
+        """``(cs_n, cs_p, c_e)`` of the new state ``base + I q`` (``c_e`` None: no electrolyte)."""
+        o_n, o_p = self._outer
+        sl = self._ce_slice
+        return (base.item(o_n) + I * surf_q[0], base.item(o_p) + I * surf_q[1],
+                None if sl is None else base[sl] + I * q[sl])
+
+    def _electrolyte_terms(self, at, I, cs_n, cs_p, ce):
+        """(eta_n, eta_p, dphi_e, solid drop, ohmic_e heat, ohmic_s heat) -- SPM: ideal
+        electrolyte, so only the reaction overpotentials (Python floats)."""
+        c0, T = self.params.electrolyte.initial_concentration_mol_m3, at.T
         etas = []
-        for k, e in enumerate(self._electrodes):
-            j0 = exchange_current(op["rate"][k], c0, cs[k], e.max_concentration_mol_m3,
-                                  e.charge_transfer_coefficient)
-            etas.append(float(overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)))
+        for k, (e, cs) in enumerate(zip(self._electrodes, (cs_n, cs_p))):
+            cmax, alpha = self._cmax_f[k], e.charge_transfer_coefficient
+            if alpha == 0.5:  # closed-form inverse Butler-Volmer (explorer.rod.kinetics)
+                j0 = at.gF[k] * math.sqrt(c0 * (cmax - cs) * cs)
+                etas.append(at.two_over_f * math.asinh(I * self._j_per_A[k] / (2.0 * j0)))
+            else:
+                j0 = exchange_current(at.rate[k], c0, cs, cmax, alpha)
+                etas.append(float(overpotential(I * self._j_per_A[k], j0, alpha, T)))
         return etas[0], etas[1], 0.0, 0.0, 0.0, 0.0
 
-    def _evaluate(self, op, lin, I, R, full=False):
-        """Terminal voltage at current ``I`` (NaN outside the physical range), or all details."""
-        T = op["T"]
-        base = lin[0]
-        cs = (base[self._outer[0]] + I * op["surf_q"][0], base[self._outer[1]] + I * op["surf_q"][1])
-        for k, e in enumerate(self._electrodes):
-            if not 0.0 < cs[k] < e.max_concentration_mol_m3:
-                if full:
-                    raise RodStepError(
-                        f"{self.name}: the {e.name} particle surface would reach stoichiometry "
-                        f"{cs[k] / e.max_concentration_mol_m3:.4f} (outside (0, 1)) at {I:.4g} A "
-                        "within this step; reduce the step or the current")
-                return math.nan
-        terms = self._electrolyte_terms(op, lin, I, cs)
+    def _evaluate(self, at, I, R, cs_n, cs_p, ce, full=False):
+        """Terminal voltage at current ``I`` for the new surfaces ``cs_n, cs_p`` and salt
+        ``ce`` (NaN outside the physical range); with ``full``, ``(ocv, v_term, (dU_n/dT,
+        dU_p/dT), terms)`` and a :class:`RodStepError` outside the range."""
+        cmax_n, cmax_p = self._cmax_f
+        if not (0.0 < cs_n < cmax_n and 0.0 < cs_p < cmax_p):
+            if full:
+                for e, cs, cmax in zip(self._electrodes, (cs_n, cs_p), self._cmax_f):
+                    if not 0.0 < cs < cmax:
+                        raise RodStepError(
+                            f"{self.name}: the {e.name} particle surface would reach "
+                            f"stoichiometry {cs / cmax:.4f} (outside (0, 1)) at {I:.4g} A "
+                            "within this step; reduce the step or the current")
+            return math.nan
+        terms = self._electrolyte_terms(at, I, cs_n, cs_p, ce)
         if terms is None:
             if full:
                 raise RodStepError(
@@ -283,18 +353,13 @@ class SPM(RodModel):
                     "(cold cell or high rate), outside the SPMe's validity: use the DFN")
             return math.nan
         eta_n, eta_p, dphi_e, solid_drop = terms[:4]
-        n, p = self._electrodes
-        sto_n = cs[0] / n.max_concentration_mol_m3
-        sto_p = cs[1] / p.max_concentration_mol_m3
-        dT = T - REFERENCE_K
-        ds_n, ds_p = float(n.entropic(sto_n)), float(p.entropic(sto_p))
-        ocv = float(p.ocp.potential(sto_p) - n.ocp.potential(sto_n)) + (ds_p - ds_n) * dT
-        v_rod = ocv + eta_p - eta_n + dphi_e - solid_drop
-        v_term = v_rod - I * R
+        u_n, ds_n = self._ocp_at[0](cs_n / cmax_n)
+        u_p, ds_p = self._ocp_at[1](cs_p / cmax_p)
+        ocv = (u_p - u_n) + (ds_p - ds_n) * (at.T - REFERENCE_K)
+        v_term = ocv + eta_p - eta_n + dphi_e - solid_drop - I * R
         if not full:
             return v_term
-        return {"sto": (sto_n, sto_p), "ocv": ocv, "v_term": v_term, "eta": (eta_n, eta_p),
-                "dudt": (ds_n, ds_p), "terms": terms}
+        return ocv, v_term, (ds_n, ds_p), terms
 
     def solve_current_batch(self, states, dt, temperatures_K, currents_A) -> RodBatch:
         """Current-controlled steps of several rods of this model at once (a grid of rods):
@@ -353,26 +418,34 @@ class SPM(RodModel):
         dt, T, R = check_step_inputs(dt, temperature_K, series_resistance_ohm)
         x = self._check_state(state)
         op = self._operator(dt, T)
-        lin = self._linear_step(op, x, dt)  # new state = lin[0] + I lin[1]
+        at, plan = op.at, self._blocks
+        modal = plan["VtW"] @ x[:-1]
+        new = np.empty(self.size)
         if kind == "current":
             current = value
+            # the current is known: new = V diag(d) (V'W old + dt V'b I), one product back
+            np.matmul(plan["V"], (modal + (current * dt) * plan["Vtb"]) * op.d, out=new[:-1])
+            o_n, o_p = self._outer
+            sl = self._ce_slice
+            surfaces = (new.item(o_n) - current * at.extrap[0],
+                        new.item(o_p) - current * at.extrap[1], None if sl is None else new[sl])
         else:
-            guess = x[-1] if kind == "voltage" else 0.0
-            current = solve_current(lambda i: self._evaluate(op, lin, i, R), kind, value, guess,
-                                    self.current_1C_A)
-        out = self._evaluate(op, lin, current, R, full=True)
-        new = np.empty(self.size)
-        new[:-1] = lin[0] + current * lin[1]
+            base = plan["V"] @ (op.d * modal)  # new state = base + I q
+            q, surf_q = self._response(op)
+            guess = float(x[-1]) if kind == "voltage" else 0.0
+            current = solve_current(
+                lambda i: self._evaluate(at, i, R, *self._surfaces(base, q, surf_q, i)),
+                kind, value, guess, self.current_1C_A)
+            surfaces = self._surfaces(base, q, surf_q, current)
+            np.add(base, current * q, out=new[:-1])
         new[-1] = current
-        eta_n, eta_p = out["eta"]
-        ds_n, ds_p = out["dudt"]
+        ocv, v_term, (ds_n, ds_p), terms = self._evaluate(at, current, R, *surfaces, full=True)
         heat = heat_split(
-            irreversible=current * (eta_n - eta_p),
+            irreversible=current * (terms[0] - terms[1]),
             reversible=current * T * (ds_n - ds_p),
-            ohmic_electrolyte=out["terms"][4],
-            ohmic_solid=out["terms"][5],
+            ohmic_electrolyte=terms[4],
+            ohmic_solid=terms[5],
         )
-        soc = self.params.soc_from_negative(
-            float(self.shells.weights @ new[:self.nr]) / self.params.negative.max_concentration_mol_m3)
-        return StepResult(state=new, current_A=float(current), voltage_V=float(out["v_term"]),
-                          ocv_V=out["ocv"], soc=float(soc), heat_W=heat, iterations=1)
+        soc = self.params.soc_from_negative(float(self._mean_sto_n @ new[:self.nr]))
+        return StepResult(state=new, current_A=float(current), voltage_V=float(v_term),
+                          ocv_V=float(ocv), soc=float(soc), heat_W=heat, iterations=1)

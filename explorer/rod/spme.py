@@ -33,6 +33,8 @@ State layout: ``[c_n shells, c_p shells, c_e cells, I]``.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from explorer.rod.kinetics import exchange_current, overpotential
@@ -89,6 +91,21 @@ class SPMe(SPM):
         self._average = np.vstack([self._pick_n / nn, self._pick_p / np_])
         self._symmetric = (n.charge_transfer_coefficient == 0.5
                            and p.charge_transfer_coefficient == 0.5)
+        # the per-step sums over the cells (see _electrolyte_terms): sum_f shape_f (ln c_R -
+        # ln c_L) and sum_f shape_f (hl_f / (eps^b kappa)_L + hr_f / (eps^b kappa)_R) per ampere
+        shape = xm.reaction_shape
+        self._ln_weights = np.zeros(xm.nx)
+        self._ln_weights[1:] += shape
+        self._ln_weights[:-1] -= shape
+        self._resistive_weights = np.zeros(xm.nx)
+        self._resistive_weights[:-1] += shape * self._hl_i / xm.transport[:-1]
+        self._resistive_weights[1:] += shape * self._hr_i / xm.transport[1:]
+        self._conductivity = el.conductivity
+        # the electrode averages over all cells (zero weight in the separator)
+        self._average_cells = np.zeros((2, xm.nx))
+        self._average_cells[0, xm.neg] = 1.0 / nn
+        self._average_cells[1, xm.pos] = 1.0 / np_
+        self._half_j = (0.5 * self._j_per_A[0], 0.5 * self._j_per_A[1])
 
     def _extra_size(self) -> int:
         return ThroughMesh(self.params, self.mesh).nx
@@ -107,46 +124,46 @@ class SPMe(SPM):
     def _rates(self, f):
         return super()._rates(f) + [self._de0 * f[5]]
 
-    def _constants(self, T, f):
-        const = super()._constants(T, f)
-        xm = self.x_mesh
-        const["kappa_factor"] = f[4] * xm.transport
-        const["nu"] = self.params.electrolyte.diffusion_potential_V(T)
-        rate_n, rate_p = const["rate"]
-        const["jf_cells"] = self._faraday_n * rate_n + self._faraday_p * rate_p
-        const["two_over_f"] = 2.0 * GAS_CONSTANT * T / FARADAY
-        return const
+    def _fill_constants(self, at):
+        super()._fill_constants(at)
+        at.kappa_f = at.f[4]
+        at.nu = self.params.electrolyte.diffusion_potential_V(at.T)
 
-    def _reaction_overpotentials(self, op, ce, I, cs):
+    def _reaction_overpotentials(self, at, ce, I, cs_n, cs_p):
         """Electrode-averaged overpotentials (eta_n, eta_p) with the local salt in j0."""
-        xm, T = self.x_mesh, op["T"]
-        if self._symmetric:  # alpha = 1/2 in both: closed-form inverse over all cells at once
-            cse = self._pick_n * cs[0] + self._pick_p * cs[1]
-            j0 = op["jf_cells"] * np.sqrt(ce[self._ecells] * (self._cmax_cells - cse) * cse)
-            eta = op["two_over_f"] * np.arcsinh(I * self._half_j_cells / j0)
-            avg = self._average @ eta
-            return float(avg[0]), float(avg[1])
+        if self._symmetric:
+            # alpha = 1/2 in both: j0 = F k sqrt(c_e (c_max - c_s) c_s) factors into the
+            # electrode's surface part (a number) and sqrt(c_e) per cell, so the closed-form
+            # inverse runs over all cells at once (zero in the separator)
+            arg = np.empty(self.x_mesh.nx)
+            nn, pos = self.x_mesh.nn, self.x_mesh.pos.start
+            cmax_n, cmax_p = self._cmax_f
+            arg[:nn] = I * self._half_j[0] / (at.gF[0] * math.sqrt((cmax_n - cs_n) * cs_n))
+            arg[nn:pos] = 0.0
+            arg[pos:] = I * self._half_j[1] / (at.gF[1] * math.sqrt((cmax_p - cs_p) * cs_p))
+            eta_n, eta_p = (self._average_cells @ np.arcsinh(arg / np.sqrt(ce))).tolist()
+            return at.two_over_f * eta_n, at.two_over_f * eta_p
+        xm, T = self.x_mesh, at.T
         etas = []
-        for k, (e, cells) in enumerate(zip(self._electrodes, (xm.neg, xm.pos))):
-            j0 = exchange_current(op["rate"][k], ce[cells], cs[k], e.max_concentration_mol_m3,
+        for k, (e, cells, cs) in enumerate(zip(self._electrodes, (xm.neg, xm.pos), (cs_n, cs_p))):
+            j0 = exchange_current(at.rate[k], ce[cells], cs, e.max_concentration_mol_m3,
                                   e.charge_transfer_coefficient)
             eta = overpotential(I * self._j_per_A[k], j0, e.charge_transfer_coefficient, T)
             etas.append(float(eta.sum()) / eta.size)  # equal cells within an electrode
         return etas[0], etas[1]
 
-    def _electrolyte_terms(self, op, lin, I, cs):
-        sl = self._ce_slice
-        ce = lin[0][sl] + I * lin[1][sl]
+    def _electrolyte_terms(self, at, I, cs_n, cs_p, ce):
         if ce.min() <= 0.0:
             return None
-        eta_n, eta_p = self._reaction_overpotentials(op, ce, I, cs)
-        kappa = self.params.electrolyte.conductivity(ce) * op["kappa_factor"]
-        lc = np.log(ce)
-        # phi_R - phi_L across each face: diffusion potential minus i_f / K_f, with the face
-        # conductance K_f of the two half cells in series
-        dphi = op["nu"] * (lc[1:] - lc[:-1]) - I * (self._hl_i / kappa[:-1] + self._hr_i / kappa[1:])
-        # <phi>_p - <phi>_n = sum_f shape_f dphi_f (summation by parts on the mesh)
-        dphi_e = float(self.x_mesh.reaction_shape @ dphi)
+        eta_n, eta_p = self._reaction_overpotentials(at, ce, I, cs_n, cs_p)
+        # <phi>_p - <phi>_n = sum_f shape_f dphi_f (summation by parts on the mesh), with
+        # dphi_f = phi_R - phi_L across face f: the diffusion potential nu (ln c_R - ln c_L)
+        # less i_f / K_f (the face conductance K_f of its two half cells in series); both
+        # sums are taken per cell (weights made once, :meth:`__init__`), kappa_eff = f(T)
+        # eps^b kappa(c)
+        diffusion = float(self._ln_weights @ np.log(ce))
+        ohmic = float(self._resistive_weights @ (1.0 / self._conductivity(ce)))
+        dphi_e = at.nu * diffusion - I * ohmic / at.kappa_f
         solid_drop = I * self._solid_drop_per_A
         # Joule heat A sum_f i_f (phi_L - phi_R) = -I dphi_e by the same summation by parts
         return eta_n, eta_p, dphi_e, solid_drop, -I * dphi_e, I * solid_drop
