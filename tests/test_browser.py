@@ -125,8 +125,11 @@ class _Lab:
         notices.mkdir(parents=True)  # no "get notified about news?" toast over the page
         (notices / "notification.jupyterlab-settings").write_text(
             json.dumps({"fetchNews": "false", "checkForUpdates": False}))
+        # private config, data and runtime folders: no user kernel or setting steps in; the
+        # kernel is this environment's Python (ipykernel's spec in sys.prefix)
         env = {**os.environ, "JUPYTER_CONFIG_DIR": str(home / "config"),
-               "JUPYTER_RUNTIME_DIR": str(home / "runtime"), "PYTHONUNBUFFERED": "1"}
+               "JUPYTER_DATA_DIR": str(home / "data"), "JUPYTER_RUNTIME_DIR": str(home / "runtime"),
+               "JUPYTER_PREFER_ENV_PATH": "1", "PYTHONUNBUFFERED": "1"}
         self.log = open(root / "jupyterlab.log", "w")  # noqa: SIM115 (closed in stop)
         self.proc = subprocess.Popen(
             [sys.executable, "-m", "jupyter", "lab", "--no-browser", "--allow-root",
