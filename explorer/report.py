@@ -139,8 +139,8 @@ def format_figure(name: str, value) -> tuple[str, str]:
             text = "—"
         elif fmt == "pct":
             text = f"{100.0 * v:.1f}"
-        elif fmt == "kJ":
-            text = f"{v / 1e3:.1f}"
+        elif fmt == "kJ":  # 29.1, 183.1; a small heat keeps its digits (0.0327, not 0.0)
+            text = f"{v / 1e3:.1f}" if abs(v) >= 1e4 else f"{v / 1e3:.3g}"
         else:
             text = fmt.format(v) if fmt != "{}" else f"{v:.4g}"
     else:
@@ -230,6 +230,12 @@ def limits_rows(ds, limits) -> list[tuple[str, str, str, str, str]]:
         return []
     from explorer.limits import LONG_NAMES, UNITS
 
+    status = str(ds.attrs.get("status", "completed"))
+    early = ""
+    if status != "completed" and "time" in ds.coords and ds.sizes["time"]:
+        what = {"cut_short": "was cut short", "stopped": "was interrupted"}.get(status, status)
+        early = (f" (over the first {float(ds['time'].values[-1]):.0f} s only: the run "
+                 f"{what}; see the warnings)")
     rows = []
     for name, margin in result["margins"].items():
         verdict = result["verdicts"][name]
@@ -253,6 +259,8 @@ def limits_rows(ds, limits) -> list[tuple[str, str, str, str, str]]:
         text = {"met": "met", "not met": "NOT met"}.get(verdict, "not evaluated")
         if name in result["reasons"]:
             text += f": {result['reasons'][name]}"
+        if early and verdict in ("met", "not met"):  # every verdict carries an early end
+            text += early
         rows.append((f"{name}: {LONG_NAMES.get(name, name)}", f"{getattr(limits, name):.4g} {unit}",
                      shown, margin_text, text))
     return rows
@@ -425,9 +433,7 @@ def _first_screen(page: _Page, ds, name: str, limits, prefix: str) -> None:
                  "recorded)"}[source]
         page.add(f"<p><span class='{cls}'>{_esc(overall)}</span> Held against {_esc(where)}; "
                  "margin = limit − figure, positive when met.</p>")
-        cells = [[_esc(c) for c in row[:4]]
-                 + [f"<span class='{'verdict-met' if row[4] == 'met' else 'verdict-not'}'>"
-                    f"{_esc(row[4])}</span>"] for row in rows]
+        cells = [[_esc(c) for c in row[:4]] + [_verdict_cell(row[4])] for row in rows]
         page.add(_table(cells, header=("limit", "limit value", "figure", "margin", "verdict")))
     elif not rows:
         page.add("<p class='meta'>No limits to hold the run against.</p>")
@@ -439,6 +445,14 @@ def _first_screen(page: _Page, ds, name: str, limits, prefix: str) -> None:
     else:
         page.add("<p>None: the duty ran to its end and no check raised a warning.</p>")
     page.add("</div>")
+
+
+def _verdict_cell(text: str) -> str:
+    """The verdict word coloured and kept on one line; its reason or caveat after it as plain,
+    wrapping text (a long reason in the coloured no-wrap style ran off the page)."""
+    word = next((w for w in ("not evaluated", "NOT met", "met") if text.startswith(w)), text)
+    cls = "verdict-met" if word == "met" else "verdict-not"
+    return f"<span class='{cls}'>{_esc(word)}</span>{_esc(text[len(word):])}"
 
 
 def _banner(notes: Sequence[str]) -> str:

@@ -145,12 +145,19 @@ def duty_words(step: Mapping) -> str:
     given = [e for e in step.get("ends", []) or [] if isinstance(e, Mapping)]
     timed = [e for e in given if e.get("quantity") == "time"]
     ends = [_end_words(e) for e in given if e.get("quantity") != "time"]
-    if step.get("default_limit", False) and kind in ("current", "power", "profile"):
+    # the voltage window ends a step that has no end of its own (explorer.duty.resolve);
+    # otherwise it only guards it, and reaching it cuts the duty short
+    guard = kind == "profile" or (kind in ("current", "power") and bool(given)
+                                  and not step.get("window_end"))
+    if step.get("default_limit", False) and kind in ("current", "power", "profile") \
+            and not guard:
         ends.append("the cell's voltage window")
     if timed:  # the step's own clock: "rest for 900 s", "... for 600 s or until ..."
         text += " for " + " or ".join(f"{number(e.get('threshold'))} s" for e in timed)
     if ends:
         text += (" or" if timed else "") + " until " + " or ".join(ends)
+    if guard and (step.get("default_limit", False) or kind == "profile"):
+        text += " (the cell's voltage window guards it: reaching it cuts the duty short)"
     return text
 
 
@@ -270,7 +277,7 @@ def input_rows(ds, given=None) -> list[tuple[str, str, str, str]]:
             if isinstance(step, Mapping):
                 group = f"duty step {k + 1}"
                 rows.append((group, "duty", duty_words(step), ""))
-                skip = ("kind", "ends", "label", "default_limit") + \
+                skip = ("kind", "ends", "label", "default_limit", "window_end") + \
                     (("value",) if step.get("kind") == "rest" else ())
                 rows += [(group, *r) for r in _flat(step, skip=skip)]
         cooling = inputs.get("cooling")

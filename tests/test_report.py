@@ -279,3 +279,38 @@ def test_margin_has_the_figures_decimals():
     assert parts.figure_and_margin(56.8857, 55.0 - 56.8857) == ("56.89", "-1.89")
     assert parts.figure_and_margin(0.26351, 5.0 - 0.26351) == ("0.2635", "+4.736")  # 3 places
     assert parts.figure_and_margin(1806.0, 1.0) == ("1806", "+1")
+
+
+def test_duty_words_say_when_the_window_only_guards_a_step():
+    # explorer.duty.resolve: the voltage window ends a step with no end of its own; for a
+    # profile or a step with its own end it is a guard whose reaching cuts the duty short
+    words = parts.duty_words
+    assert words({"kind": "current", "c_rate": 2, "default_limit": True, "ends": []}) == \
+        "2C discharge (constant current) until the cell's voltage window"
+    timed = words({"kind": "current", "c_rate": 2, "default_limit": True,
+                   "ends": [{"quantity": "time", "threshold": 300, "direction": "above"}]})
+    assert timed.startswith("2C discharge (constant current) for 300 s") and "guards" in timed
+    profile = words({"kind": "profile", "profile_quantity": "power", "source": "/a/route.csv",
+                     "default_limit": True, "ends": []})
+    assert "until" not in profile and "guards it" in profile and "/a/" not in profile
+    assert words({"kind": "rest", "ends": [{"quantity": "time", "threshold": 900}]}) == \
+        "rest for 900 s"
+
+
+def test_every_verdict_of_a_run_cut_short_carries_it(ds):
+    from explorer import Limits
+
+    short = ds.copy()
+    short.attrs.update(status="cut_short", status_message="cut short at t = 60 s (test)")
+    body = " ".join(" ".join(_parse(render_report(
+        short, limits=Limits(temperature_max_C=80.0, spread_K=0.001))).text).split())
+    t_end = float(ds["time"].values[-1])
+    note = f"(over the first {t_end:.0f} s only: the run was cut short; see the warnings)"
+    assert f"met {note}" in body and f"NOT met {note}" in body
+
+
+def test_small_heats_keep_their_digits():
+    from explorer.report import format_figure
+
+    assert format_figure("heat_generated_J", 32.72)[1] == "0.0327"
+    assert format_figure("heat_generated_J", 29100.0)[1] == "29.1"
