@@ -770,14 +770,27 @@ def sizing_figure(result, limits=None, vary: str | None = None) -> go.Figure:
         fig.add_trace(go.Scatter(x=[value], y=[float(np.interp(value, v, spread))], mode="markers",
                                  marker=dict(size=12, symbol="diamond", color="#000000"),
                                  showlegend=False, name="design point"), row=2, col=1)
-    verdict = f"design point {_axis_label(vary)} = {value:.4g}" if value is not None and feasible else \
+    verdict = f"design point {_design_label(vary)} = {value:.4g}" if value is not None and feasible else \
         "no value within the bounds meets the limits"
     fig.update_layout(**_LAYOUT)
     fig.update_layout(title=dict(text=f"Sizing: {verdict}"), height=560, hovermode="closest")
     fig.update_yaxes(title_text="Hottest point anywhere (°C)", row=1, col=1)
     fig.update_yaxes(title_text="In-cell spread (K)", row=2, col=1)
-    fig.update_xaxes(title_text=_axis_label(vary), row=2, col=1)
+    fig.update_xaxes(title_text=_design_label(vary), row=2, col=1)
     return fig
+
+
+def _design_label(name: str) -> str:
+    """A design parameter's axis label in words with its unit (``fin_mm`` -> ``fin thickness
+    (mm)``, from ``explorer.sizing.design_parameter``); else :func:`_axis_label`."""
+    try:
+        from explorer.sizing import design_parameter
+
+        p = design_parameter(name)
+    except (ImportError, ValueError, KeyError):  # not a design parameter
+        return _axis_label(name)
+    unit = {"degC": "°C", "W/(m2 K)": "W/(m² K)", "um": "µm", "1": ""}.get(p.unit, p.unit)
+    return f"{p.label} ({unit})" if unit else p.label
 
 
 def _axis_label(name: str) -> str:

@@ -177,7 +177,7 @@ def test_sizing_curve_design_point_and_limits():
     assert design[0].x[0] == pytest.approx(res.value)
     # the synthetic curve is 35 + 6/flow, so the design point sits on the 45 degC limit
     assert design[0].y[0] == pytest.approx(45.0, abs=0.6)
-    assert fig.layout.xaxis2.title.text == "flow (L/min)"
+    assert fig.layout.xaxis2.title.text == "coolant flow through the plate (L/min)"
     assert 45.0 in _hlines(fig) and 5.0 in _hlines(fig)
     res.feasible = False
     assert "no value" in plots.sizing_figure(res).layout.title.text
