@@ -10,6 +10,11 @@
   evaluated (reason)" from ``Limits.check``, with the run's warnings beside every verdict),
   :func:`~explorer.app.widget.module_html`, :func:`~explorer.app.widget.sizing_html`.
 
+In a notebook the app shows at once; its figures, the full input check (cell file, coolant) and
+a warm-up of the model load behind it while the status line says so. The cell input lists the
+bundled demo cells and the cell files in the working folder, takes any other path, and
+``explore(cell=...)`` also takes a Cell object built in Python.
+
 Live figures are plotly ``FigureWidget`` objects when the ``anywidget`` package is installed
 (plotly >= 6 needs it for them); otherwise the app keeps plain figures, updates them in place and
 redraws the ones on the open tab (see :mod:`explorer.app.live`).
