@@ -623,7 +623,9 @@ def _comparison_section(page: _Page, named: dict, limits) -> None:
         if check is None:
             verdicts.append("—")
         else:
-            word = "met" if check["met"] else "NOT met"
+            word = ("met" if check["met"] else
+                    "NOT met" if any(v == "not met" for v in check["verdicts"].values()) else
+                    f"not shown to be met (not evaluated: {', '.join(check['not_evaluated'])})")
             worst = check.get("worst")
             margin = check.get("worst_margin")
             verdicts.append(word + (f" (worst: {worst}, margin {margin:+.3g})"
@@ -918,16 +920,14 @@ def cmd_report(paths, out: str | None = None, plotlyjs: str = "inline") -> int:
     first = Path(paths[0])
     target = Path(out) if out else first.with_suffix(".html")
     sizing = None
-    limits = None
     if curves:
         from explorer.report_figures import sizing_from_curve
 
         curve = next(iter(curves.values()))
-        limits = _results().limits_from(curve)
-        sizing = sizing_from_curve(curve, limits)
+        sizing = sizing_from_curve(curve, _results().limits_from(curve))
     names = ", ".join(Path(p).name for p in paths)
-    try:
-        write_report(runs or None, target, title=f"{DEFAULT_TITLE}: {names}", limits=limits,
+    try:  # each file is held against the limits it recorded (a sizing's go with its curve)
+        write_report(runs or None, target, title=f"{DEFAULT_TITLE}: {names}", limits=None,
                      sizing=sizing, sweeps=list(sweeps.values()), plotlyjs=plotlyjs)
     except OSError as exc:
         return fail(f"cannot write report {str(target)!r}: {exc.strerror or exc}")

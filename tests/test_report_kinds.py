@@ -366,3 +366,18 @@ def test_a_measured_ocv_table_is_named_in_the_file_and_the_report(tmp_path):
     page.feed(render_report(run))
     assert "Cell table cell.ocv_table" in page.body and "ocv.csv" in page.body
     assert str(tmp_path) not in page.body
+
+
+def test_each_file_keeps_its_own_limits_beside_a_sizing(files, tmp_path):
+    # a run recorded with its own limits, reported with a sizing of other limits: the run is
+    # held against its own (the sizing's limits go with its curve only)
+    ds = explorer.open_results(files["run"])
+    own = tmp_path / "own_limits.nc"
+    results.save(ds, own, limits=explorer.Limits(temperature_max_C=30.0))
+    out = tmp_path / "mixed.html"
+    assert main(["report", str(own), str(files["curve"]), "--out", str(out)]) == 0
+    page = parse(out)
+    verdicts = [t for t in page.tables if t and t[0][:2] == ["limit", "limit value"]]
+    assert [row[1] for row in verdicts[0][1:]] == ["30 °C"]  # the run's own
+    assert [row[1] for row in verdicts[1][1:]] == ["45 °C", "8 K"]  # the sized run's
+    assert "Held against the limits given" not in page.body
