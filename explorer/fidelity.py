@@ -21,8 +21,9 @@ with the estimate, never left to run on.
 The result is a Dataset over ``variant`` ("as run" first) with the figures the
 verdicts read (peak and core temperature, in-cell and cell-to-cell spread), the
 end SOC spread, and the voltage difference to the run as made. Against
-``limits``, a difference larger than the run's margin to a limit means the
-verdict could flip (DESIGN.md section 3, rule 6). :func:`summary`,
+``limits``, a difference that exceeds the run's margin to a limit (signed: the
+fuller model's figure lands on the other side of the limit) means the verdict
+could flip (DESIGN.md section 3, rule 6). :func:`summary`,
 :func:`text_table` and :func:`html_table` present it; :func:`attach` stores the
 summary on the checked run.
 
@@ -106,7 +107,9 @@ def check_fidelity(cell, duty, cooling, electrochemistry: str = "spme", layout: 
     limits : Limits, optional
         The design limits; with them each figure's difference is set against
         the run's margin to its limit, and the verdict is said to be able to
-        flip when a difference is larger than that margin.
+        flip when the difference exceeds that margin so that the fuller figure
+        lands on the other side of the limit (a fuller figure further from the
+        limit leaves the verdict as it is, however large the difference).
     module : bool
         Run every cell on the coolant path (:func:`explorer.simulate_module`);
         gives the cell-to-cell spread. The fuller layout then runs the worst
@@ -500,7 +503,11 @@ def _row(fid, name, fig, units, margin) -> dict:
     as_run = math.nan if voltage else float(fid[fig].sel(variant=AS_RUN))
     difference = fuller if voltage else fuller - as_run
     limit, m = margin if margin is not None else (None, None)
-    flip = m is not None and math.isfinite(difference) and abs(difference) > abs(m)
+    # every limit is an upper bound (figure <= limit): the fuller model's margin is m - difference,
+    # and the verdict flips when that lands on the other side of the limit (a fuller figure
+    # further from the limit, however different, leaves the verdict as it is)
+    flip = (m is not None and math.isfinite(difference)
+            and (m - difference < 0.0) != (m < 0.0))
     return {"variant": name, "figure": fig, "label": LABELS[fig], "unit": units,
             "as_run": None if voltage else _num(as_run), "fuller": None if voltage else
             _num(fuller), "difference": _num(difference), "limit": limit,
@@ -532,14 +539,15 @@ def _message(fid, rows, flip, limits, ended_apart, statuses, skipped) -> str:
     flips = [r for r in rows if r["could_flip"]]
     if flip == "yes":
         for r in flips:
-            text += (f" {r['variant']}: the {r['label']} differs by {abs(r['difference']):.3g} "
-                     f"{r['unit'].replace('degC', 'K')}, more than the margin "
-                     f"{r['margin']:+.3g} on `{r['limit']}`.")
+            text += (f" {r['variant']}: the {r['label']} differs by {r['difference']:+.3g} "
+                     f"{r['unit'].replace('degC', 'K')}, which puts it on the other side of "
+                     f"`{r['limit']}` (margin {r['margin']:+.3g} as run, "
+                     f"{r['margin'] - r['difference']:+.3g} on the fuller model).")
         text += " The verdict could flip: check this design point on the fuller model."
     elif flip == "no":
         m = [r for r in rows if r["margin"] is not None]
         smallest = min(m, key=lambda r: abs(r["margin"])) if m else None
-        text += " No difference is larger than the margin to a limit"
+        text += " No fuller figure lands on the other side of a limit"
         text += (f" (smallest margin {smallest['margin']:+.3g} on `{smallest['limit']}`)"
                  if smallest else "") + ": the verdict would not flip on the models run."
     elif limits is None:

@@ -188,3 +188,22 @@ def test_module_check_gives_the_cell_to_cell_spread():
 def test_bad_arguments_are_input_errors(kwargs, match):
     with pytest.raises(InputError, match=match):
         check_fidelity("rack_lfp_26ah", duty.discharge(c_rate=1.0), None, **kwargs)
+
+
+@pytest.mark.parametrize("fuller, margin, flips", [
+    (44.5, 0.5, False),   # 0.3 K hotter than run, 0.5 K margin: still met
+    (45.2, 0.5, True),    # 1.0 K hotter: over the limit on the fuller model
+    (43.0, 0.5, False),   # 1.7 K cooler: further inside the limit, however large the change
+    (46.0, -0.5, False),  # not met as run and hotter still: stays not met
+    (44.0, -0.5, True),   # not met as run, the fuller model is inside the limit
+])
+def test_could_flip_means_the_fuller_figure_crosses_the_limit(fuller, margin, flips):
+    """Verdict rule 6 of the design (a difference exceeding the margin), signed: every limit is
+    an upper bound, so the fuller model's margin is the margin less the difference."""
+    import xarray as xr
+
+    as_run = 45.0 - margin  # limit 45 degC
+    fid = xr.Dataset({"peak_temperature": ("variant", [as_run, fuller])},
+                     coords={"variant": ["as run", "dfn"]})
+    row = fidelity._row(fid, "dfn", "peak_temperature", "degC", ("temperature_max_C", margin))
+    assert row["could_flip"] is flips
