@@ -40,6 +40,7 @@ also cached per ``(D, R, dt)``.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy.linalg import eigh
@@ -78,6 +79,19 @@ class ModalEuler:
     unchanged, which keeps the scheme conservative.
     """
 
+    @classmethod
+    def of(cls, K, w) -> ModalEuler:
+        """The decomposition of ``(K, w)``, shared between the rods built on the same mesh
+        and materials (nothing in it changes after it is made): a run builds its rod anew."""
+        K, w = np.ascontiguousarray(K, dtype=float), np.ascontiguousarray(w, dtype=float)
+        key = (K.shape, K.tobytes(), w.tobytes())
+        hit = _MODAL.get(key)
+        if hit is None:
+            if len(_MODAL) >= CACHE_SIZE:
+                _MODAL.clear()
+            hit = _MODAL[key] = cls(K, w)
+        return hit
+
     def __init__(self, K, w):
         lam, V = eigh(K, np.diag(w))
         self.lam = np.clip(lam, 0.0, None)  # round-off can make the zero mode slightly negative
@@ -90,6 +104,9 @@ class ModalEuler:
         P = (self.V * d) @ self._VtW
         q = self.V @ (dt * d * (self.V.T @ b))
         return P, q
+
+
+_MODAL: dict = {}  # ModalEuler.of
 
 
 @dataclass(frozen=True)
@@ -135,6 +152,13 @@ class SphereShells:
         self.surface_distance = 1.0 - centroid  # (R - r_c) / R
         self._modal = ModalEuler(tridiagonal_stiffness(self._g), self.weights)
         self._cache: dict = {}
+
+    @staticmethod
+    @lru_cache(maxsize=16)
+    def of(n: int) -> SphereShells:
+        """The mesh of ``n`` shells, shared (its propagators are cached per diffusivity,
+        radius and step, so sharing one between rods is safe)."""
+        return SphereShells(n)
 
     def mean(self, c):
         """Volume average over the last axis."""

@@ -49,6 +49,9 @@ class RodBatch:
     heat_W: dict
 
 
+_PLANS: dict = {}  # SPM._shared_plan
+
+
 class _AtTemperature:
     """What a step needs of one temperature (:meth:`SPM._at`): ``f`` the Arrhenius factors
     (list, in :meth:`SPM._activation_energies` order), ``rate_lam`` every mode's decay rate,
@@ -115,7 +118,7 @@ class SPM(RodModel):
             raise InputError(f"`params`: expected RodParameters, got {type(params).__name__}")
         self.params = params
         self.mesh = RodMesh.coerce(mesh)
-        self.shells = SphereShells(self.mesh.shells)
+        self.shells = SphereShells.of(self.mesh.shells)
         self.nr = self.mesh.shells
         A = params.area_m2
         self._electrodes = (params.negative, params.positive)
@@ -136,8 +139,11 @@ class SPM(RodModel):
         self._cmax_f = tuple(self._cmax.tolist())
         self._ocp_at = tuple(ocp_at(e.ocp) for e in self._electrodes)
         self._ce_slice = None  # the electrolyte's part of the state (SPMe)
-        # the negative electrode's bulk stoichiometry from its shells, for the SOC
-        self._mean_sto_n = self.shells.weights / params.negative.max_concentration_mol_m3
+        # SOC = soc_0 + soc_w . (negative shells): params.soc_from_negative of the bulk
+        # stoichiometry, which is linear in it
+        self._soc_0 = params.soc_from_negative(0.0)
+        self._soc_w = self.shells.weights * ((params.soc_from_negative(1.0) - self._soc_0)
+                                             / params.negative.max_concentration_mol_m3)
         self._blocks = None  # the stacked linear parts (_plan), built on first use: subclasses
         # finish their parts after this
 
@@ -224,6 +230,20 @@ class SPM(RodModel):
         at.gF = (FARADAY * at.rate[0], FARADAY * at.rate[1])
         at.two_over_f = 2.0 * GAS_CONSTANT * at.T / FARADAY
 
+    def _shared_plan(self):
+        """:meth:`_plan`, shared between rods of the same model, parameters and mesh (the
+        plan is read-only; a run builds its rod anew, and a sweep or sizing runs many)."""
+        try:
+            key = (type(self), self.params, self.mesh)
+            plan = _PLANS.get(key)
+        except TypeError:  # parameters holding an unhashable curve object: not shared
+            return self._plan()
+        if plan is None:
+            if len(_PLANS) >= CACHE_SIZE:
+                _PLANS.clear()
+            plan = _PLANS[key] = self._plan()
+        return plan
+
     def _plan(self):
         """The linear parts stacked once: block-diagonal eigenbases, their eigenvalues and the
         projected forcing, so a step's operator is a few vector operations whatever its
@@ -252,6 +272,10 @@ class SPM(RodModel):
                 "V": block_diag(*(m.V for _, m, _ in blocks)),
                 "VtW": block_diag(*(m._VtW for _, m, _ in blocks)),
                 "Vtb": np.concatenate([m.V.T @ b for _, m, b in blocks]),
+                # V'W with V'b as a last column: applied to the state with its current entry
+                # replaced by I dt, it gives the modal amplitudes before the decay, V'W c + I dt V'b
+                "VtW_b": np.hstack([block_diag(*(m._VtW for _, m, _ in blocks)),
+                                    np.concatenate([m.V.T @ b for _, m, b in blocks])[:, None]]),
                 "outer": np.array(self._outer), "surf_c": surf_c}
 
     def _at(self, T) -> _AtTemperature:
@@ -263,13 +287,13 @@ class SPM(RodModel):
             return at
         plan = self._blocks
         if plan is None:
-            plan = self._blocks = self._plan()
+            plan = self._blocks = self._shared_plan()
         # every property's Arrhenius factor (explorer.materials.arrhenius) in one call
         f = np.exp(plan["ea_R"] * (1.0 / REFERENCE_K - 1.0 / T))
         at = _AtTemperature()
         at.T, at.f = T, f.tolist()
         if plan["RL"] is not None:
-            at.rate_lam = plan["RL"] @ f
+            at.rate_lam = plan["RL"].dot(f)
         else:
             at.rate_lam = np.repeat(np.asarray(self._rates(f), dtype=float),
                                     plan["sizes"]) * plan["lam"]
@@ -371,7 +395,7 @@ class SPM(RodModel):
         I = np.asarray(currents_A, dtype=float)
         plan = self._blocks
         if plan is None:
-            plan = self._blocks = self._plan()
+            plan = self._blocks = self._shared_plan()
         f = arrhenius(self._ea[None, :], T[:, None], REFERENCE_K)  # (rods, properties)
         rates = np.array(self._rates(f.T), dtype=float)  # (parts, rods)
         d = 1.0 / (1.0 + np.repeat(rates.T * dt, plan["sizes"], axis=1) * plan["lam"])
@@ -419,18 +443,19 @@ class SPM(RodModel):
         x = self._check_state(state)
         op = self._operator(dt, T)
         at, plan = op.at, self._blocks
-        modal = plan["VtW"] @ x[:-1]
         new = np.empty(self.size)
         if kind == "current":
             current = value
             # the current is known: new = V diag(d) (V'W old + dt V'b I), one product back
-            np.matmul(plan["V"], (modal + (current * dt) * plan["Vtb"]) * op.d, out=new[:-1])
+            new[:] = x
+            new[-1] = current * dt
+            plan["V"].dot(plan["VtW_b"].dot(new) * op.d, out=new[:-1])
             o_n, o_p = self._outer
             sl = self._ce_slice
             surfaces = (new.item(o_n) - current * at.extrap[0],
                         new.item(o_p) - current * at.extrap[1], None if sl is None else new[sl])
         else:
-            base = plan["V"] @ (op.d * modal)  # new state = base + I q
+            base = plan["V"].dot(op.d * plan["VtW"].dot(x[:-1]))  # new state = base + I q
             q, surf_q = self._response(op)
             guess = float(x[-1]) if kind == "voltage" else 0.0
             current = solve_current(
@@ -446,6 +471,6 @@ class SPM(RodModel):
             ohmic_electrolyte=terms[4],
             ohmic_solid=terms[5],
         )
-        soc = self.params.soc_from_negative(float(self._mean_sto_n @ new[:self.nr]))
+        soc = self._soc_0 + float(self._soc_w.dot(new[:self.nr]))
         return StepResult(state=new, current_A=float(current), voltage_V=float(v_term),
                           ocv_V=float(ocv), soc=float(soc), heat_W=heat, iterations=1)

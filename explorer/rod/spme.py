@@ -57,8 +57,8 @@ class SPMe(SPM):
     has_electrolyte = True
 
     def __init__(self, params, mesh=None):
-        super().__init__(params, mesh)
-        self.x_mesh = xm = ThroughMesh(params, self.mesh)
+        super().__init__(params, mesh)  # makes self.x_mesh (_extra_size)
+        xm = self.x_mesh
         A = params.area_m2
         n, p = params.negative, params.positive
         el = params.electrolyte
@@ -72,8 +72,8 @@ class SPMe(SPM):
         # salt-diffusion stencil per unit bulk diffusivity: D_e(c0) at the step's temperature
         # scales it, so new steps and temperatures cost one small matrix product
         self._de0 = float(el.diffusivity(el.initial_concentration_mol_m3))  # at 298.15 K
-        self._e_modal = ModalEuler(tridiagonal_stiffness(xm.face_harmonic(xm.transport)),
-                                   self._storage)
+        self._e_modal = ModalEuler.of(tridiagonal_stiffness(xm.face_harmonic(xm.transport)),
+                                      self._storage)
         self._shape_per_A = xm.reaction_shape / A  # ionic current at the faces per ampere
         self._solid_drop_per_A = (n.thickness_m / (3.0 * n.solid_conductivity_eff_S_m)
                                   + p.thickness_m / (3.0 * p.solid_conductivity_eff_S_m)) / A
@@ -101,6 +101,7 @@ class SPMe(SPM):
         self._resistive_weights[:-1] += shape * self._hl_i / xm.transport[:-1]
         self._resistive_weights[1:] += shape * self._hr_i / xm.transport[1:]
         self._conductivity = el.conductivity
+        self._nu_per_K = el.diffusion_potential_V(1.0)  # the coefficient is R T (...) / F
         # the electrode averages over all cells (zero weight in the separator)
         self._average_cells = np.zeros((2, xm.nx))
         self._average_cells[0, xm.neg] = 1.0 / nn
@@ -108,7 +109,8 @@ class SPMe(SPM):
         self._half_j = (0.5 * self._j_per_A[0], 0.5 * self._j_per_A[1])
 
     def _extra_size(self) -> int:
-        return ThroughMesh(self.params, self.mesh).nx
+        self.x_mesh = ThroughMesh(self.params, self.mesh)
+        return self.x_mesh.nx
 
     def _fill_extra_initial(self, x):
         x[self._ce_slice] = self.params.electrolyte.initial_concentration_mol_m3
@@ -127,7 +129,7 @@ class SPMe(SPM):
     def _fill_constants(self, at):
         super()._fill_constants(at)
         at.kappa_f = at.f[4]
-        at.nu = self.params.electrolyte.diffusion_potential_V(at.T)
+        at.nu = self._nu_per_K * at.T
 
     def _reaction_overpotentials(self, at, ce, I, cs_n, cs_p):
         """Electrode-averaged overpotentials (eta_n, eta_p) with the local salt in j0."""
@@ -141,7 +143,7 @@ class SPMe(SPM):
             arg[:nn] = I * self._half_j[0] / (at.gF[0] * math.sqrt((cmax_n - cs_n) * cs_n))
             arg[nn:pos] = 0.0
             arg[pos:] = I * self._half_j[1] / (at.gF[1] * math.sqrt((cmax_p - cs_p) * cs_p))
-            eta_n, eta_p = (self._average_cells @ np.arcsinh(arg / np.sqrt(ce))).tolist()
+            eta_n, eta_p = self._average_cells.dot(np.arcsinh(arg / np.sqrt(ce))).tolist()
             return at.two_over_f * eta_n, at.two_over_f * eta_p
         xm, T = self.x_mesh, at.T
         etas = []
@@ -161,8 +163,8 @@ class SPMe(SPM):
         # less i_f / K_f (the face conductance K_f of its two half cells in series); both
         # sums are taken per cell (weights made once, :meth:`__init__`), kappa_eff = f(T)
         # eps^b kappa(c)
-        diffusion = float(self._ln_weights @ np.log(ce))
-        ohmic = float(self._resistive_weights @ (1.0 / self._conductivity(ce)))
+        diffusion = float(self._ln_weights.dot(np.log(ce)))
+        ohmic = float(self._resistive_weights.dot(1.0 / self._conductivity(ce)))
         dphi_e = at.nu * diffusion - I * ohmic / at.kappa_f
         solid_drop = I * self._solid_drop_per_A
         # Joule heat A sum_f i_f (phi_L - phi_R) = -I dphi_e by the same summation by parts
