@@ -40,8 +40,8 @@ def describe_cell(cell) -> str:
         f"{d.theoretical_capacity_Ah:.2f} Ah computed (N/P {d.np_ratio:.2f})",
         f"  voltage window   {cell.voltage_min_V:g}-{cell.voltage_max_V:g} V, energy "
         f"{d.energy_Wh:.0f} Wh",
-        f"  size             {g.width_m * 1e3:.0f} x {g.height_m * 1e3:.0f} x "
-        f"{g.stack_thickness_m * 1e3:.1f} mm, {g.unit_layers} unit layers, "
+        f"  size             coated area {g.width_m * 1e3:.0f} x {g.height_m * 1e3:.0f} mm, "
+        f"{g.stack_thickness_m * 1e3:.1f} mm thick, {g.unit_layers} unit layers, "
         f"{d.mass_kg * 1e3:.0f} g",
         f"  tabs             {tabs}",
         f"  conductivity     {d.inplane_conductivity_W_mK:.1f} W/(m K) in plane, "

@@ -43,7 +43,10 @@ LABELS = {"tim_W_mK": ("TIM conductivity", "W/(m K)"), "tim_mm": ("TIM thickness
           "fin_contact_W_m2K": ("fin contact coefficient", "W/(m² K)"),
           "c_rate": ("C-rate", "C"), "soc": ("SOC", ""), "rib_mm": ("rib between channels", "mm"),
           "wall_mm": ("plate wall", "mm"), "length_mm": ("plate length", "mm"),
-          "output_interval_s": ("output interval", "s"), "start_soc": ("start SOC", "")}
+          "output_interval_s": ("output interval", "s"), "start_soc": ("start SOC", ""),
+          # a cell's width and height are its coated area (the cell file's [geometry])
+          "width_mm": ("coated width", "mm"), "height_mm": ("coated height", "mm"),
+          "thickness_mm": ("thickness (whole cell)", "mm")}
 
 
 def split_unit(name: str) -> tuple[str, str]:
@@ -228,8 +231,9 @@ def what_was_run(ds) -> list[tuple[str, str]]:
     if cell:
         cell_text += (f": {number(cell.get('nominal_capacity_Ah'))} Ah nominal, "
                       f"{number(cell.get('voltage_min_V'))}–{number(cell.get('voltage_max_V'))} V, "
-                      f"{number(cell.get('width_mm'))} × {number(cell.get('height_mm'))} × "
-                      f"{number(cell.get('thickness_mm'))} mm")
+                      f"coated area {number(cell.get('width_mm'))} × "
+                      f"{number(cell.get('height_mm'))} mm, {number(cell.get('thickness_mm'))} "
+                      "mm thick")
     limit = a.get("temperature_limit_C")
     if limit is not None:
         cell_text += f"; data-sheet maximum {number(limit)} °C"

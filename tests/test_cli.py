@@ -60,3 +60,4 @@ def test_show_names_the_curves_the_data_note_and_plain_tabs(capsys):
     assert "(negative)" not in out and "negative on top" in out
     assert "potentials       negative graphite; positive nmc" in out
     assert "data note        invented" in out
+    assert "coated area 240 x 160 mm, 8.9 mm thick" in out  # not a 240 x 160 x 8.9 mm box

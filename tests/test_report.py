@@ -252,6 +252,7 @@ def test_first_screen_words_and_assumptions(tmp_path):
     body = " ".join(" ".join(_parse(render_report(run)).text).split())
     first = body.split("What was run", 1)[1].split("Key figures", 1)[0]
     for words in ("Van module NMC 66 Ah (file van_nmc_66ah.toml)", "66 Ah nominal",
+                  "coated area 240 × 160 mm, 8.9 mm thick",
                   "2C discharge (constant current) for 120 s",
                   "edge cold plate under the bottom edge", "water at 2 L/min, inlet 25 °C",
                   "SPM (single particle model", "in-plane grid 6 × 4", "SOC 100 %",
