@@ -5,8 +5,9 @@ Side by side in one run, each figure next to its target:
 * ``overhead_us_per_step``: the shared stepper's own cost per accepted step (the run's CPU
   time less the rod's solves, over the steps taken; CPU time of this process, so a shared
   machine's other load does not count), SPMe, single layout, full 1C discharge (target
-  20 us); and the same with the rod's answers replayed (the stepper alone, without the
-  rod's work crowding the processor's caches);
+  20 us), beside the rod's own cost per solve in that run (``rod_us_per_solve``, its
+  ``rod_solves`` and the accepted ``steps``); and the same with the rod's answers replayed
+  (the stepper alone, without the rod's work crowding the processor's caches);
 * ``simulate_over_rod``: SPMe through ``simulate`` (single layout, full 1C) over the rod
   alone (``explorer.rod_bench.discharge``, fixed 20 s steps at 25 degC) (target <= 3);
   this ratio, the next and the cost of the heat integration are taken in CPU time of this
@@ -71,9 +72,10 @@ class _TimedRod:
     """The rod with its solves timed in process time (everything else forwarded)."""
 
     def __init__(self, rod):
-        self.rod, self.seconds = rod, 0.0
+        self.rod, self.seconds, self.calls = rod, 0.0, 0
 
     def solve_step(self, *args, **kwargs):
+        self.calls += 1
         t0 = time.process_time()
         try:
             return self.rod.solve_step(*args, **kwargs)
@@ -112,15 +114,20 @@ def _run(cell, steps, layout="single", sinks=None, *, fitted=True, trapezoid=Tru
     return rec, thermal, rod, time.process_time() - t0
 
 
-def _overhead(cell, steps, repeat) -> float:
+def _overhead(cell, steps, repeat) -> tuple[float, dict]:
     """Best (run - rod solves) per accepted step over ``repeat`` runs, in us of this
-    process's CPU time (a shared machine's other load does not count)."""
-    best = float("inf")
+    process's CPU time (a shared machine's other load does not count); with the best run's
+    context: the rod's own cost per solve in that run and its solves and steps."""
+    best, context = float("inf"), {}
     _run(cell, steps, timed=True)  # warm-up
     for _ in range(max(1, repeat)):
         rec, _, rod, seconds = _run(cell, steps, timed=True)
-        best = min(best, (seconds - rod.seconds) / rec.steps_taken)
-    return 1e6 * best
+        per_step = (seconds - rod.seconds) / rec.steps_taken
+        if per_step < best:
+            best = per_step
+            context = {"rod_us_per_solve": round(1e6 * rod.seconds / rod.calls, 2),
+                       "rod_solves": rod.calls, "steps": rec.steps_taken}
+    return 1e6 * best, context
 
 
 class _Replay:
@@ -181,8 +188,9 @@ def _speed_rows(name, cell, repeat) -> list[dict]:
     from explorer.rod_bench import discharge
 
     steps = [explorer.duty.resolve(explorer.duty.discharge(c_rate=1.0), cell)]
-    rows = [_row("overhead_us_per_step", _overhead(cell, steps, repeat), "us", cell=name,
-                 model="spme", layout="single", measured="run less rod solves"),
+    overhead, context = _overhead(cell, steps, repeat)
+    rows = [_row("overhead_us_per_step", overhead, "us", cell=name, model="spme",
+                 layout="single", measured="run less rod solves", **context),
             _row("overhead_us_per_step", _overhead_replayed(cell, steps, repeat), "us",
                  cell=name, model="spme", layout="single", measured="rod answers replayed")]
     params = RodParameters.from_cell(cell)
