@@ -64,7 +64,7 @@ class _AtTemperature:
 class _StepOperator:
     """One step's linear part at ``(dt, T)`` (:meth:`SPM._operator`)."""
 
-    __slots__ = ("at", "dt", "d", "q", "surf_q")
+    __slots__ = ("at", "dt", "den", "q", "surf_q")
 
 
 def ocp_at(ocp):
@@ -307,7 +307,7 @@ class SPM(RodModel):
 
     def _operator(self, dt, T) -> _StepOperator:
         """The whole step's linear part at ``(dt, T)``, cached: backward Euler in each part's
-        eigenbasis, every mode decays by ``d = 1 / (1 + dt s lam)``; the response per ampere
+        eigenbasis, every mode decays by ``1 / den``, ``den = 1 + dt s lam``; the response per ampere
         ``q`` is made only when a control needs the current solved for (:meth:`_response`)."""
         key = (dt, T)
         op = self._ops.get(key)
@@ -315,7 +315,7 @@ class SPM(RodModel):
             return op
         op = _StepOperator()
         op.at = at = self._at(T)
-        op.dt, op.d, op.q, op.surf_q = dt, 1.0 / (1.0 + dt * at.rate_lam), None, None
+        op.dt, op.den, op.q, op.surf_q = dt, 1.0 + dt * at.rate_lam, None, None
         if len(self._ops) >= CACHE_SIZE:
             self._ops.clear()
         self._ops[key] = op
@@ -326,7 +326,7 @@ class SPM(RodModel):
         surfaces per ampere of the step's current."""
         if op.q is None:
             plan = self._blocks
-            q = plan["V"] @ (plan["Vtb"] * (op.dt * op.d))
+            q = plan["V"] @ (plan["Vtb"] * op.dt / op.den)
             o_n, o_p = self._outer
             op.surf_q = (q.item(o_n) - op.at.extrap[0], q.item(o_p) - op.at.extrap[1])
             op.q = q
@@ -376,7 +376,7 @@ class SPM(RodModel):
                     "step; if a smaller step does not help, the discharge is transport-limited "
                     "(cold cell or high rate), outside the SPMe's validity: use the DFN")
             return math.nan
-        eta_n, eta_p, dphi_e, solid_drop = terms[:4]
+        eta_n, eta_p, dphi_e, solid_drop, _, _ = terms
         u_n, ds_n = self._ocp_at[0](cs_n / cmax_n)
         u_p, ds_p = self._ocp_at[1](cs_p / cmax_p)
         ocv = (u_p - u_n) + (ds_p - ds_n) * (at.T - REFERENCE_K)
@@ -449,13 +449,13 @@ class SPM(RodModel):
             # the current is known: new = V diag(d) (V'W old + dt V'b I), one product back
             new[:] = x
             new[-1] = current * dt
-            plan["V"].dot(plan["VtW_b"].dot(new) * op.d, out=new[:-1])
+            plan["V"].dot(plan["VtW_b"].dot(new) / op.den, out=new[:-1])
             o_n, o_p = self._outer
             sl = self._ce_slice
             surfaces = (new.item(o_n) - current * at.extrap[0],
                         new.item(o_p) - current * at.extrap[1], None if sl is None else new[sl])
         else:
-            base = plan["V"].dot(op.d * plan["VtW"].dot(x[:-1]))  # new state = base + I q
+            base = plan["V"].dot(plan["VtW"].dot(x[:-1]) / op.den)  # new state = base + I q
             q, surf_q = self._response(op)
             guess = float(x[-1]) if kind == "voltage" else 0.0
             current = solve_current(

@@ -107,6 +107,7 @@ class SPMe(SPM):
         self._average_cells[0, xm.neg] = 1.0 / nn
         self._average_cells[1, xm.pos] = 1.0 / np_
         self._half_j = (0.5 * self._j_per_A[0], 0.5 * self._j_per_A[1])
+        self._cell_counts = (xm.nx, xm.nn, xm.pos.start)
 
     def _extra_size(self) -> int:
         self.x_mesh = ThroughMesh(self.params, self.mesh)
@@ -137,8 +138,8 @@ class SPMe(SPM):
             # alpha = 1/2 in both: j0 = F k sqrt(c_e (c_max - c_s) c_s) factors into the
             # electrode's surface part (a number) and sqrt(c_e) per cell, so the closed-form
             # inverse runs over all cells at once (zero in the separator)
-            arg = np.empty(self.x_mesh.nx)
-            nn, pos = self.x_mesh.nn, self.x_mesh.pos.start
+            nx, nn, pos = self._cell_counts
+            arg = np.empty(nx)
             cmax_n, cmax_p = self._cmax_f
             arg[:nn] = I * self._half_j[0] / (at.gF[0] * math.sqrt((cmax_n - cs_n) * cs_n))
             arg[nn:pos] = 0.0
