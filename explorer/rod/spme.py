@@ -165,7 +165,7 @@ class SPMe(SPM):
         # sums are taken per cell (weights made once, :meth:`__init__`), kappa_eff = f(T)
         # eps^b kappa(c)
         diffusion = float(self._ln_weights.dot(np.log(ce)))
-        ohmic = float(self._resistive_weights.dot(1.0 / self._conductivity(ce)))
+        ohmic = float(self._resistive_weights.dot(np.reciprocal(self._conductivity(ce))))
         dphi_e = at.nu * diffusion - I * ohmic / at.kappa_f
         solid_drop = I * self._solid_drop_per_A
         # Joule heat A sum_f i_f (phi_L - phi_R) = -I dphi_e by the same summation by parts
