@@ -27,7 +27,8 @@ Cache
     :func:`explorer.fileio.atomic_write`, netCDF named by a SHA-256 key of the
     cell file's hash, the duty, ``cooling.describe()`` of the case's design,
     the model settings and the tool version; the key is stored inside the
-    entry too. An entry that cannot be read, holds another key or another
+    entry too, and a SHA-256 checksum beside it (the entry takes its name
+    only once the checksum is written). An entry that cannot be read, holds another key or another
     status is treated as missing: the case runs again and the entry is
     overwritten. A sweep that was interrupted resumes from the cache: only the
     missing cases run. Failed and stopped cases are never cached. Temporary
@@ -57,6 +58,7 @@ import itertools
 import json
 import logging
 import math
+import os
 import sys
 import threading
 import time
@@ -552,11 +554,24 @@ def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
     # With a Dask client active, xarray guards netCDF writes with a lock held on the
     # scheduler: a round trip per entry, and a Ctrl-C caught inside it left later writes
     # waiting forever. The entry is in memory: a local lock is the right one.
-    with dask.config.set(scheduler="synchronous"):
-        path = write_netcdf(entry, cache / f"{key}.nc")
-    from explorer.fileio import atomic_write_text
+    from explorer.fileio import TEMP_SUFFIX, atomic_write_text
 
-    atomic_write_text(_checksum_path(path), _checksum(path) + "\n")
+    path = cache / f"{key}.nc"
+    # Staged under a temporary name (removed as stale if the process dies) and put in place
+    # after its checksum: an entry never shows without its checksum, whenever a kill or a
+    # Ctrl-C comes.
+    staged = cache / f".{path.name}.{os.getpid()}.staged{TEMP_SUFFIX}"
+    try:
+        with dask.config.set(scheduler="synchronous"):
+            write_netcdf(entry, staged)
+        atomic_write_text(_checksum_path(path), _checksum(staged) + "\n")
+        os.replace(staged, path)
+    except OSError as exc:
+        raise OutputError(f"{path}: cannot write the cache entry ({exc.strerror or exc})") \
+            from None
+    finally:
+        with contextlib.suppress(OSError):
+            staged.unlink(missing_ok=True)
 
 
 def _checksum_path(path: Path) -> Path:
