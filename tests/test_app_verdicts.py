@@ -456,7 +456,7 @@ def test_placeholder_text_is_cleared_from_the_browser_when_results_arrive(fake_r
 def test_sizing_figure_title_names_the_parameter_with_its_unit():
     result = SyntheticSizing(vary="flow_L_min")
     title = plots.sizing_figure(result).layout.title.text  # the synthetic result is feasible
-    assert "flow (L/min) = " in title and "flow_L_min" not in title
+    assert "(L/min) = " in title and "flow_L_min" not in title
 
 
 def test_field_title_says_mean_field_and_which_cell_of_a_module():
