@@ -911,7 +911,11 @@ class _LocalCluster:
 
     def close(self) -> None:
         if self._thread is not None:
-            self._thread.join()
+            self._thread.join(timeout=START_TIMEOUT_S)
+            if self._thread.is_alive():  # a start that hangs: its daemon thread ends with us
+                log.warning("sweep: the local Dask cluster did not finish starting within %g s; "
+                            "its workers end with this process", START_TIMEOUT_S)
+                return
         with _quiet_cluster_logs(True):
             for thing in (self.client, self.cluster):
                 if thing is not None:
@@ -919,6 +923,7 @@ class _LocalCluster:
                         thing.close()
 
 
+START_TIMEOUT_S = 120.0  # longest wait for the local cluster's start when closing it
 _LOCAL: _LocalCluster | None = None
 _LOCAL_LOCK = threading.Lock()
 _AT_EXIT: list = []  # non-empty once close_local_cluster is registered with atexit
