@@ -76,7 +76,9 @@ def _parser() -> argparse.ArgumentParser:
         c.add_argument("--out", default=None, help="output folder (default: beside the scenario)")
         if name == "sweep":
             c.add_argument("--scheduler", default=None,
-                           help="address of a running Dask scheduler (default: a local cluster)")
+                           help="address of a running Dask scheduler (tcp://host:8786), or "
+                           "'serial' to run the cases one after another in this process "
+                           "(default: a local cluster)")
         if name == "size":
             c.add_argument("--no-fidelity", action="store_true", help="skip the fidelity check "
                            "of the answer (the same design on the DFN, the fuller layout and a "

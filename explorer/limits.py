@@ -354,6 +354,17 @@ def _missing_reason(name: str) -> str:
     return "the results Dataset lacks the variable"
 
 
+def figure_and_margin(figure: float, margin: float, digits: int = 4) -> tuple[str, str]:
+    """A limit's figure to ``digits`` significant figures and its margin to the same decimal
+    places (at most three), so that the shown margin is the shown limit minus the shown figure
+    (22.01 K against 5 K: margin -17.01, not -17)."""
+    shown = f"{figure:.{digits}g}"
+    if "e" in shown:
+        return shown, f"{margin:+.3g}"
+    places = min(len(shown.split(".")[1]) if "." in shown else 0, 3)
+    return shown, f"{margin:+.{places}f}"
+
+
 def figure_text(name: str, value) -> str:
     """A figure with its unit for printouts, e.g. ``55.41 degC`` (``-`` when missing)."""
     unit = UNITS.get(name) or FIGURE_UNITS.get(name, "")
@@ -376,9 +387,11 @@ def verdict_lines(limits: Limits, check: dict) -> list[str]:
                  else f">= {figure_text(name, check['bounds'][name])}")
         cell = check.get("cells", {}).get(name)
         where = f" in cell {cell}" if cell is not None else ""
+        margin = check["margins"][name]
+        margin_text = (figure_and_margin(figure, margin)[1] if figure is not None
+                       else f"{margin:+.4g}")  # to the shown figure's decimals
         text = (f"{name}: {'met' if verdict == 'met' else 'NOT met'}, margin "
-                f"{check['margins'][name]:+.2f} {unit}: {LONG_NAMES[name]} {shown}{where} "
-                f"({limit})")
+                f"{margin_text} {unit}: {LONG_NAMES[name]} {shown}{where} ({limit})")
         if name in check["reasons"]:
             text += f"; {check['reasons'][name]}"
         lines.append(text)

@@ -15,6 +15,8 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from explorer.limits import figure_and_margin  # noqa: F401  (the report's name for it)
+
 # name suffix -> unit shown (longest first: "_W_m2K" before "_K")
 UNIT_SUFFIXES = (
     ("_W_m2K", "W/(m² K)"), ("_W_mK", "W/(m K)"), ("_W_K", "W/K"), ("_L_min", "L/min"),
@@ -73,17 +75,6 @@ def number(value, digits: int = 4) -> str:
             return str(int(v))
         return f"{v:.{digits}g}"
     return str(value)
-
-
-def figure_and_margin(figure: float, margin: float, digits: int = 4) -> tuple[str, str]:
-    """A limit's figure to ``digits`` significant figures and its margin to the same decimal
-    places (at most three), so that the shown margin is the shown limit minus the shown figure
-    (22.01 K against 5 K: margin -17.01, not -17)."""
-    shown = f"{figure:.{digits}g}"
-    if "e" in shown:
-        return shown, f"{margin:+.3g}"
-    places = min(len(shown.split(".")[1]) if "." in shown else 0, 3)
-    return shown, f"{margin:+.{places}f}"
 
 
 def parse(value):

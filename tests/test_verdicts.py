@@ -82,6 +82,10 @@ def test_core_over_the_limit_is_not_met_in_the_api(one_face):
     lines = verdict_lines(Limits(temperature_max_C=limit), check)
     assert lines[0].startswith("temperature_max_C: NOT met")
     assert "hottest point anywhere in the cell (core estimate and faces included)" in lines[0]
+    # the margin is printed to the shown figure's decimals: limit - shown figure = shown margin
+    shown = f"{hottest:.4g}"
+    decimals = len(shown.split(".")[1]) if "." in shown else 0
+    assert f"margin {limit - hottest:+.{min(decimals, 3)}f} K" in lines[0] and shown in lines[0]
 
 
 def test_time_to_limit_follows_the_hottest_point(one_face):
