@@ -144,6 +144,7 @@ def simulate_module(cell, duty, cooling, electrochemistry: str = "spme",
                  start_temperature_C=start_temperature_C,
                  settings=_settings(cell, output_interval_s), progress=progress)
     per_cell = module_thermal.recorded(record)
+    _settle_cells(record.time, per_cell, thermal)
     attrs = run_attrs(cell, cooling, steps, electrochemistry=electrochemistry, layout=layout,
                       start_soc=start_soc, start_temperature_C=start_temperature_C,
                       thermal=thermal, r_collector=r_collector,
@@ -529,6 +530,27 @@ _RELABEL = {
     "ocv": "open-circuit voltage, mean over the cells",
     "energy_delivered": "electrical energy delivered per cell since the start (string / cells)",
 }
+
+
+def _settle_cells(time_s, per_cell: dict, thermal) -> None:
+    """Each cell's through-thickness figures with the slab's settling lag, as in a single run
+    (:func:`explorer.inplane.throughplane.settle_extremes`)."""
+    from explorer.inplane.throughplane import settle_extremes
+
+    settling = getattr(thermal, "through_settling", None)
+    if settling is None or not len(time_s):
+        return
+    info = settling()
+    if info["tau_s"] <= 0.0:
+        return
+    for c in range(per_cell["max"].shape[0]):
+        figures = {k: per_cell[k][c] for k in THROUGH_KEYS}
+        figures["core_difference"] = per_cell["core_max"][c] - per_cell["max"][c]
+        settled = settle_extremes(time_s, per_cell["max"][c], per_cell["min"][c], figures,
+                                  info["tau_s"], info["cooled"])
+        for k in THROUGH_KEYS:
+            per_cell[k][c] = settled[k]
+        per_cell["core_max"][c] = per_cell["max"][c] + settled["core_difference"]
 
 
 def _record_grid(ds: xr.Dataset, grid) -> None:

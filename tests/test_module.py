@@ -127,6 +127,9 @@ class _InletHistory:
         new, rejected = self.model.step(x, heat_W, dt, tab_heat_W)
         return (new, t + dt), rejected
 
+    def through_settling(self):  # takes no state
+        return self.model.through_settling()
+
     def __getattr__(self, name):  # every other member on the wrapped state
         member = getattr(self.model, name)
         return lambda state, *args: member(state[0], *args)

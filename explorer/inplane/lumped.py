@@ -154,6 +154,15 @@ class LumpedThermal:
                 out[face] += share * w / self._area
         return {face: np.full((1, 1), q) for face, q in out.items()}
 
+    def through_settling(self) -> dict:
+        """``tau_s`` and ``cooled`` for :func:`explorer.inplane.throughplane.settle_extremes`."""
+        from explorer.inplane.throughplane import settling_time_s
+
+        volume = self._area * self._thickness
+        return {"tau_s": settling_time_s(max(self._d), self._k_through,
+                                         self.heat_capacity_J_per_K / volume),
+                "cooled": {f: d > 0.0 for f, d in zip(FACES, self._d, strict=True)}}
+
     def through_thickness_C(self, state, heat_W) -> dict:
         """Face temperatures and the extremes through the thickness (degC), 1 x 1 arrays.
 

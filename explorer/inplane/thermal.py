@@ -276,6 +276,7 @@ class PlaneThermal:
             else:
                 face_u[face] = face_h.get(face, np.zeros(shape))
         d_front, d_back = tp.face_depths(face_u["front"], face_u["back"], L, shape)
+        self._depth_max = float(np.max(np.maximum(d_front, d_back)))
         volume = self.grid.cell_area_m2 * L
         self._core_surface = tp.core_surface_factor(d_front, d_back, k) / volume
         self._core_mean = tp.core_mean_factor(d_front, d_back, L, k) / volume
@@ -630,6 +631,16 @@ class PlaneThermal:
             T_other = state[other] if other is not None else fixed
             out[face] = (G * (T - T_other) / self.grid.cell_area_m2).reshape(self.grid.shape)
         return out
+
+    def through_settling(self) -> dict:
+        """``tau_s`` (the through-plane profile's settling time,
+        :func:`explorer.inplane.throughplane.settling_time_s`) and ``cooled`` (face -> whether it
+        has a heat path): what :func:`~explorer.inplane.throughplane.settle_extremes` needs."""
+        rho_c = self.heat_capacity_J_per_K / (self.grid.width_m * self.grid.height_m
+                                              * self.thickness_m)
+        return {"tau_s": tp.settling_time_s(getattr(self, "_depth_max", 0.0),
+                                            self.k_through_W_mK, rho_c),
+                "cooled": {f: f in self._face_links for f in FACES}}
 
     def through_thickness_C(self, state, heat_W) -> dict:
         """Temperatures through the thickness at each point of the face (degC).

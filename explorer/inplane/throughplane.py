@@ -135,3 +135,87 @@ def slab_profile(mean_C, q_front_W_m2, q_back_W_m2, thickness_m: float,
     return {"front": front, "back": back,
             "max": np.where(inside & (total > 0), np.maximum(hot, vertex), hot),
             "min": np.where(inside & (total < 0), np.minimum(cold, vertex), cold)}
+
+
+def settling_time_s(depth_m: float, k_through_W_mK: float, heat_capacity_J_m3K: float) -> float:
+    """Time constant of the slowest mode of the through-plane profile, ``d**2 / (pi**2 alpha)``.
+
+    A slab of depth ``d`` (from the plane of zero gradient to a cooled face) whose face flux or
+    generation changes at once reaches the parabolic profile through the series of Carslaw &
+    Jaeger, *Conduction of Heat in Solids*, 2nd ed. (1959), §3.3 (slab with a constant flux at
+    one face; from memory), whose slowest term decays with this time constant.
+    """
+    if depth_m <= 0.0:
+        return 0.0
+    return depth_m**2 * heat_capacity_J_m3K / (np.pi**2 * k_through_W_mK)
+
+
+#: A falling elevation decays at most this many times slower than a rising one builds: the
+#: series of Carslaw & Jaeger at the zero-gradient plane stays below min(1, 1.22 exp(-t/tau))
+#: (sum of its terms at t = 0 is pi**2/12), which exp(-t/(2 tau)) bounds from above.
+_SLOW_DECAY = 2.0
+
+
+def settle(time_s, offset, tau_s: float, hotter_is_safe: bool = True) -> np.ndarray:
+    """An offset through the thickness (quasi-steady, per record) brought in with the slab's lag.
+
+    ``offset`` is the quasi-steady figure less its reference (e.g. the hottest point less the
+    mean field's hottest). The profile starts flat (the runs start at one temperature) and
+    approaches the quasi-steady one with ``tau_s``; toward the unsafe side (a falling elevation
+    when hotter is the safe side) it moves ``_SLOW_DECAY`` times slower. At the plane of zero
+    gradient (the core, an adiabatic face) the slab's own series moves slower than this in both
+    directions, so the settled figure stays on the safe side of the exact one while removing
+    the quasi-steady figure's jump at the start (a cell at rest shown hotter than it is).
+    """
+    t = np.asarray(time_s, dtype=float)
+    target = np.asarray(offset, dtype=float)
+    out = np.empty_like(target)
+    if target.size == 0:
+        return out
+    if tau_s <= 0.0:
+        return target.copy()
+    sign = 1.0 if hotter_is_safe else -1.0
+    value = np.zeros_like(target[0])
+    prev_t = t[0]
+    for n in range(len(t)):
+        dt = max(t[n] - prev_t, 0.0)
+        toward_safe = sign * (target[n] - value) > 0.0
+        tau = np.where(toward_safe, tau_s, _SLOW_DECAY * tau_s)
+        value = target[n] + (value - target[n]) * np.exp(-dt / tau)
+        out[n] = value
+        prev_t = t[n]
+    return out
+
+
+def settle_extremes(time_s, mean_max, mean_min, figures: dict, tau_s: float,
+                    cooled: dict) -> dict:
+    """The through-thickness figures of a run with the settling lag (:func:`settle`).
+
+    ``figures``: per record ``hottest``, ``coldest``, ``front_max``, ``front_min``,
+    ``back_max``, ``back_min``, ``through_difference`` and optionally ``core_difference``
+    (degC or K); ``cooled``: face -> whether it has a heat path. The figures of a cooled face
+    stay quasi-steady (there the slab's series moves faster than one exponential, and the
+    quasi-steady figure is the safe bound); interior points and adiabatic faces settle.
+    """
+    tmax = np.asarray(mean_max, dtype=float)
+    tmin = np.asarray(mean_min, dtype=float)
+    f = {k: np.asarray(v, dtype=float) for k, v in figures.items()}
+    out = dict(f)
+    for face in ("front", "back"):
+        if not cooled.get(face, False):
+            out[f"{face}_max"] = tmax + settle(time_s, f[f"{face}_max"] - tmax, tau_s, True)
+            out[f"{face}_min"] = tmin + settle(time_s, f[f"{face}_min"] - tmin, tau_s, False)
+    hot = [tmax + settle(time_s, f["hottest"] - tmax, tau_s, True)]
+    cold = [tmin + settle(time_s, f["coldest"] - tmin, tau_s, False)]
+    for face in ("front", "back"):
+        if cooled.get(face, False):
+            hot.append(f[f"{face}_max"])
+            cold.append(f[f"{face}_min"])
+    # the hottest point anywhere is never below the mean field's hottest (nor the coldest above)
+    out["hottest"] = np.maximum(np.maximum.reduce(hot), tmax)
+    out["coldest"] = np.minimum(np.minimum.reduce(cold), tmin)
+    out["through_difference"] = np.minimum(f["through_difference"],
+                                           out["hottest"] - out["coldest"])
+    if "core_difference" in f:
+        out["core_difference"] = settle(time_s, f["core_difference"], tau_s, True)
+    return out

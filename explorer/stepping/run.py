@@ -236,6 +236,31 @@ def run(rod, thermal, steps: list[ResolvedStep], *, start_soc: float, start_temp
     return rec
 
 
+_THROUGH = ("hottest", "coldest", "front_max", "front_min", "back_max", "back_min",
+            "through_difference", "core_difference")
+
+
+def _settle_through(rec, thermal) -> None:
+    """The recorded through-thickness figures with the slab's settling lag (the runs start at
+    one temperature; the quasi-steady profile would show a cell at rest hotter than it is).
+    Models without ``through_settling`` keep their figures as recorded."""
+    settling = getattr(thermal, "through_settling", None)
+    if settling is None or not rec.time or len(rec.hottest) != len(rec.time):
+        return
+    from explorer.inplane.throughplane import settle_extremes
+
+    info = settling()
+    if info["tau_s"] <= 0.0:
+        return
+    figures = {k: getattr(rec, k) for k in _THROUGH if len(getattr(rec, k)) == len(rec.time)}
+    mean_max = [float(np.max(T)) for T in rec.temperature]
+    mean_min = [float(np.min(T)) for T in rec.temperature]
+    settled = settle_extremes(rec.time, mean_max, mean_min, figures, info["tau_s"],
+                              info["cooled"])
+    for key in figures:
+        setattr(rec, key, settled[key].tolist())
+
+
 class _Trial:
     """One attempted step: the rod's result and, once taken, the thermal step.
 
@@ -372,7 +397,12 @@ class _Stepper:
 
     def finish(self, chunk=256):
         """Fill the Record from the rows kept, and the thermal figures of the states kept for
-        a batch, in chunks of ``chunk`` records (bounded memory on long records)."""
+        a batch, in chunks of ``chunk`` records (bounded memory on long records); then let the
+        through-thickness figures settle (:func:`_settle_through`)."""
+        self._fill_thermal(chunk)
+        _settle_through(self.rec, self.thermal)
+
+    def _fill_thermal(self, chunk):
         self._fill_rows()
         states, self.kept_states = self.kept_states, []
         if not self.batch or not states:
