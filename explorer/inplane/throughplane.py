@@ -167,24 +167,19 @@ def settle(time_s, offset, tau_s: float, hotter_is_safe: bool = True) -> np.ndar
     directions, so the settled figure stays on the safe side of the exact one while removing
     the quasi-steady figure's jump at the start (a cell at rest shown hotter than it is).
     """
-    t = np.asarray(time_s, dtype=float)
     target = np.asarray(offset, dtype=float)
-    out = np.empty_like(target)
-    if target.size == 0:
-        return out
-    if tau_s <= 0.0:
+    if target.size == 0 or tau_s <= 0.0:
         return target.copy()
+    dt = np.diff(np.asarray(time_s, dtype=float), prepend=float(time_s[0])).clip(min=0.0)
+    fast = np.exp(-dt / tau_s).tolist()  # per record; a plain loop on floats (a few per step)
+    slow = np.exp(-dt / (_SLOW_DECAY * tau_s)).tolist()
     sign = 1.0 if hotter_is_safe else -1.0
-    value = np.zeros_like(target[0])
-    prev_t = t[0]
-    for n in range(len(t)):
-        dt = max(t[n] - prev_t, 0.0)
-        toward_safe = sign * (target[n] - value) > 0.0
-        tau = np.where(toward_safe, tau_s, _SLOW_DECAY * tau_s)
-        value = target[n] + (value - target[n]) * np.exp(-dt / tau)
-        out[n] = value
-        prev_t = t[n]
-    return out
+    out = []
+    value = 0.0
+    for goal, f, g in zip(target.tolist(), fast, slow, strict=True):
+        value = goal + (value - goal) * (f if sign * (goal - value) > 0.0 else g)
+        out.append(value)
+    return np.array(out)
 
 
 def settle_extremes(time_s, mean_max, mean_min, figures: dict, tau_s: float,
