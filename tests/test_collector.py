@@ -196,57 +196,21 @@ def test_refinement_converges():
 
 def _fem_cell_means(cell, polarity, grid, per_cell=5):
     """Independent finite-element solution with scikit-fem (Gustafsson & McBain,
-    "scikit-fem: A Python package for finite element assembly", JOSS 5 (2020) 2369),
-    quadratic triangles on a tensor mesh with ``per_cell`` intervals per thermal cell.
-
-    Weak form of -div(sigma grad u) = J with the same Robin tab condition
-    -sigma du/dn = g u on each tab root, g = 1 / ((R_tab + R_weld) w):
-    int sigma grad u . grad v + int_tab g u v = int J v.
-    Returns the exact cell means of u over the thermal grid and the compliance
-    int J u (= the heat-equivalent resistance for 1 A).
-    """
-    skfem = pytest.importorskip("skfem")
-    from scipy.sparse.linalg import splu
-    from skfem.helpers import dot, grad
+    "scikit-fem: A Python package for finite element assembly", JOSS 5 (2020) 2369): the
+    validation report's solver (:func:`explorer.validation.reference.fem_sheet_potential`),
+    quadratic triangles with ``per_cell`` intervals per thermal cell and the same Robin tab
+    condition, g = 1 / ((R_tab + R_weld) w). Returns the cell means of u over the thermal grid
+    and the compliance int J u (= the heat-equivalent resistance for 1 A)."""
+    pytest.importorskip("skfem")
+    from explorer.validation.reference import fem_sheet_potential
 
     sigma = 1.0 / getattr(cell.derived, f"{polarity}_sheet_resistance_ohm")
-    j = 1.0 / (W * H)
-    xs = np.linspace(0, W, grid.nx * per_cell + 1)
-    ys = np.linspace(0, H, grid.ny * per_cell + 1)
-    mesh = skfem.MeshTri.init_tensor(xs, ys)
-    element = skfem.ElementTriP2()
-    basis = skfem.Basis(mesh, element)
-
-    @skfem.BilinearForm
-    def stiffness(u, v, w):
-        return sigma * dot(grad(u), grad(v))
-
-    @skfem.BilinearForm
-    def robin(u, v, w):
-        return u * v
-
-    @skfem.LinearForm
-    def load(v, w):
-        return j * v
-
-    A = stiffness.assemble(basis)
-    b = load.assemble(basis)
+    tabs = []
     for t in cell.tab(polarity):
         assert t.edge == "top"
-        lo, hi = t.position_m - t.width_m / 2, t.position_m + t.width_m / 2
-        assert np.min(np.abs(xs - lo)) < 1e-12 and np.min(np.abs(xs - hi)) < 1e-12
-        facets = mesh.facets_satisfying(
-            lambda x, lo=lo, hi=hi: (np.abs(x[1] - H) < 1e-12) & (x[0] > lo - 1e-12)
-            & (x[0] < hi + 1e-12))
-        g = 1.0 / (tab_resistance_ohm(t) * t.width_m)
-        A = A + g * robin.assemble(skfem.FacetBasis(mesh, element, facets=facets))
-    u = splu(A.tocsc()).solve(b)
-    per_element = skfem.Functional(lambda w: w["u"]).elemental(basis, u=basis.interpolate(u))
-    centre = mesh.p[:, mesh.t].mean(axis=1)
-    col = np.minimum((centre[0] / grid.dx).astype(int), grid.nx - 1)
-    row = np.minimum((centre[1] / grid.dy).astype(int), grid.ny - 1)
-    means = np.bincount(row * grid.nx + col, per_element, grid.nx * grid.ny)
-    return means.reshape(grid.shape) / grid.cell_area_m2, float(b @ u)
+        tabs.append((t.position_m - t.width_m / 2, t.position_m + t.width_m / 2,
+                     tab_resistance_ohm(t)))
+    return fem_sheet_potential(sigma, W, H, tabs, grid.nx, grid.ny, per_cell=per_cell)
 
 
 def test_against_scikit_fem():
