@@ -20,10 +20,11 @@ import pytest
 
 from explorer.cooling import channels as ch
 from explorer.cooling.coolant import CoolantProperties
-# Incropera & DeWitt Table 8.1 / Shah & London (from memory): b/a -> (Nu_H, Nu_T, f Re); the
-# validation report's copy of the table, one place for it
 from explorer.validation.reference import DUCT_TABLE_8_1 as TABLE_8_1
 from explorer.validators import InputError
+
+# TABLE_8_1: Incropera & DeWitt Table 8.1 / Shah & London (from memory), b/a -> (Nu_H, Nu_T,
+# f Re); the validation report's copy of the table, one place for it
 
 
 def test_reference_libraries_reproduce_the_circular_duct_values():
