@@ -102,6 +102,7 @@ class LumpedThermal:
         self._G = np.array([p[1] for p in self._paths], dtype=float)
         self._Ts = np.array([p[2] for p in self._paths], dtype=float)
         self._G_sum = float(self._G.sum())
+        self._sink_terms()
         self.fitted = bool(fitted)
         self._outlet_rise_per_W = None
         if self._stream is not None:
@@ -110,12 +111,28 @@ class LumpedThermal:
     def initial_state(self, temperature_C: float) -> np.ndarray:
         return np.array([float(temperature_C)])
 
+    def _sink_terms(self) -> None:
+        """The sinks as plain floats for :meth:`step` (called again when a sink temperature
+        changes): a step costs a few float operations, where numpy's per-call cost on
+        one-element arrays would be most of it."""
+        self._GTs = float(self._G @ self._Ts)
+        self._sink_floats = list(zip(self._names, self._G.tolist(), self._Ts.tolist(),
+                                     strict=True))
+
     def step(self, state, heat_W, dt, tab_heat_W=None):
-        q = float(heat_W.sum() if isinstance(heat_W, np.ndarray) else np.sum(heat_W)) + (
-            sum(tab_heat_W.values()) if tab_heat_W else 0.0)
-        T_new = self._advance(float(state[0]), q, dt, float(self._G @ self._Ts))
-        flows = (self._G * (T_new - self._Ts)).tolist()
-        return np.array([T_new]), dict(zip(self._names, flows, strict=True))
+        if isinstance(heat_W, np.ndarray):
+            q = heat_W.item() if heat_W.size == 1 else float(heat_W.sum())
+        else:
+            q = float(np.sum(heat_W))
+        if tab_heat_W:
+            q += sum(tab_heat_W.values())
+        T_new = self._advance(float(state[0]), q, dt, self._GTs)
+        # G (T - Ts) in floats: the same IEEE operations as on the arrays
+        return np.array([T_new]), {name: G * (T_new - Ts) for name, G, Ts in self._sink_floats}
+
+    def max_temperature_C(self, state) -> float:
+        """The hottest point of the (one) mean temperature, as ``temperature_C(state).max()``."""
+        return float(state[0])
 
     def _advance(self, T0, q, dt, GTs) -> float:
         """The temperature after ``dt`` with heat ``q``, sinks at fixed temperatures (``GTs`` =
@@ -238,6 +255,7 @@ class LumpedThermal:
         i = self._stream_index("set_coolant_inlet_C")
         value = check_finite("inlet_C", inlet_C, "degC")
         self._Ts[i] = value
+        self._sink_terms()
         self._stream = replace(self._stream, inlet_C=value)
 
     def step_series(self, states, heat_W, dt, tab_heat_W=None, inlet_C=None):

@@ -301,6 +301,9 @@ class _Stepper:
         # so a wrapper forwarding attributes keeps the per-state path): states are kept and
         # their figures taken in one call when the run ends
         self.batch = getattr(type(thermal), "recorded_figures", None) is not None
+        # the hottest mean temperature of a state in one call where the model offers it
+        # (looked up on its class likewise); else from its temperature field
+        self.max_T = getattr(type(thermal), "max_temperature_C", None)
         self.kept_states = []
         self.rows = []  # one tuple per record (see _record), into the Record at the end
         # a fitted thermal model (exponential fitting: its slowest mode exact on any step), or
@@ -666,10 +669,13 @@ class _Stepper:
                 tr.rejected_J_per_s = tr.generated - (tr.stored_J - self.stored_now) / tr.dt
             else:
                 tr.rejected_J_per_s = sum(tr.rejected.values())
-            T = self.thermal.temperature_C(tr.thermal)
-            tr.t_max = float(T.max())  # NaN and +inf show here, -inf in the stored heat
+            if self.max_T is not None:
+                tr.t_max = self.max_T(self.thermal, tr.thermal)
+            else:
+                tr.t_max = float(self.thermal.temperature_C(tr.thermal).max())
+            # NaN and +inf show in t_max, -inf in the stored heat
             finite = math.isfinite(tr.t_max) and math.isfinite(tr.rejected_J_per_s) and (
-                self.fitted or math.isfinite(float(T.min())))
+                self.fitted or math.isfinite(float(self.thermal.temperature_C(tr.thermal).min())))
             problem = None if finite else "the temperatures are no longer finite numbers"
         except THERMAL_ERRORS as exc:
             problem = f"{type(exc).__name__}: {exc}"
