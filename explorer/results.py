@@ -76,7 +76,31 @@ _HEAT_LONG = {
 
 
 def _var(dims, data, units, long_name):
-    return xr.Variable(dims, np.asarray(data, dtype=float), {"units": units, "long_name": long_name})
+    # a float ndarray already: xarray's conversion of the data (fastpath) would be a no-op
+    return xr.Variable(dims, np.asarray(data, dtype=float), {"units": units, "long_name": long_name},
+                       fastpath=True)
+
+
+def _stacked(maps) -> np.ndarray:
+    """``np.stack(maps)`` of equal-shaped maps: one concatenation, far cheaper for
+    many small maps (the single layout's 1 x 1)."""
+    first = np.asarray(maps[0])
+    return np.concatenate(maps).reshape(len(maps), *first.shape) if first.ndim else np.stack(maps)
+
+
+def _assemble(data: dict, coords: dict, attrs: dict) -> xr.Dataset:
+    """``xr.Dataset(data, coords=coords, attrs=attrs)`` for variables built consistent here.
+
+    The public constructor merges and copies every variable, about 0.4 ms for a run's
+    forty; the coordinates and their indexes are made by the public ``xr.Coordinates`` and
+    the Dataset put together from them directly (xarray's own shortcut for checked
+    variables), the constructor being the fallback should that shortcut go."""
+    construct = getattr(xr.Dataset, "_construct_direct", None)
+    if construct is None:  # pragma: no cover - an xarray without the shortcut
+        return xr.Dataset(data, coords=coords, attrs=attrs)
+    c = xr.Coordinates(coords)
+    return construct({**data, **c.variables}, set(c.variables), attrs=dict(attrs),
+                     indexes=dict(c.xindexes))
 
 
 def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
@@ -87,9 +111,9 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
     added here.
     """
     t = np.asarray(record.time)
-    T = np.stack(record.temperature)
+    T = _stacked(record.temperature)
     area = grid.cell_area_m2
-    heat_map = np.stack(record.heat_map) / area
+    heat_map = _stacked(record.heat_map) / area
     soc = np.asarray(record.soc)
     current = np.asarray(record.current)
     voltage = np.asarray(record.voltage)
@@ -172,7 +196,7 @@ def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
         "Conventions": "CF-1.10",
         "kind": "module" if "module_cells" in attrs else "run",
     }
-    return xr.Dataset(data, coords=coords, attrs=full_attrs)
+    return _assemble(data, coords, full_attrs)
 
 
 # through-thickness variables: name -> (Record field, units, long_name)
