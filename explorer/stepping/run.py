@@ -441,8 +441,9 @@ class _Stepper:
                             (r.charge_C, charge), (r.electrical_J, work),
                             (r.lithium_mol, lithium)):
             lst.extend(values)
+        gets = [h.get for h in heat]
         for k in HEAT_KEYS:
-            r.heat[k].extend([h.get(k, 0.0) for h in heat])
+            r.heat[k].extend([get(k, 0.0) for get in gets])
         r.heat_rejected.extend([float(sum(d.values())) for d in rejected])
         names = list(dict.fromkeys(name for d in rejected for name in d))
         for name in names:
@@ -635,11 +636,12 @@ class _Stepper:
                   else (heat, res.current_A ** 2))
         last = None if self.fresh or not self.s.heat_trapezoid else self.last_heat
         if last is not None:
-            old = last[0]
-            heat = {k: 0.5 * (heat.get(k, 0.0) + old.get(k, 0.0)) for k in HEAT_KEYS}
+            new, old = heat.get, last[0].get  # bound once: this runs every step
+            heat = {k: 0.5 * (new(k, 0.0) + old(k, 0.0)) for k in HEAT_KEYS}
         tr.heat = heat
-        q_rod = (heat.get("irreversible", 0.0) + heat.get("reversible", 0.0)
-                 + heat.get("ohmic_electrolyte", 0.0) + heat.get("ohmic_solid", 0.0))
+        part = heat.get
+        q_rod = (part("irreversible", 0.0) + part("reversible", 0.0)
+                 + part("ohmic_electrolyte", 0.0) + part("ohmic_solid", 0.0))
         if field:
             if last is None:
                 tr.heat_map, tr.tab_heat, tr.collector = tr.end[1:]
