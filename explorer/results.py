@@ -49,14 +49,12 @@ status other than "completed" into the warning every verdict must carry.
 
 from __future__ import annotations
 
-import functools
 import json
 import math
 from pathlib import Path
 
 import numpy as np
 import xarray as xr
-from xarray.indexes import PandasIndex
 
 from explorer import __version__
 from explorer.validators import InputError
@@ -78,9 +76,7 @@ _HEAT_LONG = {
 
 
 def _var(dims, data, units, long_name):
-    # a float ndarray already: xarray's conversion of the data (fastpath) would be a no-op
-    return xr.Variable(dims, np.asarray(data, dtype=float), {"units": units, "long_name": long_name},
-                       fastpath=True)
+    return xr.Variable(dims, np.asarray(data, dtype=float), {"units": units, "long_name": long_name})
 
 
 def _stacked(maps) -> np.ndarray:
@@ -91,32 +87,9 @@ def _stacked(maps) -> np.ndarray:
 
 
 def _assemble(data: dict, coords: dict, attrs: dict) -> xr.Dataset:
-    """``xr.Dataset(data, coords=coords, attrs=attrs)`` for variables built consistent here.
-
-    The public constructor merges and copies every variable, about 0.4 ms for a run's
-    forty; here the coordinates get the default indexes the constructor would make (public
-    ``PandasIndex``; the grid's cached, read-only) and the Dataset is put together directly
-    (xarray's own shortcut for checked variables), the constructor being the fallback
-    should that shortcut go."""
-    construct = getattr(xr.Dataset, "_construct_direct", None)
-    if construct is None:  # pragma: no cover - an xarray without the shortcut
-        return xr.Dataset(data, coords=coords, attrs=attrs)
-    variables, indexes = dict(data), {}
-    for name, (dim, values, var_attrs) in coords.items():
-        var = xr.Variable(dim, values, var_attrs)
-        # the grid's indexes are made once per grid (immutable, so shared as xarray shares them)
-        index = (_position_index(name, np.asarray(values, dtype=float).tobytes()) if name != "time"
-                 else PandasIndex.from_variables({name: var}, options={}))
-        variables[name] = index.create_variables({name: var})[name]
-        indexes[name] = index
-    return construct(variables, set(coords), attrs=dict(attrs), indexes=indexes)
-
-
-@functools.lru_cache(maxsize=64)
-def _position_index(name: str, values: bytes) -> PandasIndex:
-    """The default index of a grid coordinate (``x`` or ``y``) from its float values."""
-    var = xr.Variable(name, np.frombuffer(values, dtype=float).copy())
-    return PandasIndex.from_variables({name: var}, options={})
+    """``xr.Dataset(data, coords=coords, attrs=attrs)``: the public constructor only (a private
+    shortcut saved about 0.4 ms a run, not worth a dependency on xarray's internals)."""
+    return xr.Dataset(data, coords=coords, attrs=attrs)
 
 
 def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:
