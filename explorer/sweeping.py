@@ -522,7 +522,7 @@ def _read_cache(cache: Path | None, key: str) -> xr.Dataset | None:
                     "the entry is replaced", path)
         return None
     try:
-        with xr.open_dataset(path, engine="netcdf4") as ds:
+        with _sigint_deferred(), xr.open_dataset(path, engine="netcdf4") as ds:
             entry = ds.load()
         problem = _cache_problem(entry, key)
     except Exception as exc:  # noqa: BLE001 - any unreadable entry is recomputed, not fatal
@@ -562,7 +562,7 @@ def _write_cache(cache: Path, key: str, result: xr.Dataset) -> None:
     # Ctrl-C comes.
     staged = cache / f".{path.name}.{os.getpid()}.staged{TEMP_SUFFIX}"
     try:
-        with dask.config.set(scheduler="synchronous"):
+        with _sigint_deferred(), dask.config.set(scheduler="synchronous"):
             write_netcdf(entry, staged)
         atomic_write_text(_checksum_path(path), _checksum(staged) + "\n")
         os.replace(staged, path)
@@ -708,6 +708,34 @@ def _finish(done, case, result) -> None:
     done(case, result)
     if result.attrs.get("case_status") == "stopped":
         raise _Stopped(result.attrs.get("case_message", ""))
+
+
+@contextlib.contextmanager
+def _sigint_deferred():
+    """Hold a Ctrl-C back until the block ends, then raise it (main thread only).
+
+    xarray's netCDF reads and writes take the process-wide HDF5 lock; a KeyboardInterrupt
+    raised between its acquire and the code that releases it leaves the lock held, and the
+    next read or write (the sweep's own stop path, the caller's save) waits for ever. A cache
+    entry takes milliseconds: the interrupt comes right after it.
+    """
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    caught = []
+    old = signal.signal(signal.SIGINT, lambda signum, frame: caught.append(signum))
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, old)
+        if caught and old is not signal.SIG_IGN:
+            if callable(old):
+                old(signal.SIGINT, None)  # Python's default handler raises KeyboardInterrupt
+            else:
+                raise KeyboardInterrupt
 
 
 @contextlib.contextmanager
