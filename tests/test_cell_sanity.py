@@ -40,7 +40,7 @@ def test_unfilled_thickness_conducts_nothing():
 def test_measured_inplane_conductivity_is_over_the_whole_thickness():
     # a [thermal] override is used as given (effective over the stated cell thickness)
     c = cell_from_text(VAN + '\n[thermal]\ninplane_conductivity = "20 W/m/K"\n')
-    assert c.derived.inplane_conductivity_W_mK == 20.0
+    assert c.derived.inplane_conductivity_W_mK == pytest.approx(20.0, rel=1e-12)
     assert c.derived.computed_inplane_conductivity_W_mK == pytest.approx(
         load_cell("van_nmc_66ah").derived.inplane_conductivity_W_mK, rel=1e-12)
 
