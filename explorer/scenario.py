@@ -531,30 +531,33 @@ def _guard(fn):
 def cmd_run(scenario, out=None) -> int:
     """Simulate a scenario and write ``<name>_run.nc`` into ``out`` (default: beside it).
 
-    Prints the key figures, the limits with their margins, the pressure drop
+    When the cooling puts more than one cell on one coolant path (a cold plate
+    with ``cells_per_plate`` > 1 the coolant meets one cell after another),
+    every cell on the path is run as one module (:func:`explorer.simulate_module`)
+    and the verdict is the module's: its worst cell and its cell-to-cell spread
+    (DESIGN.md §3 rule 3). Prints the key figures (a module's: the worst cell
+    and the per-cell peaks), the limits with their margins, the pressure drop
     and pump power. Returns 0 (completed, limits met), 1 (a limit not met or
     the run failed) or 2 (bad input).
     """
+    from explorer.module import module_cells
     from explorer.results import key_figures, run_warnings, save
-    from explorer.simulate import simulate
     from explorer.sizing import run_hydraulics
 
     sc = load_scenario(scenario)
-    ds = simulate(sc.cell, sc.duty, sc.cooling, **sc.model)
+    cells = module_cells(sc.cooling)
+    if cells > 1:
+        ds, notes = _run_module(sc, cells)
+    else:
+        from explorer.simulate import simulate
+
+        ds, notes = simulate(sc.cell, sc.duty, sc.cooling, **sc.model), []
     path = save(ds, _out_dir(sc, out) / f"{sc.path.stem}_run.nc", limits=sc.limits)
     fig = key_figures(ds)
     hyd = run_hydraulics(ds) or {}
     lines = [f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}",
              f"status: {ds.attrs.get('status')} {ds.attrs.get('status_message', '')}".rstrip()]
-    for key, unit in (("peak_temperature_C", "degC"), ("max_spread_K", "K"), ("end_soc", "%"),
-                      ("energy_delivered_Wh", "Wh"), ("heat_generated_J", "J"),
-                      ("heat_rejected_J", "J"), ("duration_s", "s")):
-        value = fig[key] * (100.0 if unit == "%" else 1.0)
-        if math.isfinite(value):
-            lines.append(f"{key:<24}{value:>12.4g}  {unit}")
-        else:  # a figure this layout cannot see (the spread on one lumped temperature)
-            lines.append(f"{key:<24}{'-':>12}  {unit}  (not seen on layout "
-                         f"{ds.attrs.get('layout', '?')!r})")
+    lines += notes + _figure_lines(ds, fig)
     ok = ds.attrs.get("status") != "failed"
     if sc.limits is not None:
         check = sc.limits.check(ds, hyd)
@@ -571,6 +574,116 @@ def cmd_run(scenario, out=None) -> int:
     lines.append(f"wrote {path}")
     _print(lines)
     return 0 if ok else 1
+
+
+def _run_module(sc: Scenario, cells: int):
+    """``(module Dataset, note lines)``: every cell on the coolant path of ``sc.cooling``.
+
+    Model settings :func:`explorer.simulate_module` does not take: ``position``
+    only picks which one cell stands for the plate in a single-cell run; the
+    module runs that cell and all the others, so it is dropped with a printed
+    note (the engineer loses nothing but the shortcut). Any other such setting
+    would change the model, so dropping it would silently judge a different
+    model than the file states: refused.
+    """
+    from explorer.module import simulate_module
+
+    where = str(sc.path)
+    takes = inspect.signature(simulate_module).parameters
+    model = {k: v for k, v in sc.model.items() if k in takes}
+    notes = []
+    for key in sc.model:
+        if key in takes:
+            continue
+        if key != "position":
+            raise ScenarioError(f"{where}: `model.{key}` = {sc.model[key]!r} is not a setting of "
+                                f"a module run; the cooling puts {cells} cells on one coolant "
+                                "path, so `run` runs them all as one module; remove the key")
+        notes.append(f"note: `model.position` = {sc.model[key]} is not used: the cooling puts "
+                     f"{cells} cells on one coolant path and `run` runs them all as one module "
+                     f"(cell {sc.model[key]} is in the per-cell table below)")
+    print(f"running the module: {cells} cells along the coolant path, coupled (about {cells} "
+          "times the time of one cell; Ctrl-C stops it and keeps what was computed)",
+          file=sys.stderr, flush=True)
+    ds = simulate_module(sc.cell, sc.duty, sc.cooling, progress=_module_progress(), **model)
+    return ds, notes
+
+
+def _module_progress(every_s: float = 10.0):
+    """A progress callback for the stepper that prints a line on stderr every ``every_s`` of
+    wall time, so that a long module run shows life."""
+    import time
+
+    start = last = time.perf_counter()
+
+    def progress(t_s, step_index):
+        nonlocal last
+        now = time.perf_counter()
+        if now - last >= every_s:
+            last = now
+            print(f"  module run: t = {t_s:.0f} s of the duty (step {step_index + 1}), "
+                  f"{now - start:.0f} s", file=sys.stderr, flush=True)
+
+    return progress
+
+
+# key figure -> (unit, what it spans on a module Dataset)
+_FIGURES = (("peak_temperature_C", "degC", "worst cell {worst_cell}"),
+            ("max_spread_K", "K", "largest in any cell"),
+            ("cell_to_cell_K", "K", "warmest minus coolest cell mean"),
+            ("end_soc", "%", "mean over the cells"),
+            ("energy_delivered_Wh", "Wh", "per cell"),
+            ("heat_generated_J", "J", "all {cells} cells"),
+            ("heat_rejected_J", "J", "all {cells} cells"),
+            ("duration_s", "s", ""))
+
+
+def _figure_lines(ds, fig: dict) -> list[str]:
+    """The key figures, one a line; a module's say what they span and end with the per-cell
+    table."""
+    from explorer.results import is_module
+
+    module = is_module(ds)
+    lines = []
+    if module:
+        lines.append(f"module: {ds.sizes['cell']} cells along one coolant path, run coupled; "
+                     f"worst cell {fig['worst_cell']} (0 = first the coolant meets), its "
+                     f"hottest point {fig['peak_temperature_C']:.4g} degC at t = "
+                     f"{fig['peak_time_s']:.0f} s")
+    for key, unit, span in _FIGURES:
+        if key not in fig:  # cell_to_cell_K: modules only
+            continue
+        value = fig[key] * (100.0 if unit == "%" else 1.0)
+        if math.isfinite(value):
+            text = f"{key:<24}{value:>12.4g}  {unit}"
+            if module and span:
+                text += f"  ({span.format(cells=ds.sizes['cell'], **fig)})"
+            lines.append(text)
+        else:  # a figure this layout cannot see (the spread on one lumped temperature)
+            lines.append(f"{key:<24}{'-':>12}  {unit}  (not seen on layout "
+                         f"{ds.attrs.get('layout', '?')!r})")
+    return lines + (_cell_table(ds) if module else [])
+
+
+def _cell_table(ds) -> list[str]:
+    """One line per cell of a module: its hottest point, in-cell spread, peak mean and the
+    coolant leaving it (the ``results`` helpers, as the report's module view reads them)."""
+    import numpy as np
+
+    from explorer.results import coldest_anywhere, hottest_anywhere, is_lumped, per_cell
+
+    hot, cold = hottest_anywhere(ds), coldest_anywhere(ds)
+    mean = per_cell(ds, "temperature_mean")
+    outlet = per_cell(ds, "coolant_outlet") if "coolant_outlet" in ds else None
+    lines = ["per cell, the highest over the run (cell 0 = first the coolant meets):",
+             f"{'cell':>6}{'hottest degC':>14}{'in-cell K':>11}{'mean degC':>11}"
+             f"{'coolant out degC':>18}"]
+    for k, c in enumerate(ds["cell"].values):
+        spread = "-" if is_lumped(ds) else f"{np.nanmax(hot[k] - cold[k]):.3g}"
+        out = "-" if outlet is None else f"{np.nanmax(outlet[k]):.4g}"
+        lines.append(f"{int(c):>6}{np.nanmax(hot[k]):>14.4g}{spread:>11}"
+                     f"{np.nanmax(mean[k]):>11.4g}{out:>18}")
+    return lines
 
 
 def _cell_warnings(ds) -> list[str]:
