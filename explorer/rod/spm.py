@@ -134,6 +134,7 @@ class SPM(RodModel):
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
         self._ops: dict = {}  # (dt, T) -> _StepOperator
         self._temps: dict = {}  # T -> _AtTemperature
+        self._last_op = None  # the operator of the last step (_operator)
         self._ea = np.array(self._activation_energies())
         self._cmax = np.array([e.max_concentration_mol_m3 for e in self._electrodes])
         self._cmax_f = tuple(self._cmax.tolist())
@@ -266,9 +267,12 @@ class SPM(RodModel):
         probe = np.linspace(0.5, 2.0, ea)
         linear = np.allclose(R @ probe, np.asarray(self._rates(probe), dtype=float),
                              rtol=1e-12, atol=0.0)
-        return {"sizes": np.array(sizes), "lam": lam,
-                "RL": np.repeat(R, sizes, axis=0) * lam[:, None] if linear else None,
+        RL = np.repeat(R, sizes, axis=0) * lam[:, None] if linear else None
+        return {"sizes": np.array(sizes), "lam": lam, "RL": RL,
+                # [1 | RL]: applied to [1, dt f] it gives every mode's 1 + dt s lam
+                "RL1": None if RL is None else np.hstack([np.ones((RL.shape[0], 1)), RL]),
                 "ea_R": self._ea / GAS_CONSTANT,
+                "ea_R_list": (self._ea / GAS_CONSTANT).tolist(),
                 "V": block_diag(*(m.V for _, m, _ in blocks)),
                 "VtW": block_diag(*(m._VtW for _, m, _ in blocks)),
                 "Vtb": np.concatenate([m.V.T @ b for _, m, b in blocks]),
@@ -276,7 +280,8 @@ class SPM(RodModel):
                 # replaced by I dt, it gives the modal amplitudes before the decay, V'W c + I dt V'b
                 "VtW_b": np.hstack([block_diag(*(m._VtW for _, m, _ in blocks)),
                                     np.concatenate([m.V.T @ b for _, m, b in blocks])[:, None]]),
-                "outer": np.array(self._outer), "surf_c": surf_c}
+                "outer": np.array(self._outer), "surf_c": surf_c,
+                "surf_c_list": surf_c.tolist()}
 
     def _at(self, T) -> _AtTemperature:
         """What the steps need of temperature ``T``, cached: the Arrhenius factors, every
@@ -288,17 +293,19 @@ class SPM(RodModel):
         plan = self._blocks
         if plan is None:
             plan = self._blocks = self._shared_plan()
-        # every property's Arrhenius factor (explorer.materials.arrhenius) in one call
-        f = np.exp(plan["ea_R"] * (1.0 / REFERENCE_K - 1.0 / T))
+        # every property's Arrhenius factor (explorer.materials.arrhenius), as Python floats:
+        # for these few, math.exp costs less than numpy's call on an array
+        x = 1.0 / REFERENCE_K - 1.0 / T
+        f = [math.exp(e * x) for e in plan["ea_R_list"]]
         at = _AtTemperature()
-        at.T, at.f = T, f.tolist()
-        if plan["RL"] is not None:
-            at.rate_lam = plan["RL"].dot(f)
-        else:
-            at.rate_lam = np.repeat(np.asarray(self._rates(f), dtype=float),
-                                    plan["sizes"]) * plan["lam"]
+        at.T, at.f = T, f
+        # every mode's decay rate, when the rates are not linear in the factors (else the
+        # step's operator takes them in one product, :meth:`_operator`)
+        at.rate_lam = None if plan["RL1"] is not None else np.repeat(
+            np.asarray(self._rates(f), dtype=float), plan["sizes"]) * plan["lam"]
         # surface = outer shell's value less the extrapolation to the surface, per ampere
-        at.extrap = (plan["surf_c"][0] / at.f[0], plan["surf_c"][1] / at.f[1])
+        surf_c = plan["surf_c_list"]
+        at.extrap = (surf_c[0] / f[0], surf_c[1] / f[1])
         self._fill_constants(at)
         if len(self._temps) >= CACHE_SIZE:
             self._temps.clear()
@@ -308,17 +315,27 @@ class SPM(RodModel):
     def _operator(self, dt, T) -> _StepOperator:
         """The whole step's linear part at ``(dt, T)``, cached: backward Euler in each part's
         eigenbasis, every mode decays by ``1 / den``, ``den = 1 + dt s lam``; the response per ampere
-        ``q`` is made only when a control needs the current solved for (:meth:`_response`)."""
+        ``q`` is made only when a control needs the current solved for (:meth:`_response`).
+        The last operator is checked first: a retried step, or a run at one temperature."""
+        op = self._last_op
+        if op is not None and op.dt == dt and op.at.T == T:
+            return op
         key = (dt, T)
         op = self._ops.get(key)
-        if op is not None:
-            return op
-        op = _StepOperator()
-        op.at = at = self._at(T)
-        op.dt, op.den, op.q, op.surf_q = dt, 1.0 + dt * at.rate_lam, None, None
-        if len(self._ops) >= CACHE_SIZE:
-            self._ops.clear()
-        self._ops[key] = op
+        if op is None:
+            op = _StepOperator()
+            op.at = at = self._at(T)
+            if at.rate_lam is None:  # den = [1 | RL] @ [1, dt f], one product
+                fdt = [dt * v for v in at.f]
+                fdt.insert(0, 1.0)
+                den = self._blocks["RL1"].dot(fdt)
+            else:
+                den = 1.0 + dt * at.rate_lam
+            op.dt, op.den, op.q, op.surf_q = dt, den, None, None
+            if len(self._ops) >= CACHE_SIZE:
+                self._ops.clear()
+            self._ops[key] = op
+        self._last_op = op
         return op
 
     def _response(self, op):
