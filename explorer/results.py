@@ -87,9 +87,19 @@ def _stacked(maps) -> np.ndarray:
 
 
 def _assemble(data: dict, coords: dict, attrs: dict) -> xr.Dataset:
-    """``xr.Dataset(data, coords=coords, attrs=attrs)``: the public constructor only (a private
-    shortcut saved about 0.4 ms a run, not worth a dependency on xarray's internals)."""
-    return xr.Dataset(data, coords=coords, attrs=attrs)
+    """``xr.Dataset(data, coords=coords, attrs=attrs)`` with the 1-D dimension coordinates'
+    indexes made here (public ``xarray.Coordinates`` and ``PandasIndex``): the same Dataset
+    as letting the constructor infer them, about 0.1 ms (a tenth of it) sooner on a short
+    run. ``coords``: name -> (dim, values, attrs), each dimension coordinate of its own
+    name. (A private shortcut into xarray's internals, tried earlier, saved 0.4 ms: not
+    worth the dependency.)"""
+    import pandas as pd
+    from xarray.indexes import PandasIndex
+
+    variables = {name: xr.Variable(dim, np.asarray(values), attrs)
+                 for name, (dim, values, attrs) in coords.items()}
+    indexes = {name: PandasIndex(pd.Index(v.values), name) for name, v in variables.items()}
+    return xr.Dataset(data, coords=xr.Coordinates(variables, indexes=indexes), attrs=attrs)
 
 
 def to_dataset(record, *, cell, grid, attrs: dict) -> xr.Dataset:

@@ -92,8 +92,6 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
     >>> cell = explorer.load_cell("demo_cells/van_nmc_66ah.toml")     # doctest: +SKIP
     >>> ds = explorer.simulate(cell, explorer.duty.discharge(c_rate=1.0))  # doctest: +SKIP
     """
-    from explorer.rod import RodParameters, make_rod
-
     cell = _cell(cell)
     electrochemistry = _choice("electrochemistry", electrochemistry, ELECTROCHEMISTRY)
     layout = _choice("layout", layout, LAYOUTS)
@@ -110,28 +108,8 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
         the_grid = _grid(g.width_m, g.height_m, grid)
     position = _position(cooling, position)
     sinks = _sinks(cooling, cell, the_grid, position)
-
-    rod = make_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
-    if layout == "single":
-        thermal = LumpedThermal(cell, sinks, fitted=True)
-        coupling = Coupling()
-        r_collector = 0.0
-    else:
-        from explorer.inplane.collector import CollectorNetwork
-        from explorer.inplane.thermal import PlaneThermal
-
-        network = CollectorNetwork(cell, the_grid)
-        thermal = PlaneThermal(cell, the_grid, sinks, fitted=True)
-        r_collector = network.resistance_ohm
-        if layout == "averaged":
-            coupling = Coupling(network.resistance_ohm, network.joule_map_W_per_A2,
-                                dict(network.tab_joule_W_per_A2))
-        else:
-            from explorer.stepping.distributed import DistributedRods
-
-            rod_grid = _rods(g.width_m, g.height_m, rods)
-            rod = DistributedRods(rod, network, the_grid, rod_grid)
-            coupling = Coupling()
+    rod, thermal, coupling, r_collector, rod_grid = cell_pieces(
+        cell, electrochemistry, layout, the_grid, sinks, mesh=mesh, rods=rods)
     record = run(rod, thermal, steps, start_soc=start_soc,
                  start_temperature_C=start_temperature_C, coupling=coupling,
                  settings=_settings(cell, output_interval_s), progress=progress)
@@ -142,7 +120,7 @@ def simulate(cell, duty, cooling=None, electrochemistry: str = "spme", layout: s
                       start_soc=start_soc, start_temperature_C=start_temperature_C,
                       thermal=thermal, r_collector=r_collector,
                       output_interval_s=output_interval_s, into_coolant_W=mean_rejected,
-                      mesh=mesh, rod_grid=rod_grid if layout == "distributed" else None)
+                      mesh=mesh, rod_grid=rod_grid)
     attrs["cell_position"] = position
     # cells in series on this cell's coolant path: more than one means a module verdict needs
     # explorer.simulate_module (the limits check says so)
@@ -304,9 +282,9 @@ def cell_pieces(cell, electrochemistry, layout, the_grid, sinks, mesh=None, rods
     for the distributed layout, ``rod_grid`` None otherwise. Used by
     :mod:`explorer.module`.
     """
-    from explorer.rod import RodParameters, make_rod
+    from explorer.rod import RodParameters, shared_rod
 
-    rod = make_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
+    rod = shared_rod(electrochemistry, RodParameters.from_cell(cell), mesh=mesh)
     if layout == "single":
         return rod, LumpedThermal(cell, sinks, fitted=True), Coupling(), 0.0, None
     from explorer.inplane.collector import CollectorNetwork

@@ -19,9 +19,9 @@ from explorer.rod.dfn import DFN
 from explorer.rod.heat import HEAT_KEYS
 from explorer.rod.mesh import RodMesh
 from explorer.rod.params import RodParameters
-from explorer.rod.registry import MODELS, make_rod
+from explorer.rod.registry import MODELS, make_rod, shared_rod
 from explorer.rod.spm import SPM
 from explorer.rod.spme import SPMe
 
 __all__ = ["Control", "RodModel", "RodStepError", "StepResult", "RodParameters", "RodMesh",
-           "MODELS", "make_rod", "SPM", "SPMe", "DFN", "HEAT_KEYS"]
+           "MODELS", "make_rod", "shared_rod", "SPM", "SPMe", "DFN", "HEAT_KEYS"]
