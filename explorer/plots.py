@@ -428,6 +428,24 @@ def _demo_geometry(ds):
 _GEOMETRY_CACHE: dict = {}
 
 
+def _face_geometry(ds, cell=None):
+    """The geometry the outline draws, first found of: ``cell.geometry``; the face geometry the
+    Dataset records (:func:`explorer.results.face_geometry`); the bundled demo cell the run
+    used (files written before it was recorded); None (the outline from the grid alone)."""
+    geometry = getattr(cell, "geometry", None)
+    if geometry is not None:
+        return geometry
+    from explorer.results import face_geometry
+
+    try:
+        geometry = face_geometry(ds)
+    except ValueError:  # a damaged attribute must not cost the picture: try the next source
+        logger.debug("unreadable face geometry in the results; trying the demo cells",
+                     exc_info=True)
+        geometry = None
+    return geometry if geometry is not None else _demo_geometry(ds)
+
+
 def _cooling_parts(ds) -> list[dict]:
     import json
 
@@ -444,10 +462,14 @@ def _cooling_parts(ds) -> list[dict]:
 def face_outline(ds, cell=None) -> dict:
     """The shapes that outline the face: the cell's edges, its tabs (cooled tabs in blue) and
     where the cooling acts (a thick line along a cooled edge, a dashed footprint for a plate
-    under a face). Returns ``{"shapes", "width_mm", "height_mm", "pad_mm", "notes"}``."""
+    under a face). Returns ``{"shapes", "width_mm", "height_mm", "pad_mm", "notes"}``.
+
+    The tabs come from ``cell`` when given, else from the face geometry the results file
+    records (``ds.attrs["face_geometry"]``), else, for an older file of a bundled demo cell,
+    from that cell; failing all three, the outline of the grid is drawn alone."""
     x = np.asarray(ds["x"].values, dtype=float) * 1e3
     y = np.asarray(ds["y"].values, dtype=float) * 1e3
-    geometry = getattr(cell, "geometry", None) or _demo_geometry(ds)
+    geometry = _face_geometry(ds, cell)
     if geometry is not None:
         width, height = geometry.width_m * 1e3, geometry.height_m * 1e3
     else:  # from the grid: cell centres half a control volume in from each edge

@@ -45,12 +45,20 @@ Attributes: tool version, cell name, file and SHA-256, every model setting
 "stopped", "failed") with ``status_message``, ``duty_step_ends`` (JSON: per
 duty step, what ended it), and the ``caution``. :func:`run_warnings` turns a
 status other than "completed" into the warning every verdict must carry.
+
+``face_geometry`` (JSON, lengths in m, the cell model's conventions: origin at
+the bottom-left corner of the coated face, a tab's ``position_m`` is its centre
+along its edge) is what the field maps draw without the cell file:
+``{"width_m", "height_m", "tabs": [{"name", "edge", "position_m", "width_m",
+"free_length_m", "polarity", "material"}]}`` (:func:`face_geometry_attr` writes
+it, :func:`face_geometry` reads it back as a :class:`FaceGeometry`).
 """
 
 from __future__ import annotations
 
 import json
 import math
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -599,7 +607,8 @@ def data_attrs(cell, steps=()) -> dict:
     or assumed input: the cell, a load profile marked invented in its header),
     ``cell_file`` (the file name only) and ``cell_file_sha256``; ``cell_warnings`` (JSON list)
     when the cell carries warnings (e.g. an inconsistent geometry); ``cell_tables`` (JSON:
-    field -> {"file": name only, "sha256"}) when the cell file names measured curve tables.
+    field -> {"file": name only, "sha256"}) when the cell file names measured curve tables;
+    ``face_geometry`` (JSON, m: :func:`face_geometry_attr`) so field maps draw its tabs.
     """
     extra = getattr(cell, "extra", {}) or {}
     note = str(extra.get("data_note", "") or "")
@@ -625,7 +634,108 @@ def data_attrs(cell, steps=()) -> dict:
             str(key): {"file": Path(str(t.get("file") or t.get("path") or "")).name,
                        "sha256": str(t.get("sha256", ""))}
             for key, t in tables.items() if isinstance(t, dict)})
+    face = face_geometry_attr(cell)
+    if face is not None:
+        out[FACE_GEOMETRY] = face
     return out
+
+
+# ---------------------------------------------------------------------------------------------
+# the face geometry a results file carries, so its field maps draw the cell's own tabs
+
+#: The attribute holding the face geometry (JSON; lengths in m).
+FACE_GEOMETRY = "face_geometry"
+_EDGES = ("bottom", "top", "left", "right")  # as explorer.cell.model.EDGES (no cell import here)
+
+
+@dataclass(frozen=True)
+class FaceTab:
+    """A tab as the field maps draw it (lengths in m; ``position_m``: centre along its edge)."""
+
+    name: str
+    edge: str
+    position_m: float
+    width_m: float
+    free_length_m: float
+    polarity: str
+    material: str = ""
+
+
+@dataclass(frozen=True)
+class FaceGeometry:
+    """The coated face (m) and its tabs, read from a results file (:func:`face_geometry`);
+    offers what :func:`explorer.plots.face_outline` reads of a cell's ``geometry``."""
+
+    width_m: float
+    height_m: float
+    tabs: tuple[FaceTab, ...] = ()
+
+
+def face_geometry_attr(cell) -> str | None:
+    """The ``face_geometry`` attribute of ``cell`` (compact JSON, lengths in m rounded to
+    0.1 um: a few hundred bytes), or None for an object without a geometry."""
+    g = getattr(cell, "geometry", None)
+    if g is None:
+        return None
+    try:
+        data = {"width_m": _round_m(g.width_m), "height_m": _round_m(g.height_m),
+                "tabs": [{"name": str(t.name), "edge": str(t.edge),
+                          "position_m": _round_m(t.position_m), "width_m": _round_m(t.width_m),
+                          "free_length_m": _round_m(t.free_length_m),
+                          "polarity": str(t.polarity), "material": str(t.material)}
+                         for t in g.tabs]}
+    except (AttributeError, TypeError, ValueError):  # not a cell geometry: nothing to record
+        return None
+    return json.dumps(data, separators=(",", ":"))
+
+
+def _round_m(value) -> float:
+    return round(float(value), 7)
+
+
+def face_geometry(ds) -> FaceGeometry | None:
+    """The face geometry recorded in ``ds.attrs["face_geometry"]``, or None when the file has
+    none (written before it was recorded). Raises :class:`InputError` naming the field when
+    the attribute is there but malformed."""
+    raw = ds.attrs.get(FACE_GEOMETRY)
+    if raw is None:
+        return None
+    where = f"results attribute `{FACE_GEOMETRY}`"
+    try:
+        data = json.loads(raw) if isinstance(raw, str | bytes) else raw
+    except ValueError as exc:
+        raise InputError(f"{where}: not JSON ({exc})") from None
+    if not isinstance(data, dict):
+        raise InputError(f"{where}: expected a JSON object, got {type(data).__name__}")
+    tabs = data.get("tabs", [])
+    if not isinstance(tabs, list):
+        raise InputError(f"{where}: `tabs` must be a list, got {type(tabs).__name__}")
+    return FaceGeometry(width_m=_length(data, "width_m", where, positive=True),
+                        height_m=_length(data, "height_m", where, positive=True),
+                        tabs=tuple(_face_tab(t, f"{where}, tab {k}")
+                                   for k, t in enumerate(tabs)))
+
+
+def _face_tab(tab, where: str) -> FaceTab:
+    if not isinstance(tab, dict):
+        raise InputError(f"{where}: expected a JSON object, got {type(tab).__name__}")
+    edge = tab.get("edge")
+    if edge not in _EDGES:
+        raise InputError(f"{where}: `edge` = {edge!r}; expected one of {', '.join(_EDGES)}")
+    return FaceTab(name=str(tab.get("name", "")), edge=edge,
+                   position_m=_length(tab, "position_m", where),
+                   width_m=_length(tab, "width_m", where, positive=True),
+                   free_length_m=_length(tab, "free_length_m", where),
+                   polarity=str(tab.get("polarity", "")), material=str(tab.get("material", "")))
+
+
+def _length(data: dict, key: str, where: str, positive: bool = False) -> float:
+    value = data.get(key)
+    ok = isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value)
+    if not ok or value < 0 or (positive and value == 0):
+        kind = "a positive" if positive else "a non-negative"
+        raise InputError(f"{where}: `{key}` = {value!r}; expected {kind} length in m")
+    return float(value)
 
 
 def _marked(text: str) -> bool:
