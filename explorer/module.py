@@ -205,6 +205,11 @@ class ModuleThermal:
         self._probe = np.unique(np.linspace(0, n - 1, min(n, 97)).astype(int))
 
     # -- the contract ------------------------------------------------------------------
+    @property
+    def factorises_per_step_size(self) -> bool:
+        """As the cell's own model (the stepper keeps the steps on a ladder of sizes if so)."""
+        return getattr(self.model, "factorises_per_step_size", True)
+
     def initial_state(self, temperature_C: float) -> np.ndarray:
         """Every cell at ``temperature_C``; each cell's coolant nodes fed by the one before."""
         m = self.model

@@ -62,8 +62,10 @@ class _Wrapped:
 
 
 def _wrap_rods(monkeypatch, change):
+    # the factory simulate takes its rod from (a fresh model here, never the shared one)
     real = explorer.rod.make_rod
-    monkeypatch.setattr(explorer.rod, "make_rod", lambda *a, **k: _Wrapped(real(*a, **k), change))
+    monkeypatch.setattr(explorer.rod, "shared_rod",
+                        lambda *a, **k: _Wrapped(real(*a, **k), change))
 
 
 def _ends(ds):

@@ -36,4 +36,9 @@ Optional:
    then keeps each recorded state and asks once when the run ends, instead of
    calling the single-state members at every record. Only for models whose
    figures depend on the state alone (not on settings changed during a run).
+8. ``factorises_per_step_size`` -- False for a model whose step costs the same
+   whatever its size (the lumped cell): the stepper then takes the step sizes
+   its error control asks for. Absent or True (the 2-D field, which caches one
+   sparse factorisation per size): the sizes are kept to a ladder, so the
+   factorisations are reused.
 """

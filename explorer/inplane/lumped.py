@@ -46,6 +46,10 @@ class LumpedThermal:
     :func:`explorer.simulate` and :func:`explorer.simulate_module` use the fitted step.
     """
 
+    # a step costs a few float operations whatever its size: nothing to reuse between steps
+    # of one size, so the stepper takes the sizes its error control asks for
+    factorises_per_step_size = False
+
     def __init__(self, cell, sinks=None, *, fitted: bool = False):
         g = cell.geometry
         self.grid = Grid.single(g.width_m, g.height_m)

@@ -194,6 +194,9 @@ class PlaneThermal:
     >>> x, rejected = model.step(x, heat_W, 10.0)             # doctest: +SKIP
     """
 
+    # one sparse factorisation per step size (cached): the stepper keeps to a ladder of sizes
+    factorises_per_step_size = True
+
     def __init__(self, cell, grid: Grid, sinks: Sinks | None = None, *,
                  throughplane: bool = True, cache_size: int = 4, fitted: bool = False):
         sinks = Sinks() if sinks is None else sinks

@@ -125,6 +125,11 @@ def _ladder(dt: float) -> float:
     return 2.0 ** (math.floor(2.0 * math.log2(dt) + 1e-9) / 2.0)
 
 
+def _as_asked(dt: float) -> float:
+    """``dt`` as the error control asks for it (a thermal model with nothing to reuse)."""
+    return dt
+
+
 def _on_grid(t, interval) -> bool:
     k = round(t / interval)
     return k >= 1 and abs(t - k * interval) <= 1e-9 * max(1.0, t)
@@ -308,6 +313,11 @@ class _Stepper:
         # (looked up on its class likewise); else from its temperature field
         self.max_T = getattr(type(thermal), "max_temperature_C", None)
         self.kept_states = []
+        # a thermal model that factorises per step size (the 2-D field) keeps the steps on a
+        # ladder of sizes, so its factorisations are reused; one that does not (the lumped
+        # cell) takes the step the error control asks for (up to a third longer)
+        self.rung = (_ladder if getattr(thermal, "factorises_per_step_size", True)
+                     else _as_asked)
         self.rows = []  # one tuple per record (see _record), into the Record at the end
         # a fitted thermal model (exponential fitting: its slowest mode exact on any step), or
         # one stepping a fitted model for several cells, reports the flows at the new state
@@ -479,7 +489,7 @@ class _Stepper:
                 limit = min(limit, t0 + step.next_breakpoint(t_in))
             # the longest step is taken as it is, not the rung below it: one step size more
             # to factorise per duty step, and a fifth fewer steps on a long one
-            dt = min(interval if wanted >= interval else _ladder(wanted), limit - self.t)
+            dt = min(interval if wanted >= interval else self.rung(wanted), limit - self.t)
             if dt <= 1e-9:  # an output time within round-off: skip to the next one
                 dt = min(wanted, limit - self.t + (grid or interval))
             control = fixed or self._control(step, t_in)
@@ -525,7 +535,7 @@ class _Stepper:
             # few small growths added up, and a step twice as long doubles the error estimate, so
             # at an error over half the tolerance the try was rejected and paid for a solve
             # never below dt_min: a step forced there is counted above, not shrunk to nothing
-            wanted = max(min(max(_ladder(wanted), dt) * grow, interval), s.dt_min_s)
+            wanted = max(min(max(self.rung(wanted), dt) * grow, interval), s.dt_min_s)
 
     def _spacing(self, step: ResolvedStep):
         """(longest step, record time base or None for every step) for a duty step."""
