@@ -780,13 +780,19 @@ def cmd_sweep(scenario, out=None, scheduler=None) -> int:
     if sc.sweep is None:
         raise ScenarioError(f"{sc.path}: no `[sweep]` table; expected `[sweep.axes]`")
     options = {k: v for k, v in sc.sweep.items() if k != "axes"}
+    # as `run`: every cell on a case's coolant path is judged; `model.position` only picks
+    # the cell a single-cell run stands for, so a sweep would judge one cell of a module
+    model = {k: v for k, v in sc.model.items() if k != "position"}
+    notes = ([f"note: `model.position` = {sc.model['position']} is not used: each case runs "
+              "every cell on its coolant path (as `run` does)"] if "position" in sc.model
+             else [])
     ds = sweep(sc.cell, sc.duty, sc.cooling, sc.sweep["axes"], scheduler=scheduler,
-               limits=sc.limits, **options, **sc.model)
+               limits=sc.limits, **options, **model)
     ds.attrs.update({k: v for k, v in data_attrs(sc.cell, sc.duty).items()
                      if k not in ds.attrs or k == "cell_file"})
     path = save(ds, _out_dir(sc, out) / f"{sc.path.stem}_sweep.nc", limits=sc.limits)
-    _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", sweep_table(ds),
-            f"wrote {path}"])
+    _print([f"scenario: {sc.name}  ({sc.path})", f"cell: {sc.cell.name}", *notes,
+            sweep_table(ds), f"wrote {path}"])
     return 0 if ds.attrs["cases_failed"] == 0 else 1
 
 

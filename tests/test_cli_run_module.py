@@ -144,6 +144,20 @@ def test_position_is_not_used_on_a_module_and_says_so(tmp_path, capsys):
     assert re.search(r"^cell_to_cell_K\s.*\bmet$", out, re.MULTILINE)
 
 
+def test_sweep_judges_the_module_too_whatever_position_says(tmp_path, capsys):
+    # `sweep` on the same file as `run`: each case runs every cell on its coolant path; a
+    # `model.position` (which would run that one cell) is set aside with the same kind of note
+    path = _write(tmp_path, layout="single", model_extra="position = 1")
+    with path.open("a", encoding="utf-8") as f:
+        f.write("[sweep.axes]\nflow_L_min = [0.2, 0.4]\n")
+    code = main(["sweep", str(path), "--out", str(tmp_path / "out"), "--scheduler", "serial"])
+    out = capsys.readouterr().out
+    assert code == 0, out
+    assert "`model.position` = 1 is not used" in out
+    ds = xr.load_dataset(tmp_path / "out" / "plate_sweep.nc")
+    assert np.all(np.isfinite(ds["cell_to_cell_K"].values))
+
+
 def test_a_model_setting_a_module_does_not_take_is_refused(tmp_path, capsys, monkeypatch):
     # no such key today besides `position`; a future single-cell-only setting (here `rods`)
     # must not be dropped silently
