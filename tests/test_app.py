@@ -199,10 +199,13 @@ def test_run_updates_figures_in_place_and_matches_the_dataset(fake_simulate):
     app.time_slider.value = 3
     assert app.fig_temperature.figure is fig and fig.data[0] is heatmap
     np.testing.assert_allclose(np.asarray(fig.data[0].z), ds["temperature"].isel(time=3).values)
+    # the other tabs follow the time when shown (tests/test_app_play.py: not before)
+    app.output_tabs.selected_index = app._tab_figures.index([app.fig_soc, app.fig_heat_flux])
     np.testing.assert_allclose(np.asarray(app.fig_heat_flux.figure.data[0].z),
                                ds["heat_flux"].isel(time=3).values)
     # the synthetic run's SOC is one value over the face: explained, not drawn as a flat colour
     assert "one value over the face" in app.fig_soc.figure.layout.annotations[0].text
+    app.output_tabs.selected_index = app._tab_figures.index([app.fig_traces])
     marker = [s for s in app.fig_traces.figure.layout.shapes if s.name == "time marker"]
     assert marker and marker[0].x0 == pytest.approx(float(ds["time"].values[3]) / 60.0)
     # a second run changes the data of the same figure objects

@@ -8,6 +8,10 @@ Verdicts come from ``explorer.Limits.check``: each limit is "met", "NOT met" or 
 (with the reason), labelled with the figure that governs it, and the run's warnings (a duty cut
 short) stand beside them. When several cells share the plate's coolant the run is the whole module
 (``explorer.simulate_module``); the Module tab shows it and the other tabs show one of its cells.
+
+The time slider and the play button move only the figures of the shown output tab (the field maps,
+the traces' time marker); a tab's figures are brought to the current time when it is shown. A new
+run, a picked cell and the colour range reach every tab at once.
 """
 
 from __future__ import annotations
@@ -208,6 +212,11 @@ class ExplorerApp(widgets.VBox):
         self._busy = False
         self._time_index = 0
         self._marker_shape: list[int] = []
+        # the time each time-tied figure shows: a figure on a hidden tab is left where it was
+        # while the time moves, and brought to the current time when its tab is shown
+        self._figure_time: dict[LiveFigure, int] = {}
+        self._time_lock = threading.RLock()  # the play thread against tab switches and new runs
+        self._time_follows_hidden_tabs = False  # the old path (every tab follows), for the bench
 
         self.rows = {name: _Row(name, f, demo) for name, f in FIELDS.items()}
         if "cell" in self.rows and demo and FIELDS["cell"].default not in demo:
@@ -430,11 +439,16 @@ class ExplorerApp(widgets.VBox):
             self._prepare()
 
     def _tab_changed(self, selected) -> None:
-        for k, figures in enumerate(self._tab_figures):
-            for live in figures:
-                live.show(k == selected)
-                if k == selected:
-                    _refit(live)
+        """Show the figures of tab ``selected`` (brought to the current time first, in one
+        update each) and mark the others hidden."""
+        with self._time_lock:
+            shown = self._tab_figures[selected] if selected is not None else []
+            self._follow_time(shown)  # while still hidden: a plain figure is drawn once, below
+            for k, figures in enumerate(self._tab_figures):
+                for live in figures:
+                    live.show(k == selected)
+                    if k == selected:
+                        _refit(live)
 
     # -----------------------------------------------------------------------------------------
     # inputs
@@ -663,7 +677,12 @@ class ExplorerApp(widgets.VBox):
         self._show_view(cell_view(self.dataset, int(k))[0])
 
     def _show_view(self, ds) -> None:
-        """Fill the single-cell panels (fields, traces, heat, summary) from ``ds``."""
+        """Fill the single-cell panels (fields, traces, heat, summary) from ``ds``: every tab,
+        hidden ones too, at the time it opens on."""
+        with self._time_lock:
+            self._fill_view(ds)
+
+    def _fill_view(self, ds) -> None:
         self._view = ds
         n = int(ds.sizes["time"])
         hottest = "temperature_hottest" if "temperature_hottest" in ds else "temperature_max"
@@ -676,6 +695,7 @@ class ExplorerApp(widgets.VBox):
                          name=_TIME_MARKER)
         self._marker_shape = [k for k, s in enumerate(traces.layout.shapes) if s.name == _TIME_MARKER]
         _replace(self.fig_traces, traces)
+        self._figure_time[self.fig_traces] = index
         heat = plots.heat_split_figure(heat_view(self.dataset))
         if "cell" in self.dataset.dims:
             heat.update_layout(title_text=f"Heat generation by source, whole module "
@@ -746,7 +766,9 @@ class ExplorerApp(widgets.VBox):
         return mode if mode in ("frame", "run") else "frame"
 
     def _colors_changed(self) -> None:
-        if self._view is not None:
+        if self._view is None:
+            return
+        with self._time_lock:  # a colour range reaches the maps of every tab
             self._show_fields(self._view, max(self._time_index, 0))
             self._time_index = -1
             self.set_time(self.time_slider.value)
@@ -777,43 +799,73 @@ class ExplorerApp(widgets.VBox):
                                       live.figure.layout.height)
             _replace(live, source)
             self._field_drawn[variable] = drawn
+            self._figure_time[live] = index
 
     def _field_figures(self):
         return ((self.fig_temperature, "temperature"), (self.fig_soc, "soc"),
                 (self.fig_heat_flux, "heat_flux"))
 
     def set_time(self, index: int) -> None:
-        """Move every field picture (and the traces' time marker) to time ``index`` in place."""
+        """Move to time ``index``: the time label, and the field pictures and the traces' time
+        marker on the visible tab, in place. Figures on hidden tabs keep their time until their
+        tab is shown (:meth:`_tab_changed`), so playing costs only what the engineer sees."""
         ds = self._view
         if ds is None:
             return
         index = int(np.clip(index, 0, ds.sizes["time"] - 1))
-        if index == self._time_index:
-            return
-        self._time_index = index
-        for live, variable in self._field_figures():
-            if not self._field_drawn.get(variable):
-                continue
-            frame = plots.field_frame(ds, variable, index, color_range=self._color_range(variable))
-            fig = live.figure
-            spot = plots.spot_annotation(frame, plots.FIELDS[variable][1])
-            with fig.batch_update():
-                fig.data[0].z = frame["z"]
-                fig.data[0].zmin, fig.data[0].zmax = frame["zmin"], frame["zmax"]
-                fig.layout.annotations[0].update(x=spot["x"], y=spot["y"], ay=spot["ay"],
-                                                 text=spot["text"])
-                fig.layout.title.text = frame["title"]
-            live.refresh()
-        _, _, divisor = plots.time_axis(ds)
-        t = float(ds["time"].values[index])
-        fig = self.fig_traces.figure
+        with self._time_lock:
+            if index == self._time_index or ds is not self._view:
+                return
+            self._time_index = index
+            figures = [live for live, _ in self._time_figures()]
+            if not self._time_follows_hidden_tabs:
+                figures = [live for live in figures if live.visible]
+            self._follow_time(figures)
+            t = float(ds["time"].values[index])
+            self.time_label.value = f"t = {t:.0f} s ({index + 1} of {ds.sizes['time']})"
+
+    def _time_figures(self):
+        """``(figure, move)`` for every figure tied to the time: the field maps drawn as maps
+        and the traces with their time marker; ``move(index)`` updates the figure in place."""
+        out = [(live, lambda k, live=live, v=variable: self._move_field(live, v, k))
+               for live, variable in self._field_figures() if self._field_drawn.get(variable)]
         if self._marker_shape:
-            with fig.batch_update():
-                for k in self._marker_shape:
-                    fig.layout.shapes[k].x0 = t / divisor
-                    fig.layout.shapes[k].x1 = t / divisor
-            self.fig_traces.refresh()
-        self.time_label.value = f"t = {t:.0f} s ({index + 1} of {ds.sizes['time']})"
+            out.append((self.fig_traces, self._move_marker))
+        return out
+
+    def _follow_time(self, figures) -> None:
+        """Bring the time-tied ones of ``figures`` to the current time (each at most once)."""
+        index = self._time_index
+        if self._view is None or index < 0:
+            return
+        wanted = {id(live) for live in figures}
+        for live, move in self._time_figures():
+            if id(live) in wanted and self._figure_time.get(live) != index:
+                move(index)
+                self._figure_time[live] = index
+
+    def _move_field(self, live, variable: str, index: int) -> None:
+        frame = plots.field_frame(self._view, variable, index,
+                                  color_range=self._color_range(variable))
+        fig = live.figure
+        spot = plots.spot_annotation(frame, plots.FIELDS[variable][1])
+        with fig.batch_update():
+            fig.data[0].z = frame["z"]
+            fig.data[0].zmin, fig.data[0].zmax = frame["zmin"], frame["zmax"]
+            fig.layout.annotations[0].update(x=spot["x"], y=spot["y"], ay=spot["ay"],
+                                             text=spot["text"])
+            fig.layout.title.text = frame["title"]
+        live.refresh()
+
+    def _move_marker(self, index: int) -> None:
+        _, _, divisor = plots.time_axis(self._view)
+        x = float(self._view["time"].values[index]) / divisor
+        fig = self.fig_traces.figure
+        with fig.batch_update():
+            for k in self._marker_shape:
+                fig.layout.shapes[k].x0 = x
+                fig.layout.shapes[k].x1 = x
+        self.fig_traces.refresh()
 
     def _summary_html(self, ds, whole) -> str:
         """Key figures and verdicts of the whole result ``whole`` (a module: its worst cell);
