@@ -187,3 +187,14 @@ def test_a_sweep_with_fields_keeps_the_geometry(own):
                {"flow_L_min": [1.0, 2.0]}, scheduler="serial", keep_fields=True,
                progress=False, **RUN)
     _assert_own_tabs(_tabs(plots.face_outline(ds)))
+
+
+def test_the_app_draws_a_loaded_files_own_tabs_not_its_last_runs(own):
+    """The app's last run was the demo cell; results of another cell shown afterwards (loaded
+    from a file) draw that cell's recorded tabs, not the demo cell's."""
+    _, loaded = own
+    app = explorer.explore()
+    assert app.run() is not None, app.last_error  # the default inputs: the van demo cell
+    app.show(loaded)
+    shapes = [s.to_plotly_json() for s in app.fig_temperature.figure.layout.shapes]
+    _assert_own_tabs({s["name"]: s for s in shapes if str(s.get("name", "")).startswith("tab ")})

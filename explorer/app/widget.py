@@ -641,9 +641,13 @@ class ExplorerApp(widgets.VBox):
         """Show ``ds`` in every panel (figures updated in place) and make it the current result.
 
         A module result (dimension ``cell``) fills the Module tab; the other tabs show its hottest
-        cell (another can be picked in the Module tab).
+        cell (another can be picked in the Module tab). Results read from a file saved light
+        (fields on their own ``field_time``) are shown at the stored field times.
         """
+        from explorer.results import field_view
+
         self._ensure_ready()
+        ds = field_view(ds)
         self.dataset = ds
         view, cell = cell_view(ds)
         self._show_module(ds, cell)
@@ -777,6 +781,10 @@ class ExplorerApp(widgets.VBox):
         """Draw the three field maps of ``ds`` at time ``index`` (a uniform SOC is explained,
         not drawn as one flat colour)."""
         self._field_drawn = {}
+        # the app's last cell outlines only its own results; results loaded from a file (or
+        # another cell's) draw the face the file records
+        cell = (self._cell if self._cell is not None
+                and getattr(self._cell, "sha256", None) == ds.attrs.get("cell_sha256") else None)
         for live, variable in self._field_figures():
             label = plots.FIELDS[variable][0]
             drawn = False
@@ -789,7 +797,7 @@ class ExplorerApp(widgets.VBox):
             elif _has_field(ds, variable):
                 source = plots.field_figure(ds, variable, index=index, animate=False,
                                             color_range=self._color_range(variable),
-                                            cell=self._cell, width_px=_FIELD_WIDTH_PX)
+                                            cell=cell, width_px=_FIELD_WIDTH_PX)
                 drawn = True
             elif variable in ds:  # layout 'single': one value, not a 1 mm square of colour
                 source = _placeholder(f"{label}: one value over the face (layout 'single'); no "
