@@ -279,7 +279,7 @@ def cell_pieces(cell, electrochemistry, layout, the_grid, sinks, mesh=None, rods
 
     Arguments already checked (as in :func:`simulate`). Returns ``(rod, thermal,
     coupling, collector_resistance_ohm, rod_grid)``; ``rod`` is the grid of rods
-    for the distributed layout, ``rod_grid`` None otherwise. Used by
+    for the distributed layout, ``rod_grid`` None otherwise. Used by :func:`simulate` and
     :mod:`explorer.module`.
     """
     from explorer.rod import RodParameters, shared_rod

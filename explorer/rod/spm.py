@@ -54,7 +54,8 @@ _PLANS: dict = {}  # SPM._shared_plan
 
 class _AtTemperature:
     """What a step needs of one temperature (:meth:`SPM._at`): ``f`` the Arrhenius factors
-    (list, in :meth:`SPM._activation_energies` order), ``rate_lam`` every mode's decay rate,
+    (list, in :meth:`SPM._activation_energies` order), ``rate_lam`` every mode's decay rate
+    (None where :meth:`SPM._operator` takes them from the factors in one product),
     ``extrap`` the two surface extrapolations per ampere, and the voltage terms' constants
     (:meth:`SPM._fill_constants`)."""
 
@@ -284,9 +285,9 @@ class SPM(RodModel):
                 "surf_c_list": surf_c.tolist()}
 
     def _at(self, T) -> _AtTemperature:
-        """What the steps need of temperature ``T``, cached: the Arrhenius factors, every
-        mode's decay rate and the voltage terms' constants (a thermal run changes the
-        temperature on every accepted step, and retries a step at the same one)."""
+        """What the steps need of temperature ``T``, cached: the Arrhenius factors and the
+        voltage terms' constants (and every mode's decay rate where the rates are not linear
+        in the factors); a thermal run changes the temperature on every step."""
         at = self._temps.get(T)
         if at is not None:
             return at
