@@ -426,6 +426,16 @@ class Call:
         return size_cooling(self.cell, self.duty, self.cooling, vary=vary, bounds=bounds,
                             limits=self.limits, **self.simulate_kwargs, **kwargs)
 
+    def check_fidelity(self, base=None, **kwargs):
+        """Run ``explorer.check_fidelity`` on this design point against :attr:`limits`: the run
+        as made (``base``, run here when None) set against the fuller models; a module's worst
+        cell when several cells share the coolant. ``kwargs``: ``max_wall_s``, ``progress``."""
+        import explorer
+
+        return explorer.check_fidelity(self.cell, self.duty, self.cooling, limits=self.limits,
+                                       module=self.module, base=base, **self.simulate_kwargs,
+                                       **kwargs)
+
     def expected_duration_s(self) -> float | None:
         """A rough duration for the progress bar (None when the duty gives no good guess)."""
         v = self.inputs

@@ -12,6 +12,12 @@ short) stand beside them. When several cells share the plate's coolant the run i
 The time slider and the play button move only the figures of the shown output tab (the field maps,
 the traces' time marker); a tab's figures are brought to the current time when it is shown. A new
 run, a picked cell and the colour range reach every tab at once.
+
+Under the verdicts (Summary tab) "Check against fuller models" runs ``explorer.check_fidelity`` on
+the run shown: the DFN, a grid of rods and a doubled grid, one change at a time, within a
+wall-time cap (60 s by default, the box beside the button), and says whether a verdict could flip.
+The check is stored on the run it checked (``explorer.fidelity.attach``), so it is shown, saved
+and reported with that run only; a new run shows no check until it is checked.
 """
 
 from __future__ import annotations
@@ -34,8 +40,8 @@ from explorer.app.live import LiveFigure, _in_kernel
 
 logger = logging.getLogger(__name__)
 
-__all__ = ["ExplorerApp", "cell_view", "limits_html", "module_html", "sizing_bounds",
-           "sizing_html"]
+__all__ = ["ExplorerApp", "cell_view", "fidelity_check_html", "limits_html", "module_html",
+           "sizing_bounds", "sizing_html"]
 
 _GROUPS = ("Cell and duty", "Cooling", "Model", "Limits")
 _PANELS = ("Summary", "Temperature", "SOC and heat", "Traces", "Heat split", "Module", "Compare",
@@ -43,7 +49,13 @@ _PANELS = ("Summary", "Temperature", "SOC and heat", "Traces", "Heat split", "Mo
 _ERROR_STYLE = "color:#B2182B;font-size:0.9em;white-space:pre-wrap"
 _TIME_MARKER = "time marker"
 DEFER_PREPARE: bool | None = None  # None: in a notebook kernel only (the benchmark sets True)
+_NO_RUN_TO_CHECK = ("<span style='color:#555'>Run first: the check re-runs the run shown on the "
+                    "fuller models</span>")
+_NOT_RUN_HERE = ("<span style='color:#555'>results not run in this app (from a file) cannot be "
+                 "checked here: run their inputs to check them</span>")
 _FIELD_WIDTH_PX = 900  # the width the field maps are sized for (their height follows the cell)
+FIDELITY_CAP_S = 60  # default wall-time cap of the app's fidelity check: long enough for the
+# fuller models of a coarse-grid run (about 1 s on the defaults), short enough not to hold up a notebook
 
 
 def _results():
@@ -181,11 +193,13 @@ class ExplorerApp(widgets.VBox):
     errors : dict
         Field name -> message of the current inputs (empty when the inputs are valid).
     last_error : str or None
-        Why the last run or sizing failed (None after a success).
+        Why the last run, sizing or fidelity check failed (None after a success).
     pinned : OrderedDict
         Scenario name -> (Dataset, inputs) of the pinned runs.
     sizing : object or None
         The last result of :func:`explorer.size_cooling`.
+    fidelity : xarray.Dataset or None
+        The last :func:`explorer.check_fidelity` of the run shown (None after a new run).
     """
 
     def __init__(self, **initial):
@@ -308,6 +322,32 @@ class ExplorerApp(widgets.VBox):
         self.size_button.add_class("pte-size")
         self.size_button.on_click(lambda _: self.start_sizing())
 
+        # the fidelity check of the run shown (Summary tab, under its verdicts)
+        self.fidelity = None  # the Dataset of the last check of the run shown
+        self._check_base = None  # the app's run the check re-runs (None: no run of the app shown)
+        self.fidelity_button = widgets.Button(
+            description="Check against fuller models", icon="search", disabled=True,
+            layout=widgets.Layout(width="250px"),
+            tooltip="re-run the run shown with the DFN, a grid of rods and a doubled grid, one "
+                    "change at a time: could a verdict flip?")
+        self.fidelity_button.add_class("pte-check-fidelity")
+        self.fidelity_button.on_click(lambda _: self.start_check())
+        self.fidelity_cap = widgets.BoundedIntText(
+            value=FIDELITY_CAP_S, min=5, max=3600, description="wall-time cap (s)",
+            style={"description_width": "initial"}, layout=widgets.Layout(width="190px"),
+            tooltip="a fuller model that would not finish within this is stopped and listed")
+        self.fidelity_cap.add_class("pte-fidelity-cap")
+        # beside the button: why it is off, or why the check failed
+        self.fidelity_note = widgets.HTML(_NO_RUN_TO_CHECK)
+        self.fidelity_note.add_class("pte-fidelity-note")
+        self.fidelity_result = widgets.HTML("")
+        self.fidelity_result.add_class("pte-fidelity-result")
+        self._fidelity_box = widgets.VBox([
+            widgets.HBox([self.fidelity_button, self.fidelity_cap, self.fidelity_note],
+                         layout=widgets.Layout(align_items="center")),
+            self.fidelity_result])
+        self._fidelity_box.add_class("pte-fidelity-box")
+
         for row in self.rows.values():
             row.control.observe(self._on_change, names="value")
         self.rows["size_vary"].control.observe(lambda ch: self._vary_changed(), names="value")
@@ -381,7 +421,7 @@ class ExplorerApp(widgets.VBox):
                                      "to see the module", height=820)
         sizing_rows = [r.box for r in self.rows.values() if r.field.group == "Sizing"]
         contents = {
-            "Summary": ([self.summary], []),
+            "Summary": ([self.summary, self._fidelity_box], []),
             "Temperature": ([self.fig_temperature.widget], [self.fig_temperature]),
             "SOC and heat": ([self.fig_soc.widget, self.fig_heat_flux.widget],
                              [self.fig_soc, self.fig_heat_flux]),
@@ -489,6 +529,7 @@ class ExplorerApp(widgets.VBox):
         busy = self._busy
         self.run_button.disabled = bool(self.errors) or busy
         self.size_button.disabled = bool(self.errors) or busy or not SIZE_CHOICES[values["cooling"]]
+        self._fidelity_controls()
         for k, group in enumerate(_GROUPS):  # flag the input tabs that hold an error
             bad = any(self.rows[n].field.group == group for n in self.errors if n in self.rows)
             self.input_tabs.set_title(k, f"⚠ {group}" if bad else group)
@@ -554,7 +595,7 @@ class ExplorerApp(widgets.VBox):
         self._thread.start()
 
     def wait(self, timeout: float | None = None) -> None:
-        """Wait for a background run or sizing to finish."""
+        """Wait for a background run, sizing or fidelity check to finish."""
         if self._thread is not None:
             self._thread.join(timeout)
 
@@ -570,7 +611,7 @@ class ExplorerApp(widgets.VBox):
             return None
         self._busy = True
         self.run_button.disabled = True
-        self.size_button.disabled = True
+        self.size_button.disabled = self.fidelity_button.disabled = True
         t0 = time.perf_counter()
         try:
             call = inputs_to_call(values)
@@ -607,6 +648,7 @@ class ExplorerApp(widgets.VBox):
         self._limits = call.limits
         self._cell = call.cell
         self.inputs_used = _portable(values)
+        self._check_base = ds  # the check re-runs this run (show() forgets it for another one)
         self.show(ds)
         self.progress.value = 1.0
         self.progress.bar_style = "success" if status == "completed" else "warning"
@@ -647,6 +689,10 @@ class ExplorerApp(widgets.VBox):
         from explorer.results import field_view
 
         self._ensure_ready()
+        if ds is not self._check_base:  # not the app's run: the check has no inputs to re-run
+            self._check_base = None
+        self.fidelity = None
+        self._show_fidelity(ds)
         ds = field_view(ds)
         self.dataset = ds
         view, cell = cell_view(ds)
@@ -887,7 +933,6 @@ class ExplorerApp(widgets.VBox):
         hyd = hydraulics_html(whole)
         if hyd:
             checks += f"<h4>Cold plate hydraulics</h4>{hyd}"
-        checks += fidelity_html(whole)  # a sized run carries the check made on it
         which = ""
         if "cell" in whole.dims:
             which = (f" — the worst of the {whole.sizes['cell']} cells sharing the coolant "
@@ -958,6 +1003,7 @@ class ExplorerApp(widgets.VBox):
         t0 = time.perf_counter()
         self._busy = True
         self.run_button.disabled = self.size_button.disabled = True
+        self.fidelity_button.disabled = True
         self.status.value = f"sizing {values['size_vary']} …"
         self.progress.bar_style = "info"
         runs = [0, -1.0, 0.0]  # runs started, last simulated time, last status update
@@ -1001,8 +1047,95 @@ class ExplorerApp(widgets.VBox):
             sized = float(f"{float(result.value):.10g}")  # no float noise in the input box
             self.inputs_used = _portable({**values, vary: sized})
             self.set_inputs(**{vary: sized})  # Run now repeats the sized design
+            self._check_base = run
             self.show(run)
         return result
+
+    # -----------------------------------------------------------------------------------------
+    # how far to trust the run shown: the fuller models
+
+    def _fidelity_controls(self) -> None:
+        """The Check button: enabled when the app's own run is shown and nothing is busy."""
+        self.fidelity_button.disabled = self._busy or self._check_base is None
+
+    def _show_fidelity(self, ds) -> None:
+        """The check ``ds`` carries (made here, by the sizing, or read from its file), or none."""
+        from explorer import fidelity
+
+        summary = fidelity.from_attrs(ds)
+        self.fidelity_result.value = "" if not summary else fidelity_check_html(summary)
+        self.fidelity_note.value = "" if self._check_base is not None else _NOT_RUN_HERE
+        self._fidelity_controls()
+
+    def start_check(self) -> None:
+        """Check the run shown against the fuller models in a background thread (the button)."""
+        if self._busy or self._check_base is None:
+            return
+        self._busy = True
+        self._thread = threading.Thread(target=self.check, name="explorer-app-check", daemon=True)
+        self._thread.start()
+
+    def check(self, max_wall_s: float | None = None):
+        """Check the run shown against the fuller models now (blocking): ``explorer.check_fidelity``
+        on the inputs it was run with, within ``max_wall_s`` (default: the cap box). Return the
+        check's Dataset, or None when there is no run to check or the check failed (the reason
+        beside the button and in ``last_error``)."""
+        base = self._check_base
+        if base is None or self.inputs_used is None:
+            self._busy = False
+            self._fidelity_controls()
+            return None
+        cap = float(self.fidelity_cap.value if max_wall_s is None else max_wall_s)
+        self._busy = True
+        self.run_button.disabled = self.size_button.disabled = True
+        self.fidelity_button.disabled = True
+        self.fidelity_note.value = ""
+        self.progress.value = 0.0
+        self.progress.bar_style = "info"
+        t0, last = time.perf_counter(), [0.0]
+
+        def progress(variant, fraction):
+            now = time.perf_counter()
+            if now - last[0] < 0.1:
+                return
+            last[0] = now
+            self.progress.value = min(0.99, float(fraction))
+            self.status.value = (f"checking against the fuller models · {_esc(variant)} "
+                                 f"{float(fraction):.0%} · elapsed {now - t0:.1f} s of at most "
+                                 f"{cap:g} s")
+
+        self.status.value = f"checking against the fuller models (at most {cap:g} s) …"
+        try:
+            # the inputs the run was made with, on the very cell object it ran (not re-read)
+            call = inputs_to_call({**self.inputs_used, "cell": self._cell})
+            fid = call.check_fidelity(base=base, max_wall_s=cap, progress=progress)
+        except Exception as exc:  # the app's boundary: say why beside the button
+            logger.debug("fidelity check failed", exc_info=True)
+            reason = str(exc) if isinstance(exc, ValueError) else f"{type(exc).__name__}: {exc}"
+            self.last_error = reason
+            self.progress.bar_style = "danger"
+            self.fidelity_note.value = (f"<span style='{_ERROR_STYLE}'>check failed: "
+                                        f"{_esc(reason)}</span>")
+            self.status.value = f"<span style='{_ERROR_STYLE}'>fidelity check failed</span>"
+            return None
+        finally:
+            self._busy = False
+            self._on_change()
+        if self._check_base is not base:  # another result was shown meanwhile: not its check
+            self.status.value = "fidelity check dropped: another result is shown now"
+            return None
+        from explorer import fidelity
+
+        self.last_error = None
+        fidelity.attach(base, fid)  # kept with the run: saved, pinned and reported with it
+        self.fidelity = fid
+        self.fidelity_result.value = fidelity_check_html(fidelity.summary(fid))
+        flip = fid.attrs.get("verdict_could_flip", "not evaluated")
+        self.progress.value = 1.0
+        self.progress.bar_style = {"yes": "danger", "no": "success"}.get(flip, "warning")
+        self.status.value = (f"checked against the fuller models in {time.perf_counter() - t0:.1f}"
+                             f" s: verdict could flip: {_esc(flip)} (Summary tab)")
+        return fid
 
     # -----------------------------------------------------------------------------------------
     # files
@@ -1430,6 +1563,47 @@ def fidelity_html(ds=None, fid=None) -> str:
         return ""
     return (f"{_TABLE_CSS}<div class='pte-table pte-fidelity'>"
             f"{human_text(fidelity.html_table(summary))}</div>")
+
+
+def _cap_stopped(reason: str) -> bool:
+    """Whether a skipped variant was stopped by the wall-time cap (not just not needed)."""
+    return "max_wall_s" in reason
+
+
+def fidelity_check_html(summary: dict) -> str:
+    """The answer of a fidelity check (``explorer.fidelity.summary``) for the Summary tab: could a
+    verdict flip, in large type; the fuller models stopped by the wall-time cap, listed as such;
+    then the table of figures (``explorer.fidelity.html_table``)."""
+    from explorer import fidelity
+
+    flip = summary.get("verdict_could_flip", "not evaluated")
+    skipped = summary.get("skipped") or []
+    stopped = [s for s in skipped if _cap_stopped(str(s.get("reason", "")))]
+    ran = list(summary.get("variants", []))[1:]
+    if flip == "yes":
+        answer = ("<b style='color:#B2182B'>YES</b>: a fuller model puts a figure on the "
+                  "other side of a limit; check this design point on the fuller model before "
+                  "trusting its verdict")
+    elif flip == "no":
+        answer = (f"<b style='color:#1B7837'>no</b> on the fuller models run "
+                  f"({_esc(', '.join(ran))})")
+        if stopped:
+            answer += (f"; <span style='{_NOT_EVALUATED_STYLE}'>not known for the "
+                       f"{len(stopped)} stopped by the wall-time cap (below)</span>")
+    else:
+        why = ("no limits set" if summary.get("limits") is None
+               else "no fuller model ran" if not ran else "no comparable figure")
+        answer = f"<span style='{_NOT_EVALUATED_STYLE}'>not evaluated ({_esc(why)})</span>"
+    parts = [f"<h4 class='pte-could-flip'>Could a verdict flip on the fuller models? {answer}</h4>"]
+    if stopped:
+        items = "".join(f"<li><b>{_esc(s['variant'])}</b>: {_esc(human_text(s['reason']))}</li>"
+                        for s in stopped)
+        parts.append(f"<div class='pte-fidelity-stopped' style='{_WARNING_STYLE}'><b>Stopped by "
+                     f"the wall-time cap</b> (not compared; raise the cap beside the button to "
+                     f"run them):<ul style='margin:0.2em 0'>{items}</ul></div>")
+    parts.append(f"{_TABLE_CSS}<div class='pte-table pte-fidelity'>"
+                 f"{human_text(fidelity.html_table(summary))}</div>")
+    return "".join(parts)
 
 
 def human_text(text: str) -> str:
