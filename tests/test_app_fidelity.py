@@ -161,7 +161,8 @@ def test_no_flip_names_the_models_run_and_those_stopped(fake_simulate, checks):
     app.check()
     text = _text(app.fidelity_result)
     answer = html.unescape(app.fidelity_result.value.split("</h4>")[0])
-    assert "? <b style='color:#1B7837'>no</b> on the fuller models run (dfn, finer grid)" in answer
+    assert "? <b style='color:#1B7837'>no</b>: every verdict stays as it is on the fuller models " \
+        "run (dfn, finer grid)" in answer
     assert "not known for the 1 stopped by the wall-time cap" in answer
     stopped = text.split("Stopped by the wall-time cap")[1].split("Fidelity check")[0]
     assert "distributed" in stopped and "DFN already" not in stopped  # not needed is not stopped

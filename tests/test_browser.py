@@ -395,6 +395,15 @@ def _steps(page, lab, work, artifacts, shots, errors, timings) -> None:
     _tab(app, "Compare").click()
     page.wait_for_timeout(700)
     _shot(app, artifacts, "app_compare", shots)
+    # how far to trust run 2: its verdicts checked against the fuller models (Summary tab)
+    _tab(app, "Summary").click()
+    t0 = time.perf_counter()
+    app.locator("button.pte-check-fidelity").click()
+    _wait_status(page, app, "checked against the fuller models", 90)
+    timings["fidelity check of run 2"] = time.perf_counter() - t0
+    assert app.locator(".pte-fidelity-result table").count() == 1, "no fidelity table shown"
+    assert "Could a verdict flip" in app.locator(".pte-could-flip").inner_text()
+    _shot(app, artifacts, "app_fidelity_check", shots)
     _tab(app, "Temperature").click()
 
     # the time slider: End goes to the last step

@@ -344,7 +344,7 @@ class ExplorerApp(widgets.VBox):
         self.fidelity_result.add_class("pte-fidelity-result")
         self._fidelity_box = widgets.VBox([
             widgets.HBox([self.fidelity_button, self.fidelity_cap, self.fidelity_note],
-                         layout=widgets.Layout(align_items="center")),
+                         layout=widgets.Layout(align_items="center", margin="0.8em 0 0 0")),
             self.fidelity_result])
         self._fidelity_box.add_class("pte-fidelity-box")
 
@@ -1585,8 +1585,8 @@ def fidelity_check_html(summary: dict) -> str:
                   "other side of a limit; check this design point on the fuller model before "
                   "trusting its verdict")
     elif flip == "no":
-        answer = (f"<b style='color:#1B7837'>no</b> on the fuller models run "
-                  f"({_esc(', '.join(ran))})")
+        answer = (f"<b style='color:#1B7837'>no</b>: every verdict stays as it is on the "
+                  f"fuller models run ({_esc(', '.join(ran))})")
         if stopped:
             answer += (f"; <span style='{_NOT_EVALUATED_STYLE}'>not known for the "
                        f"{len(stopped)} stopped by the wall-time cap (below)</span>")
