@@ -184,11 +184,19 @@ class ModuleThermal:
     Per-cell figures are kept under a fingerprint of the stacked temperature
     field: the heat flows (which come with the step) for every state a step
     produces, the rest (core, faces, hottest and coldest, coolant in and out,
-    stored heat) when the stepper records a state (it asks for
-    :meth:`core_temperature_C` then). :meth:`recorded` looks the stepper's
-    recorded fields up, so the per-cell figures are those of exactly the
-    recorded states.
+    stored heat) when the stepper asks for the recorded states' figures: all
+    at once when the run ends (:meth:`recorded_figures`, vectorised over cells
+    and states for the 2-D field), or one state at a time through
+    :meth:`core_temperature_C` (a stepper without the batched path).
+    :meth:`recorded` looks the stepper's recorded fields up, so the per-cell
+    figures are those of exactly the recorded states.
     """
+
+    # per-cell figures a model's batched ``recorded_figures`` gives (besides the coolant)
+    _CELL_KEYS = ("core_max", "hottest", "coldest", "front_max", "front_min", "back_max",
+                  "back_min", "through_difference", "stored_J")
+    # cell states per call of the model's ``recorded_figures`` (bounds the memory it takes)
+    _BATCH_ROWS = 24
 
     def __init__(self, model, cells: int, sinks):
         self.model = model
@@ -199,7 +207,7 @@ class ModuleThermal:
         self.heat_capacity_J_per_K = self.cells * model.heat_capacity_J_per_K
         self.stream = sinks.coolant
         self.inlet_C = None if self.stream is None else float(self.stream.inlet_C)
-        self._flows, self._through_figures = {}, {}
+        self._flows, self._through_figures, self._through_parts = {}, {}, []
         self._last_through = None
         n = g.nx * g.ny * self.cells
         self._probe = np.unique(np.linspace(0, n - 1, min(n, 97)).astype(int))
@@ -272,6 +280,59 @@ class ModuleThermal:
         tt = self._record_through(state, heat_W)
         return {k: v for k, v in tt.items() if k != "core"}
 
+    def recorded_figures(self, states, heat_W) -> dict:
+        """The stepper's figures of many recorded states at once (contract item 7 of
+        :mod:`explorer.inplane.base`), as the single-state members give them; each state's
+        per-cell figures are kept by fingerprint for :meth:`recorded`.
+
+        ``states`` (m, cells x n): each recorded module state flattened; ``heat_W``
+        (m, cells ny, nx). Every figure depends on the state alone: each cell's coolant
+        inlet and outlet are read from that state (the 2-D field holds them as nodes) or,
+        for a model without coolant nodes, chained from the module's inlet, which does not
+        change during a run.
+        """
+        x = np.asarray(states, dtype=float)
+        m = x.shape[0]
+        x = x.reshape(m, self.cells, -1)
+        heat = np.asarray(heat_W, dtype=float).reshape(m, self.cells, *self.cell_grid.shape)
+        per, T = self._cell_figures(x, heat)
+        self._keep_through([self._key(t) for t in T], per)
+        outlet = per["outlet"][:, -1] if self.stream is not None else np.full(m, np.nan)
+        return {"temperature": T,
+                "core_difference": per["core_max"].max(axis=1) - T.reshape(m, -1).max(axis=1),
+                "hottest": per["hottest"].max(axis=1), "coldest": per["coldest"].min(axis=1),
+                "front_max": per["front_max"].max(axis=1),
+                "front_min": per["front_min"].min(axis=1),
+                "back_max": per["back_max"].max(axis=1), "back_min": per["back_min"].min(axis=1),
+                "through_difference": per["through_difference"].max(axis=1),
+                "coolant_outlet": outlet, "stored_J": per["stored_J"].sum(axis=1)}
+
+    def _cell_figures(self, x, heat):
+        """Per-cell figures of ``m`` module states, name -> (m, cells), and the stacked
+        temperature fields (m, cells ny, nx): in one vectorised pass where the cell's model
+        has a batched ``recorded_figures`` and holds its coolant in its state (the 2-D
+        field), else state by state as :meth:`core_temperature_C` takes them."""
+        model = self.model
+        m, cells = x.shape[:2]
+        if (getattr(type(model), "recorded_figures", None) is not None
+                and hasattr(model, "coolant_inlet_C")):
+            rows, q = x.reshape(m * cells, -1), heat.reshape(m * cells, *heat.shape[2:])
+            n = self._BATCH_ROWS
+            parts = [model.recorded_figures(rows[i:i + n], q[i:i + n])
+                     for i in range(0, m * cells, n)]
+            if all("core_max" in p for p in parts):
+                def joined(key):
+                    return np.concatenate([p[key] for p in parts])
+
+                per = {k: joined(k).reshape(m, cells) for k in self._CELL_KEYS}
+                if self.stream is not None:
+                    per["inlet"] = joined("coolant_inlet").reshape(m, cells)
+                    per["outlet"] = joined("coolant_outlet").reshape(m, cells)
+                return per, joined("temperature").reshape(m, -1, self.grid.nx)
+        figures = [self._state_figures(s, h)[1] for s, h in zip(x, heat, strict=True)]
+        per = {k: np.stack([f[k] for f in figures]) for k in figures[0]}
+        return per, np.stack([self.temperature_C(s) for s in x])
+
     def _record_through(self, state, heat_W) -> dict:
         """The stacked through-thickness fields of ``state`` (kept for the last state asked
         about, which the stepper asks twice) and its per-cell extremes (kept by fingerprint)."""
@@ -280,11 +341,21 @@ class ModuleThermal:
         last = self._last_through
         if last is not None and last[0] == key and np.array_equal(last[1], heat):
             return last[2]
+        tt, figures = self._state_figures(state, heat)
+        self._keep_through([key], {k: v[None] for k, v in figures.items()})
+        ny, nx = self.cell_grid.shape
+        stacked = {k: v.reshape(self.cells * ny, nx) for k, v in tt.items()}
+        self._last_through = (key, heat, stacked)
+        return stacked
+
+    def _state_figures(self, state, heat):
+        """One module state's through-thickness fields (cells, ny, nx) and its per-cell
+        figures (name -> (cells,)): the single-state path."""
         tt = self._through(state, heat)
         if "core" not in tt:
             tt["core"] = np.stack([self.model.core_temperature_C(x, h)
                                    for x, h in zip(state, heat, strict=True)])
-        self._through_figures[key] = {
+        figures = {
             "stored_J": np.array([self.model.stored_J(x) for x in state]),
             **dict(zip(("inlet", "outlet"), self._coolant(state) if self.stream else ())),
             "core_max": tt["core"].max(axis=(1, 2)),
@@ -296,10 +367,14 @@ class ModuleThermal:
             "back_min": tt["back"].min(axis=(1, 2)),
             "through_difference": (tt["hottest"] - tt["coldest"]).max(axis=(1, 2)),
         }
-        ny, nx = self.cell_grid.shape
-        stacked = {k: v.reshape(self.cells * ny, nx) for k, v in tt.items()}
-        self._last_through = (key, heat, stacked)
-        return stacked
+        return tt, figures
+
+    def _keep_through(self, keys, per) -> None:
+        """Keep per-cell figures (name -> (len(keys), cells)) under the states' fingerprints."""
+        part = len(self._through_parts)
+        self._through_parts.append(per)
+        for j, key in enumerate(keys):
+            self._through_figures[key] = (part, j)
 
     def coolant_outlet_C(self, state):
         """Coolant leaving the module (the last cell)."""
@@ -364,7 +439,7 @@ class ModuleThermal:
     def recorded(self, record) -> dict:
         """Per-cell figures at the record's times: name -> array (cells, time); the mean
         field's extremes from the recorded fields themselves."""
-        rows = []
+        rows, where = [], []
         for T in record.temperature:
             key = self._key(T)
             flows, through = self._flows.get(key), self._through_figures.get(key)
@@ -372,9 +447,16 @@ class ModuleThermal:
                 raise RuntimeError("module: a recorded temperature field matches no state the "
                                    "module's thermal steps produced and recorded (has the "
                                    "stepper's contract changed?)")
-            rows.append({**flows, **through})
-        self._flows, self._through_figures, self._last_through = {}, {}, None
+            rows.append(flows)
+            where.append(through)
+        parts = self._through_parts
+        self._flows, self._through_figures, self._through_parts = {}, {}, []
+        self._last_through = None
         out = {k: np.stack([r[k] for r in rows], axis=1) for k in rows[0] if k != "sinks"}
+        start = np.cumsum([0] + [len(p["stored_J"]) for p in parts])
+        at = [start[p] + j for p, j in where]
+        for k in parts[0]:  # every recorded state's row, in the record's order
+            out[k] = np.concatenate([p[k] for p in parts])[at].T
         fields = np.stack(record.temperature).reshape(len(rows), self.cells, -1)
         out["max"], out["min"] = fields.max(axis=2).T, fields.min(axis=2).T
         out["mean"] = fields.mean(axis=2).T
@@ -448,8 +530,9 @@ class ModuleRods:
         if T.ndim == 0:
             T = np.full((self.cells * ny, nx), float(T))
         blocks = T.reshape(self.cells, ny, nx)
-        return [b if getattr(r, "field_temperature", False) else float(b.mean()) + 273.15
-                for r, b in zip(self.rods, blocks, strict=True)]
+        means = (blocks.mean(axis=(1, 2)) + 273.15).tolist()  # one call, not one per cell
+        return [b if getattr(r, "field_temperature", False) else t
+                for r, b, t in zip(self.rods, blocks, means, strict=True)]
 
     def _at(self, state, dt, temps, current):
         control = Control("current", float(current))

@@ -670,7 +670,8 @@ class PlaneThermal:
         ``core_difference`` (K, hottest core less hottest mean), ``hottest``, ``coldest``,
         ``front_max``, ``front_min``, ``back_max``, ``back_min`` (degC),
         ``through_difference`` (K), ``coolant_outlet`` (degC, NaN without a coolant stream)
-        and ``stored_J``.
+        and ``stored_J``; also ``core_max`` (degC, the hottest core) and ``coolant_inlet``
+        (degC, NaN without a coolant stream), which :mod:`explorer.module` keeps per cell.
         """
         x = np.asarray(states, dtype=float)
         heat = np.asarray(heat_W, dtype=float)
@@ -689,15 +690,16 @@ class PlaneThermal:
                                self.k_through_W_mK)
         core = T + heat.reshape(m, -1) * self._core_mean.ravel()
         hottest = np.maximum(prof["max"], core)
-        outlet = (x[:, self._coolant["boundary_nodes"][-1]] if self._coolant is not None
-                  else np.full(m, np.nan))
+        ends = self._coolant["boundary_nodes"][[0, -1]] if self._coolant is not None else None
+        inlet, outlet = (x[:, ends].T if ends is not None else np.full((2, m), np.nan))
         return {"temperature": T.reshape(m, *self.grid.shape),
                 "core_difference": core.max(axis=1) - T.max(axis=1),
                 "hottest": hottest.max(axis=1), "coldest": prof["min"].min(axis=1),
                 "front_max": prof["front"].max(axis=1), "front_min": prof["front"].min(axis=1),
                 "back_max": prof["back"].max(axis=1), "back_min": prof["back"].min(axis=1),
                 "through_difference": (hottest - prof["min"]).max(axis=1),
-                "coolant_outlet": outlet, "stored_J": x @ self._c}
+                "coolant_outlet": outlet, "stored_J": x @ self._c,
+                "core_max": core.max(axis=1), "coolant_inlet": inlet}
 
     # -- coolant outputs --
     @property
@@ -736,10 +738,14 @@ class PlaneThermal:
         if self._coolant is None:
             raise InputError(f"cell {self.cell_name!r}: `{what}` needs a coolant stream in the "
                              f"sinks, got none")
+        checked = getattr(self, "_first_cell_inlet", None)
+        if checked is not None:  # the matrix never changes: one (slow) sparse look-up
+            return checked
         b0, bS = self._coolant["boundary_nodes"][[0, -1]]
         if self._K[b0, bS] != 0:
             raise InputError(f"cell {self.cell_name!r}: `{what}` needs the sinks of the first "
                              f"cell on the coolant (`upstream_cells` = 0)")
+        self._first_cell_inlet = int(b0)
         return int(b0)
 
     def step_series(self, states, heat_W, dt, tab_heat_W=None, inlet_C=None):
@@ -804,15 +810,19 @@ class PlaneThermal:
         else:
             b0 = self._inlet_node("step_series")
             bS = self._coolant["boundary_nodes"][-1]
-            t_in = float(self._s[b0]) if inlet_C is None else float(
-                _field("inlet_C", inlet_C, (), nonnegative=False))
+            if inlet_C is None:
+                t_in = float(self._s[b0])
+            elif type(inlet_C) is float and math.isfinite(inlet_C):  # checked cheaply: per step
+                t_in = inlet_C
+            else:
+                t_in = float(_field("inlet_C", inlet_C, (), nonnegative=False))
             rhs[b0] = 0.0
             zero, unit = lu.solve(rhs), self._unit_inlet_response(dt_lu, lu, b0)
             inlets = np.empty(m)
             for k in range(m):
                 inlets[k] = t_in
                 t_in = zero[bS, k] + unit[bS] * t_in
-            new = zero + np.outer(unit, inlets)
+            new = zero + np.multiply.outer(inlets, unit).T  # laid out as ``zero`` (columns)
         flows = (self._F @ new).T - self._F0
         names = self._flow_names
         return (np.ascontiguousarray(new.T),
