@@ -210,6 +210,7 @@ class ModuleThermal:
         self.inlet_C = None if self.stream is None else float(self.stream.inlet_C)
         self._flows, self._through_figures, self._through_parts = {}, {}, []
         self._last_through = None
+        self._sheet = None  # whether a cell's field is the first nx ny values of its state
         n = g.nx * g.ny * self.cells
         self._probe = np.unique(np.linspace(0, n - 1, min(n, 97)).astype(int))
 
@@ -256,6 +257,15 @@ class ModuleThermal:
         return new, total
 
     def temperature_C(self, state) -> np.ndarray:
+        state = np.asarray(state)
+        if self._sheet is None:  # asked once: the 2-D field's state starts with its sheet
+            probe = np.arange(state.shape[1], dtype=float)
+            size = self.cell_grid.nx * self.cell_grid.ny
+            self._sheet = bool(np.array_equal(np.ravel(self.model.temperature_C(probe)),
+                                              probe[:size]))
+        if self._sheet:  # the same values as the cells' fields stacked, in one slice
+            return np.array(state[:, : self.cell_grid.nx * self.cell_grid.ny],
+                            dtype=float).reshape(self.grid.shape)
         return np.concatenate([self.model.temperature_C(x) for x in state], axis=0)
 
     def mean_temperature_C(self, state) -> float:
