@@ -133,7 +133,6 @@ class SPM(RodModel):
         self.current_1C_A = params.capacity_Ah
         self.size = 2 * self.nr + self._extra_size() + 1
         self._outer = (self.nr - 1, 2 * self.nr - 1)  # outer shells in the state
-        self._ops: dict = {}  # (dt, T) -> _StepOperator
         self._temps: dict = {}  # T -> _AtTemperature
         self._last_op = None  # the operator of the last step (_operator)
         self._ea = np.array(self._activation_energies())
@@ -314,28 +313,23 @@ class SPM(RodModel):
         return at
 
     def _operator(self, dt, T) -> _StepOperator:
-        """The whole step's linear part at ``(dt, T)``, cached: backward Euler in each part's
+        """The whole step's linear part at ``(dt, T)``: backward Euler in each part's
         eigenbasis, every mode decays by ``1 / den``, ``den = 1 + dt s lam``; the response per ampere
         ``q`` is made only when a control needs the current solved for (:meth:`_response`).
-        The last operator is checked first: a retried step, or a run at one temperature."""
+        The last one is kept (a retried step, or a run at one temperature, finds it ready);
+        another costs a product, its temperature's constants cached (:meth:`_at`)."""
         op = self._last_op
         if op is not None and op.dt == dt and op.at.T == T:
             return op
-        key = (dt, T)
-        op = self._ops.get(key)
-        if op is None:
-            op = _StepOperator()
-            op.at = at = self._at(T)
-            if at.rate_lam is None:  # den = [1 | RL] @ [1, dt f], one product
-                fdt = [dt * v for v in at.f]
-                fdt.insert(0, 1.0)
-                den = self._blocks["RL1"].dot(fdt)
-            else:
-                den = 1.0 + dt * at.rate_lam
-            op.dt, op.den, op.q, op.surf_q = dt, den, None, None
-            if len(self._ops) >= CACHE_SIZE:
-                self._ops.clear()
-            self._ops[key] = op
+        op = _StepOperator()
+        op.at = at = self._temps.get(T) or self._at(T)
+        if at.rate_lam is None:  # den = [1 | RL] @ [1, dt f], one product
+            fdt = [dt * v for v in at.f]
+            fdt.insert(0, 1.0)
+            den = self._blocks["RL1"].dot(fdt)
+        else:
+            den = 1.0 + dt * at.rate_lam
+        op.dt, op.den, op.q, op.surf_q = dt, den, None, None
         self._last_op = op
         return op
 
